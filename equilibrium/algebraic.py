@@ -1,0 +1,354 @@
+"""The finite algebraic problem of a given band structure.
+
+Let the support be S = ∪_{j=1}^k [a_j, b_j] with ends e_1 < … < e_{2k}, each
+end *soft* (density ~ distance^{1/2}) or *hard* (density ~ distance^{-1/2}).
+Write R(z) = ∏ (z - e_i), Q_h = ∏_{hard} (z - e), Q_s = ∏_{soft} (z - e) and
+G(z) = ∫ dμ(s)/(z - s).  Differentiating the Euler–Lagrange equality gives
+G_+ + G_- = V' on S, hence
+
+    G(z) = V'(z)/2 - (1/2) h(z) R(z)^{1/2} / Q_h(z)                        (1)
+
+with h analytic wherever V' is.  Splitting f = V' Q_h / R^{1/2} on an ellipse
+around the window (see :mod:`equilibrium.ellipse`) into its inner part K and
+outer part r, and using G ~ 1/z, one finds
+
+    h = K - 2 P,   P monic of degree #h - k - 1 (P = 0 when #h ≤ k),       (2)
+
+and the conditions
+
+    moments:  r = 2 (z - c)^{-(k - #h + 1)} + …   (when #h ≤ k),           (3)
+    gaps:     ∫_{b_j}^{a_{j+1}} h(x) R(x)^{1/2}/Q_h(x) dx = 0,  j = 1..k-1 (4)
+
+(4) says the effective potential 2U + V - ℓ takes the same value at both
+ends of every gap, i.e. one constant ℓ on all bands.  The free coefficients
+of P and the positions of the soft ends are the unknowns; (3)–(4) are as many
+equations.  With every end hard this is the signed problem on E = S and the
+system is linear in P; otherwise it is solved by Newton's method.
+
+Formulas (1)–(4) are the classical ones for soft edges (Deift, Kriecherbauer
+and McLaughlin, J. Approx. Theory 95 (1998) 388–475, §2; Saff and Totik,
+Logarithmic Potentials with External Fields, 1997, ch. IV), written here for
+any mixture of soft and hard ends.  Because V' enters only through its
+Chebyshev approximation on the window and all gap integrals use the angular
+rule of :mod:`equilibrium.quadrature`, the cost depends on the smoothness of
+V on the window and only logarithmically on the width of the gaps.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.polynomial import chebyshev as C
+
+from .chebyshev import ChebyshevApproximation, chebyshev_fit
+from .ellipse import JoukowskiEllipse, ellipse_for
+from .errors import InputError, NumericalFailure
+from .field import Field
+from .quadrature import AngularRule, angular_rule
+
+#: the largest number of bands the window's ellipse is sized for
+MAX_BANDS = 12
+
+
+@dataclass(frozen=True)
+class Window:
+    """The field seen on a window J = [lower, upper] ⊇ hull of the support."""
+
+    field: Field
+    dV: ChebyshevApproximation
+    ellipse: JoukowskiEllipse
+    dV_on_ellipse: np.ndarray
+
+    @property
+    def lower(self) -> float:
+        return self.dV.lower
+
+    @property
+    def upper(self) -> float:
+        return self.dV.upper
+
+    def t(self, x):
+        return self.dV.to_t(x)
+
+
+def field_window(field: Field, lower: float, upper: float, variant: bool = False) -> Window:
+    """Approximate V' on [lower, upper] and lay the ellipse around it.
+
+    ``variant=True`` lays a second, different ellipse (other radius and
+    number of points) for an independent discretisation of the same problem.
+    """
+    if not (math.isfinite(lower) and math.isfinite(upper) and lower < upper):
+        raise InputError(f"window [{lower}, {upper}] must be a finite interval")
+    degree = None if field.polynomial is None else max(len(field.polynomial) - 2, 0)
+    dV = chebyshev_fit(field.dV, lower, upper, degree=degree)
+    ellipse = ellipse_for(lower, upper, dV.degree + (9 if variant else 0), 4 + (3 if variant else 0))
+    return Window(field, dV, ellipse, ellipse.on_ellipse(dV.coefficients))
+
+
+@dataclass(frozen=True)
+class BandStructure:
+    """Ends e_1 < … < e_{2k} of the bands and which of them are hard."""
+
+    ends: np.ndarray
+    hard: np.ndarray
+
+    def __post_init__(self):
+        ends = np.asarray(self.ends, dtype=float)
+        hard = np.asarray(self.hard, dtype=bool)
+        if ends.ndim != 1 or ends.size % 2 or ends.size == 0 or hard.shape != ends.shape:
+            raise ValueError("a band structure needs 2k ends and 2k edge kinds")
+        if np.any(np.diff(ends) <= 0):
+            raise ValueError("band ends must increase strictly")
+        object.__setattr__(self, "ends", ends)
+        object.__setattr__(self, "hard", hard)
+
+    @property
+    def bands(self) -> int:
+        return self.ends.size // 2
+
+    @property
+    def hard_count(self) -> int:
+        return int(self.hard.sum())
+
+    @property
+    def free_polynomial_terms(self) -> int:
+        return max(self.hard_count - self.bands - 1, 0)
+
+    @property
+    def moment_conditions(self) -> int:
+        return max(self.bands - self.hard_count + 1, 0)
+
+    def with_ends(self, ends: np.ndarray) -> "BandStructure":
+        return BandStructure(ends, self.hard)
+
+
+def monic_leading(half_width: float, degree: int) -> float:
+    """Chebyshev coefficient of T_degree(t) in the monic polynomial x^degree, x = c + d t."""
+    if degree == 0:
+        return 1.0
+    return half_width ** degree / 2.0 ** (degree - 1)
+
+
+def sqrt_R(z: np.ndarray, ends: np.ndarray) -> np.ndarray:
+    """R(z)^{1/2} = ∏ (z - e)^{1/2} with principal roots: ~ z^k at ∞, cuts on the bands.
+
+    For real x the value is the boundary value from the upper half-plane.
+    """
+    z = np.asarray(z, dtype=complex)
+    out = np.ones(z.shape, dtype=complex)
+    for e in ends:
+        out = out * np.sqrt(z - e)
+    return out
+
+
+def q_hard(z: np.ndarray, structure: BandStructure) -> np.ndarray:
+    z = np.asarray(z)
+    out = np.ones(z.shape, dtype=complex if np.iscomplexobj(z) else float)
+    for e in structure.ends[structure.hard]:
+        out = out * (z - e)
+    return out
+
+
+def gap_rule(structure: BandStructure, gap: int) -> AngularRule:
+    """Angular rule on gap ``gap`` (0-based: between bands gap and gap+1)."""
+    e = structure.ends
+    lo, hi = e[2 * gap + 1], e[2 * gap + 2]
+    return angular_rule(lo, hi, near_lo=lo - e[2 * gap], near_hi=e[2 * gap + 3] - hi)
+
+
+def distance_product(
+    structure: BandStructure, lo_index: int, hi_index: int, rule: AngularRule, include_jacobian: bool = True
+) -> np.ndarray:
+    """∏_e |x - e|^{σ_e} (· dx/dθ) at the nodes of a rule on [e_lo, e_hi].
+
+    σ_e = +1/2 for soft ends and -1/2 for hard ends, so the product is
+    |R(x)|^{1/2} / |Q_h(x)|.  The rule's interval runs between two
+    consecutive ends (a band or a gap) or from the last end outward
+    (``hi_index = None`` style: pass ``hi_index = len(ends)``); distances to
+    its own ends come from the angle and distances to the others are formed
+    beyond the interval, so nothing cancels.
+    """
+    e, hard = structure.ends, structure.hard
+    weight = rule.dx_dtheta.copy() if include_jacobian else np.ones_like(rule.x)
+    for index, point in enumerate(e):
+        if index == lo_index:
+            distance = rule.from_lo
+        elif index == hi_index:
+            distance = rule.to_hi
+        else:
+            distance = rule.distance_to(point)
+        weight *= distance ** (-0.5 if hard[index] else 0.5)
+    return weight
+
+
+def gap_sign(structure: BandStructure, gap: int) -> int:
+    """Sign of R^{1/2}/Q_h on gap ``gap`` (0-based).
+
+    On gap j, R^{1/2} = (-1)^{k-1-j} |R|^{1/2} (principal roots), and Q_h has
+    the sign (-1)^{#hard ends right of the gap}.
+    """
+    k = structure.bands
+    return (-1) ** (k - 1 - gap) * (-1) ** int(structure.hard[2 * gap + 2:].sum())
+
+
+def band_sign(structure: BandStructure, band: int) -> int:
+    """Sign s_j with ψ = s_j h |R|^{1/2}/(2π |Q_h|) ... written ψ = s_j h ∏|x-e|^{σ_e}/(2π) on band j.
+
+    From (1): ψ = -(1/π) Im G_+ = (-1)^{k-j} (-h Q_s/2)/(π |R|^{1/2}) (1-based j),
+    and sign Q_s = (-1)^{#soft ends right of x}.
+    """
+    k = structure.bands
+    soft_right = int((~structure.hard[2 * band + 1:]).sum())
+    return (-1) ** (k - 1 - band + 1) * (-1) ** soft_right
+
+
+def gap_weight(rule: AngularRule, structure: BandStructure, gap: int) -> np.ndarray:
+    """R^{1/2}/Q_h · dx/dθ at the nodes of a gap rule: real and signed."""
+    return gap_sign(structure, gap) * distance_product(structure, 2 * gap + 1, 2 * gap + 2, rule)
+
+
+@dataclass(frozen=True)
+class AlgebraicState:
+    """Everything (2)–(4) give for one band structure and one P."""
+
+    structure: BandStructure
+    h: np.ndarray  # Chebyshev coefficients of h on the window
+    polynomial: np.ndarray  # Chebyshev coefficients of P on the window
+    moment_residuals: np.ndarray
+    gap_residuals: np.ndarray
+    jacobian: np.ndarray | None = None  # d(residual)/d(soft ends, free P coefficients)
+
+    @property
+    def residual(self) -> np.ndarray:
+        return np.concatenate([self.moment_residuals, self.gap_residuals])
+
+
+def algebraic_state(
+    window: Window, structure: BandStructure, p_free: np.ndarray, with_jacobian: bool = False
+) -> AlgebraicState:
+    """Evaluate (2)–(4) for the given ends and free coefficients of P.
+
+    With ``with_jacobian`` the derivatives with respect to the soft ends and
+    the free coefficients are computed too: since ∂f/∂e = f/(2(z - e)) for a
+    soft end e, all of them come from one batched FFT, and the derivative of
+    the gap weight is -w/(2(x - e)).
+    """
+    ellipse = window.ellipse
+    z = ellipse.z
+    f = window.dV_on_ellipse * q_hard(z, structure) / sqrt_R(z, structure.ends)
+    soft = np.nonzero(~structure.hard)[0] if with_jacobian else np.zeros(0, dtype=int)
+    if soft.size:
+        samples = np.vstack([f] + [f / (2.0 * (z - structure.ends[i])) for i in soft])
+    else:
+        samples = f[None, :]
+    scaled = ellipse.laurent(samples)
+    k, nh = structure.bands, structure.hard_count
+    count = min(window.dV.degree + nh + 3, ellipse.size // 2 - 1)
+    inner = ellipse.chebyshev_part(scaled, count)
+    h = inner[0].copy()
+    degree_P = nh - k - 1
+    q = max(degree_P, 0)
+    polynomial = np.zeros(max(degree_P + 1, 0))
+    if degree_P >= 0:
+        polynomial[:degree_P] = p_free
+        polynomial[degree_P] = monic_leading(ellipse.half_width, degree_P)
+        h[: degree_P + 1] -= 2.0 * polynomial
+    N = structure.moment_conditions
+    columns = soft.size + q
+    jacobian = np.zeros((N + k - 1, columns)) if with_jacobian else None
+    if N:
+        r = ellipse.outer_part(scaled, N)
+        m = np.arange(1, N + 1)
+        normal = (ellipse.half_width / 2.0) ** m / 2.0
+        moments = r[0] * normal
+        moments[-1] -= 1.0
+        if with_jacobian:
+            jacobian[:N, : soft.size] = (r[1:] * normal).T
+    else:
+        moments = np.zeros(0)
+    gaps = np.empty(k - 1)
+    for j in range(k - 1):
+        rule = gap_rule(structure, j)
+        weight = gap_weight(rule, structure, j) * rule.weights
+        norm = np.sum(np.abs(weight))
+        basis = C.chebvander(window.t(rule.x), count - 1)
+        h_nodes = basis[:, : len(h)] @ h
+        gaps[j] = np.dot(weight, h_nodes) / norm
+        if with_jacobian:
+            row = N + j
+            for column, i in enumerate(soft):
+                dh = basis @ inner[1 + column]
+                signed = rule.x - structure.ends[i]
+                if i == 2 * j + 1:
+                    signed = rule.from_lo
+                elif i == 2 * j + 2:
+                    signed = -rule.to_hi
+                jacobian[row, column] = (np.dot(weight, dh) - np.dot(weight, h_nodes / (2.0 * signed))) / norm
+            for l in range(q):
+                jacobian[row, soft.size + l] = -2.0 * np.dot(weight, basis[:, l]) / norm
+    return AlgebraicState(structure, h, polynomial, moments, gaps, jacobian)
+
+
+@dataclass(frozen=True)
+class AlgebraicSolution:
+    state: AlgebraicState
+    iterations: int
+    residual_norm: float
+    converged: bool
+
+
+def solve_structure(
+    window: Window,
+    structure: BandStructure,
+    bounds: np.ndarray | None = None,
+    p_free: np.ndarray | None = None,
+    tolerance: float = 5e-15,
+    max_iterations: int = 40,
+) -> AlgebraicSolution:
+    """Solve (3)–(4) for the soft ends and the free coefficients of P.
+
+    Newton's method with the Jacobian of :func:`algebraic_state` and a
+    backtracking line search that keeps the ends ordered and each soft end
+    inside its piece of Σ (``bounds``, shape (2k, 2)).  When no step
+    reduces the residual the iteration stops and ``converged`` is False: the
+    caller then changes the structure (an end turns hard, a band or gap
+    closes).
+    """
+    soft = np.nonzero(~structure.hard)[0]
+    q = structure.free_polynomial_terms
+    if len(soft) + q != structure.moment_conditions + structure.bands - 1:
+        raise ValueError("unbalanced algebraic system")  # pragma: no cover - a logic error
+    p = np.zeros(q) if p_free is None else np.asarray(p_free, dtype=float)
+    ends = structure.ends.copy()
+    state = algebraic_state(window, structure, p, with_jacobian=True)
+    norm = float(np.max(np.abs(state.residual))) if state.residual.size else 0.0
+    iterations = 0
+    for iterations in range(1, max_iterations + 1):
+        if norm < tolerance:
+            break
+        try:
+            delta = np.linalg.solve(state.jacobian, -state.residual)
+        except np.linalg.LinAlgError:
+            delta = np.linalg.lstsq(state.jacobian, -state.residual, rcond=None)[0]
+        scale = 1.0
+        accepted = False
+        for _ in range(30):
+            trial = ends.copy()
+            trial[soft] += scale * delta[: len(soft)]
+            ok = bool(np.all(np.diff(trial) > 0))
+            if ok and bounds is not None:
+                ok = bool(np.all(trial >= bounds[:, 0]) and np.all(trial <= bounds[:, 1]))
+            if ok:
+                trial_p = p + scale * delta[len(soft):]
+                trial_state = algebraic_state(window, structure.with_ends(trial), trial_p, with_jacobian=True)
+                trial_norm = float(np.max(np.abs(trial_state.residual)))
+                if np.isfinite(trial_norm) and (trial_norm < norm or trial_norm < tolerance):
+                    ends, p, state, norm = trial, trial_p, trial_state, trial_norm
+                    accepted = True
+                    break
+            scale /= 2.0
+        if not accepted:
+            break
+    return AlgebraicSolution(state, iterations, norm, norm < 1e-11)

@@ -1,0 +1,737 @@
+"""The equilibrium measure as a result object, with its verification figures.
+
+:func:`build_measure` turns the solution of the algebraic problem
+(:mod:`equilibrium.algebraic`) into an :class:`EquilibriumMeasure`:
+density, band masses, phases Ω_j, the constant ℓ, the energy, the
+distribution function and its inverse, the effective potential and the
+Stieltjes transform, and the figures that show the result is right.
+
+Conventions (shared by the whole project):
+
+* energy I_V(μ) = ∬ log 1/|x-y| dμ dμ + ∫ V dμ; Euler–Lagrange
+  2U^μ + V = ℓ on S, ≥ ℓ on Σ \\ S, with U^μ(x) = ∫ log 1/|x-y| dμ(y);
+* I_V = (ℓ + ∫ V dμ)/2; for V = 0, ℓ = -2 log cap(Σ);
+* Ω_j = μ([a_{j+1}, b_k]), the mass to the right of gap j;
+* g(z) = ∫ log(z - s) dμ(s) with principal logarithms.
+
+How each figure is obtained (so that the checks are not circular):
+
+``mass_error``
+    max of |Σ band masses - 1| (angular quadrature of the density) and
+    |(1/2πi)∮ G - 1| (trapezoidal rule on the ellipse).
+``lagrange_spread``
+    ℓ computed independently at the left end of every band from the exact
+    V and integrals of G across the gaps; the spread of those values.
+``euler_lagrange_residual``
+    |2U^μ(x) + V(x) - ℓ| at band midpoints, with U^μ from a direct
+    quadrature of the logarithmic kernel against the density (a second,
+    independent discretisation).
+``density_margin``
+    min over the bands of the regular part of the density, relative to its
+    maximum (≥ 0 for a positive measure).
+``min_effective_potential``
+    min of the effective potential over its critical points and a sample of
+    the gaps and of Σ outside the hull (≥ 0 for the true minimiser; scaled
+    by max(1, |ℓ|)).
+``field_approximation``
+    relative tail of the Chebyshev approximation of V' on the window (0 for
+    polynomial fields).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field as dataclass_field, replace
+from typing import Any
+
+import numpy as np
+from numpy.polynomial import chebyshev as C
+
+from .algebraic import (
+    AlgebraicState,
+    BandStructure,
+    Window,
+    band_sign,
+    distance_product,
+    gap_sign,
+    q_hard,
+    sqrt_R,
+)
+from .field import Field
+from .quadrature import CumulativeIntegral, angular_breaks, angular_rule, cumulative_integral, theta_of_x
+from .sets import IntervalSet
+
+#: figures above these thresholds make a result unverified
+TOLERANCES = {
+    "mass_error": 1e-10,
+    "lagrange_spread": 1e-9,
+    "euler_lagrange_residual": 1e-8,
+    "density_margin": -1e-9,  # lower bound
+    "min_effective_potential": -1e-9,  # lower bound
+    "field_approximation": 1e-8,
+    "discretisation_agreement": 1e-9,
+}
+
+#: a margin below this (relative) marks the measure as singular rather than regular
+SINGULAR_THRESHOLD = 1e-7
+
+
+@dataclass(frozen=True)
+class Singularity:
+    kind: str  # "interior zero", "edge vanishing faster than square root", "effective potential touches zero", "hard edge with vanishing density"
+    x: float
+
+    def __str__(self) -> str:
+        return f"{self.kind} at x = {self.x:.12g}"
+
+
+@dataclass(frozen=True)
+class Classification:
+    regular: bool
+    singularities: tuple[Singularity, ...]
+
+    def __str__(self) -> str:
+        if self.regular:
+            return "regular"
+        return "singular: " + "; ".join(str(s) for s in self.singularities)
+
+
+@dataclass(frozen=True)
+class EquilibriumMeasure:
+    """Equilibrium measure μ_V of a field on a set, with verification figures.
+
+    See the module docstring for the conventions and for how every entry
+    of :attr:`checks` is computed.
+    """
+
+    support: tuple[tuple[float, float], ...]
+    edges: tuple[tuple[str, str], ...]
+    masses: np.ndarray
+    omega: np.ndarray
+    lagrange: float
+    energy: float
+    capacity: float | None
+    kind: str
+    verified: bool
+    checks: dict[str, float]
+    classification: Classification
+    message: str
+    field: Field = dataclass_field(repr=False)
+    on: IntervalSet = dataclass_field(repr=False)
+    _window: Window = dataclass_field(repr=False)
+    _state: AlgebraicState = dataclass_field(repr=False)
+    _g_scaled: np.ndarray = dataclass_field(repr=False)
+    _band_cdfs: tuple[CumulativeIntegral, ...] = dataclass_field(repr=False)
+    _outer: dict = dataclass_field(repr=False)
+
+    # ----------------------------------------------------------------- basics
+    @property
+    def bands(self) -> int:
+        return len(self.support)
+
+    @property
+    def genus(self) -> int:
+        return self.bands - 1
+
+    @property
+    def structure(self) -> BandStructure:
+        return self._state.structure
+
+    @property
+    def window(self) -> tuple[float, float]:
+        return (self._window.lower, self._window.upper)
+
+    def h(self, z) -> np.ndarray:
+        """The analytic factor h of G - V'/2 = -(1/2) h R^{1/2}/Q_h."""
+        return C.chebval(self._window.t(np.asarray(z)), self._state.h)
+
+    def sqrt_ratio(self, z) -> np.ndarray:
+        """R(z)^{1/2}/Q_h(z) on the first sheet (boundary value from above on the bands)."""
+        z = np.asarray(z, dtype=complex)
+        return sqrt_R(z, self.structure.ends) / q_hard(z, self.structure)
+
+    # ---------------------------------------------------------------- density
+    def _regular_part(self, band: int, x: np.ndarray) -> np.ndarray:
+        """η(x) = s_j h(x): ψ = η ∏|x-e|^{σ_e}/(2π) on band j; η ≥ 0 for a positive measure."""
+        return band_sign(self.structure, band) * self.h(x)
+
+    def density(self, x) -> np.ndarray:
+        """ψ(x) = dμ/dx, zero off the support (vectorised)."""
+        x = np.asarray(x, dtype=float)
+        out = np.zeros(x.shape)
+        e, hard = self.structure.ends, self.structure.hard
+        for j, (a, b) in enumerate(self.support):
+            inside = (x > a) & (x < b)
+            if not np.any(inside):
+                continue
+            xs = x[inside]
+            value = self._regular_part(j, xs) / (2 * math.pi)
+            for index, point in enumerate(e):
+                value = value * np.abs(xs - point) ** (-0.5 if hard[index] else 0.5)
+            out[inside] = value
+        return out
+
+    def distribution(self, x) -> np.ndarray:
+        """F(x) = μ((-∞, x])."""
+        x = np.asarray(x, dtype=float)
+        out = np.zeros(x.shape)
+        before = 0.0
+        for j, (a, b) in enumerate(self.support):
+            out[x >= b] = before + self.masses[j]
+            inside = (x > a) & (x < b)
+            if np.any(inside):
+                out[inside] = before + self._band_cdfs[j].at_theta(theta_of_x(a, b, x[inside]))
+            before += self.masses[j]
+        return np.clip(out, 0.0, 1.0)
+
+    def quantile(self, p) -> np.ndarray:
+        """The inverse of F: the x with F(x) = p, for p in [0, 1] (bisection in the angle)."""
+        p = np.asarray(p, dtype=float)
+        if np.any((p < 0) | (p > 1)) or np.any(~np.isfinite(p)):
+            raise ValueError("quantile levels must lie in [0, 1]")
+        out = np.empty(p.shape)
+        cumulative = np.concatenate([[0.0], np.cumsum(self.masses)])
+        band = np.clip(np.searchsorted(cumulative, p, side="right") - 1, 0, self.bands - 1)
+        for j in np.unique(band):
+            mask = band == j
+            a, b = self.support[j]
+            target = p[mask] - cumulative[j]
+            lo = np.zeros(target.shape)
+            hi = np.full(target.shape, math.pi)
+            for _ in range(60):
+                mid = 0.5 * (lo + hi)
+                below = self._band_cdfs[j].at_theta(mid) < target
+                lo = np.where(below, mid, lo)
+                hi = np.where(below, hi, mid)
+            theta = 0.5 * (lo + hi)
+            out[mask] = a + (b - a) * np.sin(theta / 2) ** 2
+        return out
+
+    # ------------------------------------------------------------- transforms
+    def _u(self, z):
+        return self._window.ellipse.u_of_z(z)
+
+    def g_far(self, z) -> np.ndarray:
+        """g(z) from its Laurent series, valid where |u(z)| ≥ ρ (outside the ellipse)."""
+        ellipse = self._window.ellipse
+        u = self._u(z)
+        ratio = ellipse.rho / u
+        series = np.zeros(u.shape, dtype=complex)
+        power = np.ones(u.shape, dtype=complex)
+        for coefficient in self._g_scaled:
+            power = power * ratio
+            series = series + coefficient * power
+        return math.log(ellipse.half_width / 2) + np.log(u) + series
+
+    def stieltjes(self, z) -> np.ndarray:
+        """G(z) = ∫ dμ(s)/(z - s) for z off the support."""
+        z = np.asarray(z, dtype=complex)
+        ellipse = self._window.ellipse
+        u = self._u(z)
+        far = np.abs(u) >= ellipse.rho
+        out = np.empty(z.shape, dtype=complex)
+        if np.any(~far):
+            zn = z[~far]
+            out[~far] = 0.5 * (self._window.dV(zn) - self.h(zn) * self.sqrt_ratio(zn))
+        if np.any(far):
+            uf = u[far]
+            ratio = ellipse.rho / uf
+            m = np.arange(1, len(self._g_scaled) + 1)
+            series = np.zeros(uf.shape, dtype=complex)
+            power = np.ones(uf.shape, dtype=complex)
+            for mm, coefficient in zip(m, self._g_scaled):
+                power = power * ratio
+                series = series + mm * coefficient * power
+            dz_du = ellipse.half_width * 0.5 * (1 - uf ** -2)
+            out[far] = (1 - series) / uf / dz_du
+        return out
+
+    def effective_potential(self, x) -> np.ndarray:
+        """2U^μ(x) + V(x) - ℓ for real x in Σ (0 on S; NaN outside Σ)."""
+        x = np.asarray(x, dtype=float)
+        out = np.full(x.shape, np.nan)
+        inside_sigma = self.on.contains(x)
+        out[inside_sigma] = 0.0
+        e = self.structure.ends
+        for j in range(self.bands - 1):
+            lo, hi = e[2 * j + 1], e[2 * j + 2]
+            mask = inside_sigma & (x > lo) & (x < hi)
+            if np.any(mask):
+                out[mask] = self._outer["gaps"][j].at_theta(theta_of_x(lo, hi, x[mask]))
+        for side in ("left", "right"):
+            piece = self._outer.get(side)
+            if piece is None:
+                continue
+            lo, hi = piece.lo, piece.hi
+            mask = inside_sigma & (x >= lo) & (x <= hi) & ((x < e[0]) if side == "left" else (x > e[-1]))
+            if np.any(mask):
+                out[mask] = piece.at_theta(theta_of_x(lo, hi, x[mask]))
+            far = inside_sigma & ((x < lo) if side == "left" else (x > hi))
+            if np.any(far):
+                xf = x[far]
+                with np.errstate(all="ignore"):
+                    out[far] = self.field.V(xf) - 2 * self.g_far(xf.astype(complex)).real - self.lagrange
+        return out
+
+    def log_potential(self, x) -> np.ndarray:
+        """U^μ(x) = ∫ log 1/|x-y| dμ(y) by direct quadrature (real x; slow, for checks)."""
+        x = np.atleast_1d(np.asarray(x, dtype=float))
+        return np.array([_log_potential_at(self, xi) for xi in x])
+
+    # ----------------------------------------------------------------- export
+    def to_dict(self) -> dict[str, Any]:
+        """Plain numbers: what the command line prints and the files store."""
+        return {
+            "support": [[float(a), float(b)] for a, b in self.support],
+            "edges": [list(pair) for pair in self.edges],
+            "masses": [float(m) for m in self.masses],
+            "omega": [float(o) for o in self.omega],
+            "lagrange": float(self.lagrange),
+            "energy": float(self.energy),
+            "capacity": None if self.capacity is None else float(self.capacity),
+            "kind": self.kind,
+            "verified": bool(self.verified),
+            "classification": str(self.classification),
+            "singularities": [{"kind": s.kind, "x": s.x} for s in self.classification.singularities],
+            "checks": {k: float(v) for k, v in self.checks.items()},
+            "message": self.message,
+            "field": self.field.description,
+            "set": self.on.describe(),
+        }
+
+
+# ======================================================================= build
+def _band_rule_distances(structure: BandStructure, j: int) -> tuple[float | None, float | None]:
+    e = structure.ends
+    near_lo = e[2 * j] - e[2 * j - 1] if j > 0 else None
+    near_hi = e[2 * j + 2] - e[2 * j + 1] if j < structure.bands - 1 else None
+    return near_lo, near_hi
+
+
+def _band_integrand(measure_like, j: int, extra=None):
+    """θ ↦ ψ(x(θ)) dx/dθ (times extra(x)) on band j."""
+    structure, h_of = measure_like
+
+    def integrand(theta):
+        a, b = structure.ends[2 * j], structure.ends[2 * j + 1]
+        rule = _rule_at(a, b, theta)
+        value = band_sign(structure, j) * h_of(rule.x) * distance_product(structure, 2 * j, 2 * j + 1, rule) / (2 * math.pi)
+        if extra is not None:
+            value = value * extra(rule)
+        return value
+
+    return integrand
+
+
+@dataclass(frozen=True)
+class _PointRule:
+    """A minimal stand-in of AngularRule at given angles (for the integrands)."""
+
+    lo: float
+    hi: float
+    x: np.ndarray
+    from_lo: np.ndarray
+    to_hi: np.ndarray
+    dx_dtheta: np.ndarray
+
+    def distance_to(self, e: float) -> np.ndarray:
+        if e <= self.lo:
+            return self.from_lo + (self.lo - e)
+        return self.to_hi + (e - self.hi)
+
+
+def _rule_at(lo: float, hi: float, theta: np.ndarray) -> _PointRule:
+    length = hi - lo
+    s, c = np.sin(theta / 2), np.cos(theta / 2)
+    return _PointRule(lo, hi, lo + length * s * s, length * s * s, length * c * c, length * s * c)
+
+
+def _outer_integrand(structure: BandStructure, h_of, lo_index: int, hi_index: int, lo: float, hi: float, sign: int):
+    """θ ↦ eff'(x(θ)) dx/dθ = h R^{1/2}/Q_h dx/dθ on an interval between/after ends."""
+
+    def integrand(theta):
+        rule = _rule_at(lo, hi, theta)
+        return sign * h_of(rule.x) * distance_product(structure, lo_index, hi_index, rule)
+
+    return integrand
+
+
+def band_masses(window: Window, state: AlgebraicState) -> np.ndarray:
+    """Band masses by the angular rule (no cumulative pieces): a quick figure for comparisons."""
+    structure = state.structure
+
+    def h_of(x):
+        return C.chebval(window.t(x), state.h)
+
+    masses = []
+    for j in range(structure.bands):
+        a, b = structure.ends[2 * j], structure.ends[2 * j + 1]
+        rule = angular_rule(a, b, *_band_rule_distances(structure, j))
+        masses.append(float(np.dot(rule.weights, _band_integrand((structure, h_of), j)(rule.theta))))
+    return np.array(masses)
+
+
+def build_measure(
+    window: Window,
+    state: AlgebraicState,
+    field: Field,
+    on: IntervalSet,
+    kind: str,
+    extra_checks: dict[str, float] | None = None,
+    message: str = "",
+    light: bool = False,
+) -> EquilibriumMeasure:
+    """Assemble the result object and compute all verification figures.
+
+    ``light=True`` skips the expensive figures (direct log potential,
+    sampling of the effective potential): used for intermediate results.
+    """
+    structure = state.structure
+    k = structure.bands
+    e = structure.ends
+    ellipse = window.ellipse
+    h_coefficients = state.h
+
+    def h_of(x):
+        return C.chebval(window.t(x), h_coefficients)
+
+    support = tuple((float(e[2 * j]), float(e[2 * j + 1])) for j in range(k))
+    edges = tuple(
+        ("hard" if structure.hard[2 * j] else "soft", "hard" if structure.hard[2 * j + 1] else "soft") for j in range(k)
+    )
+
+    # band masses and distribution functions (angular panels)
+    cdfs = []
+    for j in range(k):
+        a, b = support[j]
+        near_lo, near_hi = _band_rule_distances(structure, j)
+        breaks = angular_breaks(b - a, near_lo, near_hi)
+        cdfs.append(cumulative_integral(_band_integrand((structure, h_of), j), a, b, breaks))
+    masses = np.array([c.total for c in cdfs])
+    omega = np.array([masses[j + 1:].sum() for j in range(k - 1)])
+
+    # G on the ellipse and the Laurent series of g
+    z = ellipse.z
+    G_ellipse = 0.5 * (window.dV_on_ellipse - h_of(z) * sqrt_R(z, e) / q_hard(z, structure))
+    scaled = ellipse.laurent(ellipse.u * G_ellipse * ellipse.dz_du)
+    total_mass = scaled[0].real
+    size = ellipse.size
+    m = np.arange(1, size // 2)
+    g_scaled = -scaled[-m] / m  # coefficient of (ρ/u)^m in g
+    g_scaled = np.asarray(g_scaled)
+    # keep the significant part of the series
+    significant = np.nonzero(np.abs(g_scaled) > 1e-18 * max(1.0, np.abs(g_scaled).max()))[0]
+    g_scaled = g_scaled[: (significant[-1] + 1) if significant.size else 1]
+    analytic_leak = float(np.max(np.abs(scaled[1 : size // 4])))  # should vanish: G is analytic outside
+
+    # ℓ from the right end: g(b_k) = g(X) - ∫_{b_k}^X G
+    X = ellipse.real_crossing
+    bk = e[-1]
+    rule = angular_rule(bk, X, near_lo=bk - e[-2])
+    weight = distance_product(structure, len(e) - 1, len(e), rule)
+    G_path = 0.5 * (window.dV(rule.x) * rule.dx_dtheta - h_of(rule.x) * weight)
+    u_X = ellipse.u_of_z(np.array([X + 0j]))
+    g_X = _g_series(ellipse, g_scaled, u_X)[0]
+    g_bk = g_X - np.dot(rule.weights, G_path)
+    V_bk = float(np.real(field.V(np.array([bk]))[0]))
+    lagrange = V_bk - 2.0 * g_bk.real
+
+    # ℓ at the left end of every band, through the gaps, with the exact V
+    dV_integral = window.dV.antiderivative(bk, 0.0)
+    lagranges = [lagrange]
+    gap_effs = []
+    gap_total = 0.0
+    for j in range(k - 2, -1, -1):
+        lo, hi = e[2 * j + 1], e[2 * j + 2]
+        breaks = angular_breaks(hi - lo, lo - e[2 * j], e[2 * j + 3] - hi)
+        eff = cumulative_integral(
+            _outer_integrand(structure, h_of, 2 * j + 1, 2 * j + 2, lo, hi, gap_sign(structure, j)), lo, hi, breaks
+        )
+        gap_effs.append(eff)
+        gap_total += eff.total
+        a = e[2 * j]
+        V_a = float(np.real(field.V(np.array([a]))[0]))
+        # ℓ_j - ℓ = [V(a_j) - V(b_k) + ∫_{a_j}^{b_k} V'_approx] - Σ_{gaps right of a_j} ∫ eff'
+        lagranges.append(lagrange + (V_a - V_bk + (0.0 - float(dV_integral(a)))) - gap_total)
+    gap_effs = gap_effs[::-1]
+    lagrange_spread = float(np.max(np.abs(np.array(lagranges) - lagrange)))
+
+    # the effective potential beside the hull, up to the ellipse crossing
+    outer: dict[str, Any] = {"gaps": tuple(gap_effs)}
+    sigma_lo, sigma_hi = on.hull
+    right_end = min(X, sigma_hi)
+    if right_end > bk and not structure.hard[-1] or (right_end > bk and structure.hard[-1]):
+        if right_end > bk:
+            breaks = angular_breaks(right_end - bk, bk - e[-2], None)
+            outer["right"] = cumulative_integral(
+                _outer_integrand(structure, h_of, len(e) - 1, len(e), bk, right_end, 1), bk, right_end, breaks
+            )
+    X_left = ellipse.center - ellipse.half_width * 0.5 * (ellipse.rho + 1 / ellipse.rho)
+    left_end = max(X_left, sigma_lo)
+    a1 = e[0]
+    if left_end < a1:
+        # on (-∞, a_1): R^{1/2}/Q_h has sign (-1)^k (-1)^{#hard}; eff(x) = -∫_x^{a_1} eff'
+        sign = (-1) ** k * (-1) ** structure.hard_count
+        breaks = angular_breaks(a1 - left_end, None, e[1] - a1)
+        piece = cumulative_integral(
+            _outer_integrand(structure, h_of, -1, 0, left_end, a1, sign), left_end, a1, breaks
+        )
+        outer["left"] = _Reversed(piece)
+
+    # energy: I = (ℓ + ∫ V dμ)/2 with ∫ V dμ by angular quadrature of the exact V
+    V_mean = 0.0
+    for j in range(k):
+        a, b = support[j]
+        near_lo, near_hi = _band_rule_distances(structure, j)
+        rule = angular_rule(a, b, near_lo, near_hi, points=24)
+        values = band_sign(structure, j) * h_of(rule.x) * distance_product(structure, 2 * j, 2 * j + 1, rule)
+        V_mean += np.dot(rule.weights, values * np.real(field.V(rule.x))) / (2 * math.pi)
+    energy = 0.5 * (lagrange + V_mean)
+    capacity = math.exp(-lagrange / 2) if field.is_zero else None
+
+    provisional = EquilibriumMeasure(
+        support=support,
+        edges=edges,
+        masses=masses,
+        omega=omega,
+        lagrange=float(lagrange),
+        energy=float(energy),
+        capacity=capacity,
+        kind=kind,
+        verified=False,
+        checks={},
+        classification=Classification(True, ()),
+        message="",
+        field=field,
+        on=on,
+        _window=window,
+        _state=state,
+        _g_scaled=g_scaled,
+        _band_cdfs=tuple(cdfs),
+        _outer=outer,
+    )
+
+    checks: dict[str, float] = {
+        "mass_error": float(max(abs(masses.sum() - 1.0), abs(total_mass - 1.0))),
+        "lagrange_spread": lagrange_spread,
+        "analyticity_leak": analytic_leak,
+        "imaginary_part_at_right_end": float(abs(g_bk.imag)),
+        "field_approximation": float(window.dV.tail),
+        "algebraic_residual": float(np.max(np.abs(state.residual))) if state.residual.size else 0.0,
+    }
+    if light:
+        return replace(provisional, checks=checks)
+    # Euler–Lagrange equality by a second discretisation (direct log potential)
+    midpoints = np.array([(a + b) / 2 for a, b in support])
+    U = provisional.log_potential(midpoints)
+    V_mid = np.real(field.V(midpoints))
+    checks["euler_lagrange_residual"] = float(np.max(np.abs(2 * U + V_mid - lagrange)) / max(1.0, abs(lagrange)))
+
+    singularities: list[Singularity] = []
+    # positivity of the density
+    margins, places = [], []
+    peak = 0.0
+    for j, (a, b) in enumerate(support):
+        theta = np.linspace(0, math.pi, 257)
+        xs = a + (b - a) * np.sin(theta / 2) ** 2
+        eta = provisional._regular_part(j, xs)
+        peak = max(peak, float(np.max(np.abs(eta))))
+        i = int(np.argmin(eta))
+        margins.append(float(eta[i]))
+        places.append(float(xs[i]))
+    peak = peak or 1.0
+    density_margin = min(margins) / peak
+    if kind == "positive":
+        checks["density_margin"] = float(density_margin)
+        for j, (a, b) in enumerate(support):
+            theta = np.linspace(0, math.pi, 257)[1:-1]
+            xs = a + (b - a) * np.sin(theta / 2) ** 2
+            eta = provisional._regular_part(j, xs) / peak
+            i = int(np.argmin(eta))
+            if eta[i] < SINGULAR_THRESHOLD and 0 < i < len(eta) - 1:
+                singularities.append(Singularity("interior zero of the density", float(xs[i])))
+            for side, x_edge in ((0, a), (1, b)):
+                value = float(provisional._regular_part(j, np.array([x_edge]))[0]) / peak
+                if abs(value) < SINGULAR_THRESHOLD:
+                    label = (
+                        "density vanishes faster than a square root at a soft edge"
+                        if edges[j][side] == "soft"
+                        else "density vanishes at a hard edge (soft-to-hard transition)"
+                    )
+                    singularities.append(Singularity(label, float(x_edge)))
+        # effective potential off the support: critical points and samples
+        off_min, off_place = _effective_potential_minimum(provisional)
+        scale = max(1.0, abs(lagrange))
+        checks["min_effective_potential"] = float(off_min / scale)
+        for x_touch, value in _effective_potential_touches(provisional):
+            if abs(value) / scale < SINGULAR_THRESHOLD:
+                singularities.append(Singularity("effective potential touches zero off the support", x_touch))
+    if extra_checks:
+        checks.update(extra_checks)
+
+    failed = [name for name, value in checks.items() if _fails(name, value)]
+    verified = not failed
+    if failed:
+        message = (message + "; " if message else "") + "unverified: " + ", ".join(
+            f"{name} = {checks[name]:.3g}" for name in failed
+        )
+    classification = Classification(not singularities, tuple(singularities))
+    return EquilibriumMeasure(
+        support=support,
+        edges=edges,
+        masses=masses,
+        omega=omega,
+        lagrange=float(lagrange),
+        energy=float(energy),
+        capacity=capacity,
+        kind=kind,
+        verified=verified,
+        checks=checks,
+        classification=classification,
+        message=message,
+        field=field,
+        on=on,
+        _window=window,
+        _state=state,
+        _g_scaled=g_scaled,
+        _band_cdfs=tuple(cdfs),
+        _outer=outer,
+    )
+
+
+def _fails(name: str, value: float) -> bool:
+    if name not in TOLERANCES or not math.isfinite(value) and name != "min_effective_potential":
+        return not math.isfinite(value)
+    bound = TOLERANCES[name]
+    if name in ("density_margin", "min_effective_potential"):
+        return not value >= bound
+    return not value <= bound
+
+
+class _Reversed:
+    """eff(x) = -∫_x^{a_1} eff' on the left of the support, from a cumulative integral on [lo, a_1]."""
+
+    def __init__(self, piece: CumulativeIntegral):
+        self.piece = piece
+        self.lo, self.hi = piece.lo, piece.hi
+
+    def at_theta(self, theta):
+        return -(self.piece.total - self.piece.at_theta(theta))
+
+
+def _g_series(ellipse, g_scaled, u):
+    ratio = ellipse.rho / u
+    series = np.zeros(u.shape, dtype=complex)
+    power = np.ones(u.shape, dtype=complex)
+    for coefficient in g_scaled:
+        power = power * ratio
+        series = series + coefficient * power
+    return math.log(ellipse.half_width / 2) + np.log(u) + series
+
+
+def _log_potential_at(measure: EquilibriumMeasure, x: float) -> float:
+    """∫ log 1/|x - y| ψ(y) dy with panels graded toward x when x lies in or near a band."""
+    structure = measure.structure
+    total = 0.0
+    for j, (a, b) in enumerate(measure.support):
+        near_lo, near_hi = _band_rule_distances(structure, j)
+        if a < x < b:
+            pieces = [(a, x, "hi"), (x, b, "lo")]
+        else:
+            pieces = [(a, b, None)]
+        for lo, hi, singular_end in pieces:
+            n_lo = near_lo if lo == a else 1e-15 * (b - a)
+            n_hi = near_hi if hi == b else 1e-15 * (b - a)
+            if singular_end is None:
+                d = (a - x) if x <= a else (x - b)
+                if x <= a:
+                    n_lo = d if n_lo is None else min(n_lo, d)
+                else:
+                    n_hi = d if n_hi is None else min(n_hi, d)
+                if d == 0:
+                    n_lo, n_hi = (1e-15 * (b - a), n_hi) if x <= a else (n_lo, 1e-15 * (b - a))
+            rule = angular_rule(lo, hi, n_lo, n_hi, points=20)
+            # ψ on the sub-interval: distances to the band's own ends recomputed from the sub-rule
+            xs = rule.x
+            value = band_sign(structure, j) * measure.h(xs) / (2 * math.pi)
+            for index, point in enumerate(structure.ends):
+                if index == 2 * j:
+                    d_e = rule.from_lo if lo == a else (xs - a)
+                elif index == 2 * j + 1:
+                    d_e = rule.to_hi if hi == b else (b - xs)
+                else:
+                    d_e = np.abs(xs - point)
+                value = value * d_e ** (-0.5 if structure.hard[index] else 0.5)
+            if singular_end == "hi":
+                kernel_distance = rule.to_hi
+            elif singular_end == "lo":
+                kernel_distance = rule.from_lo
+            else:
+                kernel_distance = np.abs(xs - x)
+            with np.errstate(divide="ignore"):
+                logs = -np.log(kernel_distance)
+            total += float(np.dot(rule.weights, value * logs * rule.dx_dtheta))
+    return total
+
+
+def _critical_points(measure: EquilibriumMeasure, lo: float, hi: float) -> np.ndarray:
+    """Real zeros of h in (lo, hi): the critical points of the effective potential there."""
+    coefficients = measure._state.h
+    # a Chebyshev series is only trusted a little beyond its window
+    t_lo = max(float(measure._window.t(lo)), -1.2)
+    t_hi = min(float(measure._window.t(hi)), 1.2)
+    if t_lo >= t_hi:
+        return np.zeros(0)
+    if len(coefficients) <= 80:
+        roots = C.chebroots(coefficients)
+        roots = roots[np.abs(roots.imag) < 1e-8].real
+    else:
+        t = np.linspace(t_lo, t_hi, 2001)
+        values = C.chebval(t, coefficients)
+        change = np.nonzero(np.sign(values[:-1]) != np.sign(values[1:]))[0]
+        roots = 0.5 * (t[change] + t[change + 1])
+    roots = roots[(roots > min(t_lo, t_hi)) & (roots < max(t_lo, t_hi))]
+    return measure._window.dV.center + measure._window.dV.half_width * roots
+
+
+def _off_support_regions(measure: EquilibriumMeasure) -> list[tuple[float, float]]:
+    """The pieces of Σ \\ S inside the window and a little beyond, where eff is sampled."""
+    e = measure.structure.ends
+    window_lo, window_hi = measure.window
+    ellipse = measure._window.ellipse
+    span = window_hi - window_lo
+    regions = [(e[2 * j + 1], e[2 * j + 2]) for j in range(measure.bands - 1)]
+    regions.append((e[-1], max(window_hi, ellipse.real_crossing) + 2 * span))
+    regions.append((min(window_lo, 2 * ellipse.center - ellipse.real_crossing) - 2 * span, e[0]))
+    out = []
+    for lo, hi in regions:
+        for a, b in measure.on.intervals:
+            lo2, hi2 = max(lo, a), min(hi, b)
+            if lo2 < hi2:
+                out.append((lo2, hi2))
+    return out
+
+
+def _effective_potential_minimum(measure: EquilibriumMeasure) -> tuple[float, float]:
+    best, place = math.inf, math.nan
+    for lo, hi in _off_support_regions(measure):
+        xs = np.concatenate([lo + (hi - lo) * np.sin(np.linspace(0, math.pi / 2, 130)[1:-1]) ** 2, _critical_points(measure, lo, hi)])
+        values = measure.effective_potential(xs)
+        values = values[np.isfinite(values)]
+        if values.size and values.min() < best:
+            best = float(values.min())
+            place = float(xs[np.argmin(values)])
+    return (best if math.isfinite(best) else 0.0), place
+
+
+def _effective_potential_touches(measure: EquilibriumMeasure) -> list[tuple[float, float]]:
+    """Local minima of the effective potential at critical points strictly off the support."""
+    out = []
+    for lo, hi in _off_support_regions(measure):
+        for x in _critical_points(measure, lo, hi):
+            if hi - lo <= 0 or min(x - lo, hi - x) < 1e-6 * (hi - lo):
+                continue
+            value = float(measure.effective_potential(np.array([x]))[0])
+            if np.isfinite(value):
+                out.append((float(x), value))
+    return out

@@ -1,0 +1,205 @@
+"""Quadrature on bands and gaps: angular panels with geometric grading.
+
+Every integral the package needs over a band or a gap [lo, hi] has the form
+
+    ∫_lo^hi F(x) (x - lo)^{σ_lo} (hi - x)^{σ_hi} dx,    σ ∈ {-1/2, 0, +1/2},
+
+with F smooth on [lo, hi] but possibly *nearly* singular: a branch point of
+F may sit at a small distance d beyond an end (the far side of a tiny gap,
+or of a tiny band).  The substitution
+
+    x = lo + (hi - lo) sin²(θ/2),   θ ∈ [0, π],                     (1)
+
+turns (x - lo)^{±1/2} (hi - x)^{±1/2} dx into a trigonometric polynomial in
+θ/2 times dθ, so the endpoint behaviour costs nothing.  A branch point at
+distance d beyond ``hi`` sits at distance 2 (d/(hi-lo))^{1/2} from θ = π in
+the θ-plane; the rule grades the θ-panels geometrically toward that end
+(ratio 2) until the first panel is as short as that distance, and uses
+Gauss–Legendre points on each panel.  The cost therefore grows with
+log(1/d), not with 1/d: a gap of 1e-8 of the hull adds about a dozen panels.
+
+Geometric grading toward a near singularity is common practice (e.g.
+Schwab, p- and hp-Finite Element Methods, 1998, ch. 4).
+
+Distances x - lo, hi - x and |x - e| for endpoints e beyond the interval are
+all formed from the angle, never by subtracting two nearby floats, so
+nothing is lost when the gaps are tiny.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.polynomial import chebyshev as C
+from scipy.special import roots_legendre
+
+from .chebyshev import chebyshev_from_first_kind_values
+
+#: Gauss–Legendre points per angular panel
+PANEL_POINTS = 16
+
+
+@functools.lru_cache(maxsize=32)
+def gauss_legendre(n: int) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss–Legendre nodes and weights on [-1, 1] (cached, read-only)."""
+    x, w = roots_legendre(n)
+    x.setflags(write=False)
+    w.setflags(write=False)
+    return x, w
+
+
+def angular_breaks(length: float, near_lo: float | None, near_hi: float | None) -> np.ndarray:
+    """Panel breaks in θ ∈ [0, π] for an interval of the given length.
+
+    Parameters
+    ----------
+    length : hi - lo.
+    near_lo, near_hi : distance of the nearest singular point beyond each
+        end (``None`` when there is none closer than the interval itself).
+    """
+    left = [0.0]
+    right = [math.pi]
+    if near_lo is not None and near_lo < length:
+        step = 2.0 * math.sqrt(near_lo / length)
+        while step < 0.5:
+            left.append(step)
+            step *= 2.0
+    if near_hi is not None and near_hi < length:
+        step = 2.0 * math.sqrt(near_hi / length)
+        while step < 0.5:
+            right.append(math.pi - step)
+            step *= 2.0
+    interior = []
+    if len(left) == 1 and len(right) == 1:
+        interior = [math.pi / 2]  # two panels even for smooth integrands: cheap insurance
+    breaks = sorted(set(left + interior + right))
+    return np.array(breaks)
+
+
+@dataclass(frozen=True)
+class AngularRule:
+    """Nodes on [lo, hi] given by (1), with everything needed to integrate.
+
+    Attributes
+    ----------
+    theta, weights : Gauss–Legendre nodes in θ and their weights.
+    x : the nodes in x.
+    from_lo, to_hi : x - lo and hi - x at the nodes, computed without cancellation.
+    dx_dtheta : (hi - lo) sin(θ/2) cos(θ/2).
+    breaks : the θ-panel breaks.
+    """
+
+    lo: float
+    hi: float
+    theta: np.ndarray
+    weights: np.ndarray
+    x: np.ndarray
+    from_lo: np.ndarray
+    to_hi: np.ndarray
+    dx_dtheta: np.ndarray
+    breaks: np.ndarray
+
+    def distance_to(self, e: float) -> np.ndarray:
+        """|x - e| at the nodes for a point e outside (lo, hi), without cancellation."""
+        return distances_beyond(self.lo, self.hi, self.from_lo, self.to_hi, e)
+
+
+def distances_beyond(lo, hi, from_lo, to_hi, e):
+    """|x - e| for x in [lo, hi] and e outside it, from x - lo and hi - x."""
+    if e <= lo:
+        return from_lo + (lo - e)
+    if e >= hi:
+        return to_hi + (e - hi)
+    raise ValueError("distances_beyond: the point lies inside the interval")
+
+
+def angular_rule(
+    lo: float,
+    hi: float,
+    near_lo: float | None = None,
+    near_hi: float | None = None,
+    points: int = PANEL_POINTS,
+) -> AngularRule:
+    """Graded Gauss–Legendre rule in the angle (1) on [lo, hi]."""
+    length = hi - lo
+    breaks = angular_breaks(length, near_lo, near_hi)
+    t, w = gauss_legendre(points)
+    left, right = breaks[:-1, None], breaks[1:, None]
+    half = (right - left) / 2
+    theta = (left + half * (t + 1)).ravel()
+    weights = (half * w).ravel()
+    s, c = np.sin(theta / 2), np.cos(theta / 2)
+    return AngularRule(
+        lo=lo,
+        hi=hi,
+        theta=theta,
+        weights=weights,
+        x=lo + length * s * s,
+        from_lo=length * s * s,
+        to_hi=length * c * c,
+        dx_dtheta=length * s * c,
+        breaks=breaks,
+    )
+
+
+@dataclass(frozen=True)
+class CumulativeIntegral:
+    """A cumulative integral Φ(θ) = ∫_0^θ φ on angular panels, as Chebyshev pieces.
+
+    Used for the distribution function on a band and the effective
+    potential on a gap: both are integrals of smooth functions of θ.
+    """
+
+    lo: float
+    hi: float
+    breaks: np.ndarray
+    pieces: tuple[np.ndarray, ...]  # Chebyshev coefficients of Φ on each panel (panel mapped to [-1, 1])
+    offsets: np.ndarray  # Φ at the left break of each panel
+
+    @property
+    def total(self) -> float:
+        return float(self.offsets[-1] + C.chebval(1.0, self.pieces[-1]))
+
+    def at_theta(self, theta: np.ndarray) -> np.ndarray:
+        theta = np.asarray(theta, dtype=float)
+        index = np.clip(np.searchsorted(self.breaks, theta, side="right") - 1, 0, len(self.pieces) - 1)
+        out = np.empty(theta.shape)
+        for j in np.unique(index):
+            mask = index == j
+            left, right = self.breaks[j], self.breaks[j + 1]
+            s = (2 * theta[mask] - left - right) / (right - left)
+            out[mask] = self.offsets[j] + C.chebval(s, self.pieces[j])
+        return out
+
+
+def theta_of_x(lo: float, hi: float, x: np.ndarray) -> np.ndarray:
+    """Inverse of (1), accurate near both ends."""
+    x = np.asarray(x, dtype=float)
+    length = hi - lo
+    near_lo = (x - lo) <= (hi - x)
+    out = np.empty(x.shape)
+    with np.errstate(invalid="ignore"):
+        out[near_lo] = 2 * np.arcsin(np.sqrt(np.clip((x[near_lo] - lo) / length, 0, 1)))
+        out[~near_lo] = math.pi - 2 * np.arcsin(np.sqrt(np.clip((hi - x[~near_lo]) / length, 0, 1)))
+    return out
+
+
+def cumulative_integral(integrand, lo: float, hi: float, breaks: np.ndarray, points: int = 24) -> CumulativeIntegral:
+    """Build Φ(θ) = ∫_0^θ integrand(θ') dθ' on the given θ-panels.
+
+    ``integrand(theta)`` must return the (smooth) integrand in θ, i.e. already
+    multiplied by dx/dθ; it is called once with the nodes of all panels.
+    """
+    breaks = np.asarray(breaks, dtype=float)
+    nodes = np.cos(np.pi * (np.arange(points) + 0.5) / points)  # first-kind Chebyshev points
+    left, right = breaks[:-1, None], breaks[1:, None]
+    theta = (left + right) / 2 + (right - left) / 2 * nodes
+    values = np.asarray(integrand(theta.ravel())).reshape(theta.shape)
+    coefficients = chebyshev_from_first_kind_values(values)
+    antiderivative = C.chebint(coefficients, lbnd=-1, axis=1) * (right - left) / 2
+    totals = C.chebval(1.0, antiderivative.T)
+    offsets = np.concatenate([[0.0], np.cumsum(totals)[:-1]])
+    return CumulativeIntegral(lo=lo, hi=hi, breaks=breaks, pieces=tuple(antiderivative), offsets=offsets)

@@ -1,0 +1,151 @@
+"""Closed subsets Σ of the real line: finite unions of closed intervals.
+
+The ends of the two outer intervals may be infinite (``-inf``/``inf``), so
+Σ can be the whole line, a half-line, an interval or a union of intervals.
+The text form used on the command line is ``a:b,c:d``; an empty end means
+infinity (``:0`` is (-∞, 0], ``0:`` is [0, ∞)), and ``-inf``/``inf`` are
+accepted too.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from typing import Iterable, Sequence
+
+import numpy as np
+
+from .errors import InputError
+
+_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+
+
+def _parse_end(text: str, default: float, where: str) -> float:
+    token = text.strip()
+    if token == "":
+        return default
+    lowered = token.lower()
+    if lowered in ("inf", "+inf", "infinity", "+infinity"):
+        return math.inf
+    if lowered in ("-inf", "-infinity"):
+        return -math.inf
+    if not _NUMBER.match(token):
+        raise InputError(f"set {where}: '{token}' is not a number; write intervals as a:b,c:d (e.g. -1:1,2:3)")
+    value = float(token)
+    if not math.isfinite(value):
+        raise InputError(f"set {where}: '{token}' is not finite; use an empty end or inf for an unbounded side")
+    return value
+
+
+@dataclass(frozen=True)
+class IntervalSet:
+    """A closed set Σ = [α_1, β_1] ∪ … ∪ [α_m, β_m] with α_1 < β_1 < α_2 < … .
+
+    Only α_1 may be ``-inf`` and only β_m may be ``+inf``.
+    """
+
+    intervals: tuple[tuple[float, float], ...]
+
+    def __init__(self, intervals: Iterable[Sequence[float]]):
+        cleaned: list[tuple[float, float]] = []
+        for item in intervals:
+            if len(item) != 2:
+                raise InputError(f"an interval needs two ends, got {tuple(item)!r}")
+            a, b = float(item[0]), float(item[1])
+            if math.isnan(a) or math.isnan(b):
+                raise InputError("an interval end is NaN; give finite numbers or inf")
+            if not a < b:
+                raise InputError(
+                    f"interval {_fmt(a)}:{_fmt(b)} is reversed or empty; write the smaller end first (e.g. {_fmt(min(a, b))}:{_fmt(max(a, b))})"
+                    if a != b
+                    else f"interval {_fmt(a)}:{_fmt(b)} is a single point; give a < b"
+                )
+            cleaned.append((a, b))
+        if not cleaned:
+            raise InputError("the set is empty; give at least one interval a:b")
+        cleaned.sort()
+        for (a0, b0), (a1, b1) in zip(cleaned, cleaned[1:]):
+            if a1 <= b0:
+                raise InputError(
+                    f"intervals {_fmt(a0)}:{_fmt(b0)} and {_fmt(a1)}:{_fmt(b1)} overlap or touch; merge them into one interval"
+                )
+        for k, (a, b) in enumerate(cleaned):
+            if (a == -math.inf and k != 0) or (b == math.inf and k != len(cleaned) - 1):
+                raise InputError("only the outer ends of the set may be infinite")
+            if a == math.inf or b == -math.inf:
+                raise InputError("an interval cannot start at +inf or end at -inf")
+        object.__setattr__(self, "intervals", tuple(cleaned))
+
+    # -- constructors ---------------------------------------------------
+    @classmethod
+    def real_line(cls) -> "IntervalSet":
+        return cls([(-math.inf, math.inf)])
+
+    @classmethod
+    def parse(cls, text: str) -> "IntervalSet":
+        """Parse ``a:b,c:d`` (see the module docstring)."""
+        if not isinstance(text, str) or text.strip() == "":
+            raise InputError("empty set; write intervals as a:b,c:d (e.g. -1:1 or 0: for [0, inf))")
+        if len(text) > 2000:
+            raise InputError("the set text is longer than 2000 characters")
+        pieces = [p for p in text.split(",")]
+        intervals = []
+        for k, piece in enumerate(pieces, start=1):
+            if piece.count(":") != 1:
+                raise InputError(
+                    f"set piece {k} '{piece.strip()}' must look like a:b (an empty end means infinity, e.g. 0:)"
+                )
+            left, right = piece.split(":")
+            a = _parse_end(left, -math.inf, f"piece {k}")
+            b = _parse_end(right, math.inf, f"piece {k}")
+            intervals.append((a, b))
+        return cls(intervals)
+
+    # -- properties -----------------------------------------------------
+    @property
+    def is_compact(self) -> bool:
+        return math.isfinite(self.intervals[0][0]) and math.isfinite(self.intervals[-1][1])
+
+    @property
+    def is_real_line(self) -> bool:
+        return len(self.intervals) == 1 and self.intervals[0] == (-math.inf, math.inf)
+
+    @property
+    def hull(self) -> tuple[float, float]:
+        return (self.intervals[0][0], self.intervals[-1][1])
+
+    @property
+    def finite_endpoints(self) -> tuple[float, ...]:
+        """Every finite endpoint of Σ: where hard edges may occur."""
+        return tuple(e for ab in self.intervals for e in ab if math.isfinite(e))
+
+    def contains(self, x: np.ndarray | float) -> np.ndarray:
+        x = np.asarray(x, dtype=float)
+        inside = np.zeros(x.shape, dtype=bool)
+        for a, b in self.intervals:
+            inside |= (x >= a) & (x <= b)
+        return inside
+
+    def clipped(self, lower: float, upper: float) -> "IntervalSet":
+        """Σ ∩ [lower, upper]."""
+        pieces = []
+        for a, b in self.intervals:
+            a2, b2 = max(a, lower), min(b, upper)
+            if a2 < b2:
+                pieces.append((a2, b2))
+        return IntervalSet(pieces)
+
+    def describe(self) -> str:
+        return ",".join(f"{_fmt(a, blank_inf=True)}:{_fmt(b, blank_inf=True)}" for a, b in self.intervals)
+
+    def __str__(self) -> str:
+        if self.is_real_line:
+            return "R"
+        return " ∪ ".join(f"[{_fmt(a)}, {_fmt(b)}]" for a, b in self.intervals)
+
+
+def _fmt(value: float, blank_inf: bool = False) -> str:
+    if math.isinf(value):
+        return "" if blank_inf else ("inf" if value > 0 else "-inf")
+    return repr(float(value)) if value != int(value) or abs(value) >= 1e16 else str(int(value))

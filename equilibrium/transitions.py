@@ -1,0 +1,156 @@
+"""Continuation along a parameter and the location of phase transitions.
+
+A one-parameter family of fields t ↦ V_t changes the number of bands at a
+critical t*: a gap opens where the density vanishes inside a band (a band
+splits), a band is born where the effective potential touches zero off the
+support, and a soft edge meets a hard wall.  On the side with fewer bands
+the band structure continues analytically past t* (the algebraic system of
+:mod:`equilibrium.algebraic` keeps a solution, no longer positive), and the
+relevant *margin*
+
+    m(t) = min( min over the band interiors of η_t / max η_t ,
+                min over critical points x off S of eff_t(x) / max(1, |ℓ_t|),
+                min over soft edges e of η_t(e) / max η_t )
+
+crosses zero transversally at t*.  Brent's method on m locates t* to
+near machine precision; the two sides are solved independently and must
+have different band counts.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+from scipy.optimize import brentq
+
+from .algebraic import BandStructure, band_sign, field_window, solve_structure
+from .errors import InputError, NumericalFailure
+from .field import Field
+from .measure import EquilibriumMeasure, _effective_potential_touches, build_measure
+from .search import _sigma_piece_bounds, solve
+from .sets import IntervalSet
+
+
+@dataclass(frozen=True)
+class Transition:
+    """A located phase transition of a family of fields."""
+
+    parameter: float
+    bracket: tuple[float, float]
+    bands_before: int
+    bands_after: int
+    kind: str
+    margin_at_parameter: float
+    evaluations: int
+
+
+def structure_margin(field: Field, on: IntervalSet, structure: BandStructure) -> tuple[float, BandStructure, str]:
+    """Solve a fixed band structure for ``field`` and return its margin m and the solved structure."""
+    ends = structure.ends
+    span = ends[-1] - ends[0]
+    lo = max(on.hull[0], ends[0] - 0.15 * span)
+    hi = min(on.hull[1], ends[-1] + 0.15 * span)
+    window = field_window(field, lo, hi)
+    solution = solve_structure(window, structure, bounds=_sigma_piece_bounds(on, ends))
+    if not solution.converged:
+        raise NumericalFailure(f"continuation of the band structure failed (residual {solution.residual_norm:.2e})")
+    state = solution.state
+    measure = build_measure(window, state, field, on, "positive", light=True)
+    margins = []
+    peak = 0.0
+    values = []
+    for j, (a, b) in enumerate(measure.support):
+        theta = np.linspace(0, math.pi, 401)
+        xs = a + (b - a) * np.sin(theta / 2) ** 2
+        eta = band_sign(state.structure, j) * measure.h(xs)
+        values.append((eta, j))
+        peak = max(peak, float(np.max(np.abs(eta))))
+    kinds = []
+    for eta, j in values:
+        interior = float(np.min(eta[1:-1])) / peak
+        margins.append(interior)
+        kinds.append("interior zero of the density")
+        for side in (0, -1):
+            index = 2 * j + (0 if side == 0 else 1)
+            if not state.structure.hard[index]:
+                margins.append(float(eta[side]) / peak)
+                kinds.append("density vanishes faster than a square root at a soft edge")
+    scale = max(1.0, abs(measure.lagrange))
+    for _, value in _effective_potential_touches(measure):
+        margins.append(value / scale)
+        kinds.append("effective potential touches zero off the support")
+    i = int(np.argmin(margins))
+    return float(margins[i]), state.structure, kinds[i]
+
+
+def locate_transition(
+    family: Callable[[float], Field],
+    lower: float,
+    upper: float,
+    on: IntervalSet | None = None,
+    tolerance: float = 1e-12,
+) -> Transition:
+    """Locate the parameter in [lower, upper] where the number of bands changes.
+
+    Parameters
+    ----------
+    family : t ↦ Field.
+    lower, upper : a bracket; the solutions at both ends must differ in
+        their number of bands.
+    """
+    on = IntervalSet.real_line() if on is None else on
+    if not lower < upper:
+        raise InputError("the bracket must satisfy lower < upper")
+    mu_lo, mu_hi = solve(family(lower), on), solve(family(upper), on)
+    if mu_lo.bands == mu_hi.bands:
+        raise InputError(
+            f"both ends of the bracket have {mu_lo.bands} band(s); give a bracket across a change of the number of bands"
+        )
+    # continue from the side with fewer bands
+    fewer = mu_lo if mu_lo.bands < mu_hi.bands else mu_hi
+    start = lower if fewer is mu_lo else upper
+    other = upper if fewer is mu_lo else lower
+    structure = fewer.structure
+    evaluations = [0]
+    last = {"structure": structure, "kind": ""}
+
+    def margin(t: float) -> float:
+        evaluations[0] += 1
+        value, solved, kind = structure_margin(family(t), on, last["structure"])
+        last["structure"], last["kind"] = solved, kind
+        return value
+
+    m_start = margin(start)
+    # march toward the other end until the margin changes sign (continuation in small steps)
+    steps = 64
+    previous = start
+    found = None
+    for s in np.linspace(start, other, steps + 1)[1:]:
+        try:
+            m = margin(float(s))
+        except NumericalFailure:
+            break
+        if (m < 0) != (m_start < 0):
+            found = (previous, float(s))
+            break
+        previous = float(s)
+    if found is None:
+        raise NumericalFailure("the margin of the continued band structure did not change sign inside the bracket")
+    a, b = sorted(found)
+    # restart the continuation from the near side for Brent (the structure must be continuous)
+    last["structure"] = structure
+    margin(a if start < other else b)
+    t_star = brentq(margin, a, b, xtol=tolerance, rtol=4 * np.finfo(float).eps)
+    kind = last["kind"]
+    return Transition(
+        parameter=float(t_star),
+        bracket=(float(a), float(b)),
+        bands_before=mu_lo.bands,
+        bands_after=mu_hi.bands,
+        kind=kind,
+        margin_at_parameter=float(margin(t_star)),
+        evaluations=evaluations[0],
+    )

@@ -1,0 +1,350 @@
+r"""Large-degree predictions from the g-function and the outer parametrix.
+
+For the weight ``exp(-nV)`` at degree ``n + m``, with our ℓ
+(``g_+ + g_- - V + ℓ = 0``), outside the lenses
+
+    Y(z) ≈ e^{-nℓσ₃/2} M(z; w) e^{n(g(z) + ℓ/2)σ₃} · (degree-shift factor),
+    w_j = n Ω_j + m Ω̂_j   (mod 1),
+
+``Ω̂`` the phases of the harmonic measure of the support (for ``m ≠ 0`` the
+factor ``e^{m(ĝ + ℓ̂/2)σ₃}`` of the unweighted problem of the support enters
+the same way; DKMVZ, Comm. Pure Appl. Math. 52 (1999) 1335–1425, §4 and
+Theorem 1.1).  Hence, with an error O(1/n):
+
+* recurrence coefficients (``outer.ModelProblem.expansion``):
+  ``a² = (M_1)_12 (M_1)_21``, ``b = (M_2)_12/(M_1)_12 - (M_1)_22``;
+* ``π(z) ≈ M_11(z) e^{n g(z)}`` off the support (and off the lenses);
+* on a band (oscillatory form) ``π(x) ≈ M_11+ e^{n g_+} + M_11- e^{n g_-}``
+  (from ``T_+ = S_+ [[1,0],[e^{-n(g_+-g_-)},1]]`` in the upper lens and
+  ``M_12+ = M_11-`` on the band);
+* in gap ``j`` the polynomial has a zero iff ``M_11`` has one there (the
+  theta quotient ``θ(u+d+W)`` has exactly one zero on each real oval of the
+  curve; it lies either on the first sheet -- a zero of π -- or on the
+  second); ``M_11+(x) e^{iπ w_j}`` is real on the gap and its sign change
+  locates the zero;
+* the number of zeros right of a point ``x_0`` of gap ``j`` is
+  ``n Ω_j + [arg M_11+(x_0) - arg M_11(x_1)]/π`` with the argument followed
+  continuously along a half circle in the upper half-plane from ``x_0`` to
+  ``x_1 > b_k`` (argument principle; ``M_11`` has no zeros off the real axis);
+  it must come out an integer, and its distance from one is recorded;
+* the first zeros at a soft edge ``e``: ``f_e(x) = ι_m n^{-2/3}``, ``ι_m`` the
+  Airy zeros (``scipy.special.ai_zeros``), ``f_e`` the local variable of
+  ``gfunction.py`` (leading order, DKMVZ 1999 §7);
+* bulk zeros by the quantile rule ``F(x_j) = (j - 1/2)/n``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Sequence
+
+import numpy as np
+from scipy.special import ai_zeros
+
+from equilibrium.errors import InputError, NumericalFailure
+
+from .gfunction import GFunction, g_function
+from .outer import ModelProblem, model_problem
+from .quadrature import graded_jacobi_rule
+
+__all__ = ["Predictor", "Prediction", "harmonic_phases", "predictor"]
+
+
+def harmonic_phases(support) -> np.ndarray:
+    r"""Phases ``Ω̂_j`` = harmonic measure (at ∞) of the bands right of gap ``j``.
+
+    ``∫ dω(s)/(z - s) = P(z)/R^{1/2}(z)`` with ``P`` monic of degree ``g`` and
+    ``∫_{gap} P/R^{1/2} = 0`` on every gap (the constant ``ĝ_+ + ĝ_-`` is the
+    same on all bands); the density is ``|P|/(π |R|^{1/2})`` (common practice;
+    e.g. DKMVZ 1999 §4 for the same construction with V).
+    """
+    support = [tuple(map(float, ab)) for ab in support]
+    k = len(support)
+    g = k - 1
+    if g == 0:
+        return np.zeros(0)
+    e = np.array([x for ab in support for x in ab])
+
+    def rule(lo, hi, idx):
+        others = np.delete(e, idx)
+        x, w = graded_jacobi_rule(lo, hi, -0.5, -0.5, near=others, n=40)
+        f = np.prod(np.abs(x[:, None] - others[None, :]) ** -0.5, axis=1)
+        return x, w * f
+
+    # gap equations: Σ_l c_l ∫ x^l |R|^{-1/2} = -∫ x^g |R|^{-1/2} (sign of R^{1/2} is constant on a gap)
+    Amat = np.zeros((g, g))
+    rhs = np.zeros(g)
+    for j in range(g):
+        x, w = rule(support[j][1], support[j + 1][0], [2 * j + 1, 2 * j + 2])
+        Amat[j] = [np.sum(w * x ** l) for l in range(g)]
+        rhs[j] = -np.sum(w * x ** g)
+    c = np.linalg.solve(Amat, rhs)
+    P = np.concatenate([c, [1.0]])  # ascending
+    masses = []
+    for j, (a, b) in enumerate(support):
+        x, w = rule(a, b, [2 * j, 2 * j + 1])
+        masses.append(np.sum(w * np.abs(np.polynomial.polynomial.polyval(x, P))) / np.pi)
+    masses = np.array(masses)
+    if abs(masses.sum() - 1) > 1e-9:
+        raise NumericalFailure(f"harmonic measure of the support has total mass {masses.sum():.12f}, not 1")
+    return np.array([masses[j + 1:].sum() for j in range(g)])
+
+
+@dataclass(frozen=True)
+class Prediction:
+    """Predicted recurrence coefficients and zero counts for a range of degrees.
+
+    ``a[i]``, ``b[i]`` predict ``a_{N}^{(n)}``, ``b_{N}^{(n)}`` for
+    ``N = degrees[i]`` and ``n = scalings[i]``; ``gap_zeros[i][j]`` is the zero
+    in gap ``j`` or ``None``; ``band_counts[i]`` the zeros per band;
+    ``checks`` the worst verification figures (imaginary parts of a² and b,
+    distance of the zero counts from integers, realness of M_11 e^{iπw} on gaps).
+    """
+
+    degrees: np.ndarray
+    scalings: np.ndarray
+    phases: np.ndarray
+    a: np.ndarray
+    b: np.ndarray
+    gap_zeros: list
+    band_counts: np.ndarray
+    checks: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class Predictor:
+    """g-function, model problem and harmonic phases of one equilibrium measure."""
+
+    measure: Any
+    g: GFunction
+    model: ModelProblem
+    omega_hat: np.ndarray
+    szego: Any = None
+    _gap_grid: tuple = field(default=None, repr=False)
+    _arcs: tuple = field(default=None, repr=False)
+
+    @property
+    def genus(self) -> int:
+        return self.model.genus
+
+    def phases(self, degrees, scalings=None) -> np.ndarray:
+        """``w = n Ω + (N - n) Ω̂ - c`` (mod 1) for degree ``N``, scaling ``n``; shape (len, g).
+
+        ``c`` is the phase shift of the Szegő function of the factor ``h``
+        (``gfunction.szego``; zero without a factor).
+        """
+        N = np.atleast_1d(np.asarray(degrees, dtype=float))
+        n = N if scalings is None else np.broadcast_to(np.asarray(scalings, float), N.shape)
+        w = n[:, None] * np.asarray(self.g.omega)[None, :] + (N - n)[:, None] * self.omega_hat[None, :]
+        if self.szego is not None and self.genus:
+            w = w - self.szego.phase_shift[None, :]
+        return w - np.floor(w)
+
+    def recurrence(self, degrees, scalings=None) -> tuple[np.ndarray, np.ndarray, dict]:
+        """Predicted ``a_N^{(n)}, b_N^{(n)}`` (leading order, error O(1/n))."""
+        w = self.phases(degrees, scalings)
+        ex = self.model.expansion(w if self.genus else np.zeros((w.shape[0], 0)))
+        a2 = np.broadcast_to(ex["a2"], (w.shape[0],))
+        b = np.broadcast_to(ex["b"], (w.shape[0],))
+        checks = {"imag_a2": float(np.max(np.abs(a2.imag))), "imag_b": float(np.max(np.abs(b.imag)))}
+        if np.any(a2.real <= 0):
+            raise NumericalFailure("model problem gives a non-positive a²")
+        return np.sqrt(a2.real), b.real.copy(), checks
+
+    def polynomial(self, z, degree: int, scaling: float | None = None) -> np.ndarray:
+        """Leading-order monic ``π_N(z)`` off the support: ``M_11(z) e^{n g(z)}``.
+
+        Only meaningful away from the bands (outside the lenses) and edges.
+        """
+        n = float(degree if scaling is None else scaling)
+        w = self.phases([degree], [n])[0]
+        z = np.asarray(z, dtype=complex)
+        M = self.model.evaluate(z, w)
+        shift = degree - n
+        ex = n * self.g(z)
+        if shift:
+            raise InputError("π off the diagonal needs the unweighted g-function of the support; "
+                             "use degree == scaling")
+        return M[..., 0, 0] * np.exp(ex)
+
+    def polynomial_on_band(self, x, degree: int) -> np.ndarray:
+        """Oscillatory form ``M_11+ e^{n g_+} + M_11- e^{n g_-}`` on a band (real)."""
+        x = np.asarray(x, dtype=float)
+        w = self.phases([degree])[0]
+        gp, gm = self.g.boundary_values(x)
+        Mp = self.model.evaluate(x + 1e-300j, w)[..., 0, 0]
+        Mm = self.model.evaluate(x - 1e-300j, w)[..., 0, 0]
+        return (Mp * np.exp(degree * gp) + Mm * np.exp(degree * gm)).real
+
+    # -- zeros ---------------------------------------------------------------
+    def _m11_on(self, zs, u, W):
+        """M_11 at fixed points ``zs`` (P,) with precomputed Abel values ``u`` (P, g), phases W (N, g)."""
+        from .outer import gamma_factor
+        mp = self.model
+        gam = gamma_factor(np.where(zs.imag == 0, zs + 1e-300j, zs), mp.support)
+        A = (gam + 1 / gam) / 2
+        d, ui = mp.d, mp.u_infinity
+        num = mp._theta(u[None, :, :] + d + W[:, None, :])
+        den = mp._theta(u + d)
+        c1n = mp._theta(ui + d)
+        c1d = mp._theta(ui + d + W)
+        ratio = (num[0] / den[0][None, :]) * np.exp(num[1] - den[1][None, :])
+        c1 = (c1n[0] / c1d[0]) * np.exp(c1n[1] - c1d[1])
+        return A[None, :] * ratio * c1[:, None]
+
+    def gap_zeros(self, degrees, scalings=None) -> tuple[np.ndarray, dict]:
+        """Zero of π in each gap (NaN when none), shape (len(degrees), g)."""
+        w = self.phases(degrees, scalings)
+        N = w.shape[0]
+        out = np.full((N, self.genus), np.nan)
+        worst_imag = 0.0
+        W = self.model.W(w)
+        for j in range(self.genus):
+            lo, hi = self.g.support[j][1], self.g.support[j + 1][0]
+            # θ-variable x = lo + (hi-lo)(1-cos θ)/2 keeps M_11 smooth up to the ends
+            th = np.linspace(0.0, np.pi, 161)[1:-1]
+            xs = lo + (hi - lo) * (1 - np.cos(th)) / 2
+            us = self.model.abel(xs + 1e-300j)
+            vals = self._m11_on(xs + 0j, us, W) * np.exp(1j * np.pi * w[:, j])[:, None]
+            worst_imag = max(worst_imag, float(np.max(np.abs(vals.imag) / (1 + np.abs(vals)))))
+            r = vals.real
+            s = np.sign(r)
+            change = s[:, :-1] * s[:, 1:] < 0
+            has = change.any(axis=1)
+            if not np.any(has):
+                continue
+            idx = np.argmax(change, axis=1)
+            rows = np.nonzero(has)[0]
+            tl, tr = th[idx[rows]], th[idx[rows] + 1]
+            fl = r[rows, idx[rows]]
+            Wr = W[rows]
+            # vectorised Illinois (regula falsi) on the bracketing grid cell
+            fr = r[rows, idx[rows] + 1]
+            for _ in range(10):
+                tm = tr - fr * (tr - tl) / (fr - fl)
+                tm = np.where(np.isfinite(tm), tm, 0.5 * (tl + tr))
+                xm = lo + (hi - lo) * (1 - np.cos(tm)) / 2
+                um = self.model.abel(xm + 1e-300j)
+                fm = (self._m11_diag(xm, um, Wr) * np.exp(1j * np.pi * w[rows, j])).real
+                same = np.sign(fm) == np.sign(fr)
+                # Illinois: halve the retained end's value when the same end is kept
+                fl = np.where(same, fl * 0.5, fr)
+                tl = np.where(same, tl, tr)
+                tr, fr = tm, fm
+            tl = tr
+            out[rows, j] = lo + (hi - lo) * (1 - np.cos(0.5 * (tl + tr))) / 2
+            # more than one sign change would contradict "at most one zero per gap"
+            if np.any(change.sum(axis=1) > 1):
+                raise NumericalFailure(f"more than one sign change of M_11 in gap {j + 1}")
+        return out, {"gap_realness": worst_imag}
+
+    def _m11_diag(self, xs, us, W):
+        """M_11 at point i with phases W[i] (pointwise pairing)."""
+        from .outer import gamma_factor
+        mp = self.model
+        gam = gamma_factor(xs + 1e-300j, mp.support)
+        A = (gam + 1 / gam) / 2
+        d, ui = mp.d, mp.u_infinity
+        return A * mp._ratio(us + d + W, us + d) * mp._ratio(ui + d + 0 * W, ui + d + W)
+
+    def band_counts(self, degrees, scalings=None, gap_zeros=None) -> tuple[np.ndarray, dict]:
+        """Number of zeros of π in each band (argument principle, module docstring)."""
+        N = np.atleast_1d(np.asarray(degrees))
+        k = len(self.g.support)
+        if self.genus == 0:
+            return N[:, None].astype(int).copy(), {"count_rounding": 0.0}
+        w = self.phases(degrees, scalings)
+        n = N.astype(float) if scalings is None else np.broadcast_to(np.asarray(scalings, float), N.shape)
+        W = self.model.W(w)
+        if gap_zeros is None:
+            gap_zeros, _ = self.gap_zeros(degrees, scalings)
+        right = np.zeros((len(N), self.genus), dtype=int)
+        x0s = np.zeros((len(N), self.genus))
+        worst = 0.0
+        bk = self.g.support[-1][1]
+        x1 = bk + 0.5 * (bk - self.g.support[0][0])
+        for j in range(self.genus):
+            lo, hi = self.g.support[j][1], self.g.support[j + 1][0]
+            cands = [lo + (hi - lo) / 3, lo + 2 * (hi - lo) / 3]
+            res = []
+            for x0 in cands:
+                c, r = 0.5 * (x0 + x1), 0.5 * (x1 - x0)
+                t = np.linspace(np.pi, 0.0, 97)
+                zs = c + r * np.exp(1j * t)
+                zs[0], zs[-1] = x0 + 0j, x1 + 0j
+                us = self.model.abel(zs + np.where(zs.imag == 0, 1e-300j, 0))
+                m = self._m11_on(zs, us, W)
+                ph = np.unwrap(np.angle(m), axis=1)
+                # with a factor π ≈ D_∞ M_11 e^{ng}/D and arg D_+ = π c_j on the gap, arg D = 0 right of b_k
+                shift = self.szego.phase_shift[j] if self.szego is not None else 0.0
+                cnt = n * self.g.omega[j] - shift + (ph[:, 0] - ph[:, -1]) / np.pi
+                # the exact phase e^{iπ nΩ_j} multiplies M_11+ into the reals: count is integral
+                res.append(cnt)
+            z = gap_zeros[:, j]
+            far = np.abs(np.nan_to_num(z, nan=1e300) - cands[0]) >= np.abs(np.nan_to_num(z, nan=1e300) - cands[1])
+            cnt = np.where(far, res[0], res[1])
+            x0s[:, j] = np.where(far, cands[0], cands[1])
+            ri = np.round(cnt)
+            worst = max(worst, float(np.max(np.abs(cnt - ri))))
+            right[:, j] = ri.astype(int)
+        counts = np.zeros((len(N), k), dtype=int)
+        for band in range(k):
+            left_count = N if band == 0 else right[:, band - 1]
+            right_count = np.zeros(len(N), int) if band == k - 1 else right[:, band]
+            c = left_count - right_count
+            if band > 0:
+                z = gap_zeros[:, band - 1]
+                c = c - ((~np.isnan(z)) & (z > x0s[:, band - 1])).astype(int)
+            if band < k - 1:
+                z = gap_zeros[:, band]
+                c = c - ((~np.isnan(z)) & (z < x0s[:, band])).astype(int)
+            counts[:, band] = c
+        return counts, {"count_rounding": worst}
+
+    def predict(self, degrees, scalings=None) -> Prediction:
+        """Recurrence coefficients, gap zeros and band counts for ``degrees``."""
+        N = np.atleast_1d(np.asarray(degrees))
+        n = N.astype(float) if scalings is None else np.broadcast_to(np.asarray(scalings, float), N.shape)
+        a, b, c1 = self.recurrence(N, n)
+        gz, c2 = self.gap_zeros(N, n) if self.genus else (np.zeros((len(N), 0)), {})
+        bc, c3 = self.band_counts(N, n, gz)
+        gap_list = [[None if np.isnan(v) else float(v) for v in row] for row in gz]
+        return Prediction(N, np.asarray(n), self.phases(N, n), a, b, gap_list, bc, {**c1, **c2, **c3})
+
+    def soft_edge_zeros(self, edge: int, degree: int, count: int = 5) -> np.ndarray:
+        """First ``count`` zeros near soft edge number ``edge``: ``f_e(x) = ι_m n^{-2/3}``."""
+        if self.g.edge_kinds[edge] != "soft":
+            raise InputError(f"edge {edge} is a hard edge; Airy zeros apply at soft edges only")
+        iota = ai_zeros(count)[0]
+        target = iota * float(degree) ** (-2.0 / 3.0)
+        e = self.g.edge_points[edge]
+        fd = self.g.edges[edge].derivative
+        x = e + target / fd
+        for _ in range(30):  # secant on the real local variable
+            f0 = self.g.local_variable(edge, x + 0j).real - target
+            hstep = 1e-7 * (1 + np.abs(x - e))
+            f1 = self.g.local_variable(edge, x + hstep + 0j).real - target
+            x = x - f0 * hstep / (f1 - f0)
+        return np.sort(x)
+
+    def quantile_zeros(self, degree: int) -> np.ndarray:
+        """Bulk prediction ``F(x_j) = (j - 1/2)/n``, j = 1..n."""
+        return np.asarray(self.measure.quantile((np.arange(1, degree + 1) - 0.5) / degree))
+
+
+def predictor(measure, factor: Sequence | None = None) -> Predictor:
+    """Assemble g-function, model problem and harmonic phases for ``measure``.
+
+    ``factor`` -- the n-independent factor ``h`` of the weight ``e^{-nV} h`` as
+    a sequence of factor objects (protocol of ``gfunction.szego``, e.g. the
+    output of ``workbench.polynomials.parse_factor``); its Szegő function
+    shifts the phases (``Predictor.phases``).
+    """
+    gf = g_function(measure)
+    mp = model_problem(measure.support)
+    oh = harmonic_phases(measure.support)
+    D = None
+    if factor:
+        from .szego import szego_function
+        D = szego_function(tuple(factor), measure.support)
+    return Predictor(measure, gf, mp, oh, D)

@@ -1,0 +1,498 @@
+r"""Riemann theta functions with a guaranteed truncation bound.
+
+Definition (NIST DLMF §21.2; with characteristics also §21.2 -- equation numbers quoted below are
+from memory)::
+
+    θ(u | τ)       = Σ_{m ∈ Z^g} exp(πi mᵀτm + 2πi mᵀu),
+    θ[α; β](u | τ) = Σ_{m ∈ Z^g} exp(πi (m+α)ᵀτ(m+α) + 2πi (m+α)ᵀ(u+β))
+                   = exp(πi αᵀτα + 2πi αᵀ(u+β)) θ(u + τα + β | τ),
+
+for a symmetric ``τ`` whose imaginary part ``Y`` is positive definite.
+
+Reduction (Deconinck, Heil, Bobenko, van Hoeij and Schmies, "Computing
+Riemann theta functions", Math. Comp. 73 (2004) 1417-1442, §2).  Write
+``u = x + i y``, ``c = Y⁻¹ y``, ``k = round(c)`` (componentwise), ``r = c - k``
+and ``m = n - k``.  Then ``Re(πi mᵀτm + 2πi mᵀu) = -π (n+r)ᵀY(n+r) + π yᵀY⁻¹y``,
+so that
+
+    θ(u | τ) = exp(π yᵀY⁻¹y) · θ̂(u | τ),
+    θ̂(u | τ) = Σ_n exp(πi mᵀτm + 2πi mᵀu - π yᵀY⁻¹y),   |term_n| = exp(-‖v_n‖²),
+
+with ``v_n = √π T (n + r)`` and ``Y = TᵀT`` (Cholesky).  The exponential growth
+``π yᵀY⁻¹y`` is returned separately (:func:`riemann_theta_scaled`) so that
+ratios of thetas at arguments with large imaginary part never overflow.
+
+Truncation.  The sum is restricted to the lattice points with ``‖v_n‖ < R``.
+With ``ρ`` the length of the shortest non-zero vector of the lattice
+``√π T Z^g`` the neglected tail obeys (DHBvHS 2004, Theorem 2)
+
+    ε(R) ≤ (g/2) (2/ρ)^g Γ(g/2, (R - ρ/2)²),
+
+Γ(a, x) the upper incomplete gamma function.  We re-derived it rather than
+taking it on trust: the balls ``B(v_n, ρ/2)`` are disjoint, and
+``exp(-‖w‖²)`` is subharmonic where ``‖w‖² ≥ g/2`` (its Laplacian is
+``(4‖w‖² - 2g) exp(-‖w‖²)``), so each term is at most the mean of
+``exp(-‖w‖²)`` over its ball; summing and integrating over
+``‖w‖ ≥ R - ρ/2`` gives the formula.  Our derivation needs
+``R ≥ ρ/2 + (g/2)^{1/2}``, which we impose.  For the gradient,
+``|m_j| ≤ |(n+r)_j| + |c_j|`` and ``|(n+r)_j| ≤ ‖row_j T⁻¹‖ ‖v_n‖/√π``; the
+same argument applied to ``‖w‖ exp(-‖w‖²)`` (subharmonic where
+``‖w‖² ≥ (g+2)/2``) gives
+
+    Σ_tail ‖v_n‖ exp(-‖v_n‖²) ≤ (g/2) (2/ρ)^g Γ((g+1)/2, (R - ρ/2)²).
+
+The modular reduction of τ (Siegel reduction / LLL of ``T``, DHBvHS §4) is
+**not** done: badly conditioned ``Y`` costs lattice points (the budget
+``max_points`` then raises :class:`~equilibrium.errors.NumericalFailure`),
+never accuracy.
+
+Enumeration.  One fixed point set serves every argument: all ``n`` with
+``‖√π T n‖ < R + max_{r ∈ [-1/2,1/2]^g} ‖√π T r‖`` (triangle inequality), built
+coordinate by coordinate from the triangular factor (stacked interval
+construction, as in DHBvHS §3).  The sum is then a dense matrix product
+over (arguments × lattice points), done in chunks.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Optional
+
+import numpy as np
+from numpy.typing import ArrayLike
+from scipy.special import gamma as _gamma
+from scipy.special import gammaincc, gammainccinv
+
+from equilibrium.errors import InputError, NumericalFailure
+
+__all__ = [
+    "ThetaValues",
+    "riemann_theta",
+    "riemann_theta_scaled",
+    "theta_gradient",
+    "theta_lattice",
+    "ThetaLattice",
+]
+
+_CHUNK_ENTRIES = 1_500_000  # arguments × lattice points per block (memory ~ 24 MB complex)
+
+
+@dataclass(frozen=True)
+class ThetaValues:
+    r"""Values of a Riemann theta function on a batch of arguments.
+
+    Attributes
+    ----------
+    value : complex ndarray, batch shape
+        θ(u|τ) (or θ[α;β](u|τ)).  Equals ``oscillatory * exp(exponent)``; may
+        overflow to ``inf`` when ``Im u`` is large -- use ``oscillatory`` and
+        ``exponent`` then.
+    gradient : complex ndarray (..., g) or None
+        ∂θ/∂u_j when requested.
+    truncation_bound : float
+        Guaranteed bound on the neglected tail of the *oscillatory* part:
+        ``|θ - θ_computed| ≤ truncation_bound · exp(exponent)`` pointwise
+        (for real ``u`` the exponent is 0 and the bound is absolute).
+    lattice_points : int
+        Number of lattice points summed.
+    oscillatory : complex ndarray, batch shape
+        θ̂ = θ · exp(-exponent), of modulus at most Σ_n exp(-‖v_n‖²).
+    exponent : float ndarray, batch shape
+        π yᵀY⁻¹y (plus the real part of the characteristic prefactor).
+    oscillatory_gradient : complex ndarray (..., g) or None
+        ∇θ · exp(-exponent); ``oscillatory_gradient / oscillatory`` is the
+        logarithmic gradient ∇θ/θ without overflow.
+    gradient_truncation_bound : float or None
+        Bound on the neglected tail of each component of
+        ``oscillatory_gradient`` (maximum over the batch).
+    radius : float
+        Ellipsoid radius R (in the variables v = √π T(n + r)).
+    shortest_vector : float
+        ρ, length of the shortest vector of √π T Z^g.
+    """
+
+    value: np.ndarray
+    gradient: Optional[np.ndarray]
+    truncation_bound: float
+    lattice_points: int
+    oscillatory: np.ndarray
+    exponent: np.ndarray
+    oscillatory_gradient: Optional[np.ndarray] = None
+    gradient_truncation_bound: Optional[float] = None
+    radius: float = float("nan")
+    shortest_vector: float = float("nan")
+
+
+# ---------------------------------------------------------------------------
+# input checks
+# ---------------------------------------------------------------------------
+
+def _period_matrix(tau: ArrayLike) -> np.ndarray:
+    t = np.asarray(tau, dtype=complex)
+    if t.ndim == 0:
+        t = t.reshape(1, 1)
+    if t.ndim != 2 or t.shape[0] != t.shape[1] or t.shape[0] == 0:
+        raise InputError(f"tau must be a square (g, g) matrix (or a scalar for g = 1); got shape {t.shape}")
+    if not np.all(np.isfinite(t)):
+        raise InputError("tau has non-finite entries; give a finite symmetric matrix with positive definite imaginary part")
+    scale = max(1.0, float(np.max(np.abs(t))))
+    asym = float(np.max(np.abs(t - t.T)))
+    if asym > 1e-10 * scale:
+        raise InputError(f"tau is not symmetric (max |tau - tau^T| = {asym:.3e}); a period matrix must be symmetric")
+    t = 0.5 * (t + t.T)
+    return t
+
+
+def _cholesky_upper(Y: np.ndarray) -> np.ndarray:
+    try:
+        L = np.linalg.cholesky(Y)
+    except np.linalg.LinAlgError:
+        ev = np.linalg.eigvalsh(Y)
+        raise InputError(
+            f"Im tau is not positive definite (smallest eigenvalue {ev.min():.3e}); "
+            "a Riemann matrix needs Im tau > 0") from None
+    if np.min(np.diag(L)) <= 0:
+        raise InputError("Im tau is not positive definite; a Riemann matrix needs Im tau > 0")
+    return L.T.copy()
+
+
+def _arguments(u: ArrayLike, g: int) -> tuple[np.ndarray, tuple[int, ...]]:
+    """Return (P, g) complex arguments and the batch shape.
+
+    u of shape (..., g) is always accepted; for g = 1 an array whose last axis
+    is not of length 1 (or a scalar) is read as a batch of scalar arguments.
+    """
+    z = np.asarray(u, dtype=complex)
+    if g == 1 and (z.ndim == 0 or z.shape[-1] != 1):
+        z = z[..., None]
+    if z.ndim == 0 or z.shape[-1] != g:
+        raise InputError(f"u must have shape (..., {g}) to match tau of genus {g}; got shape {np.shape(u)}")
+    if not np.all(np.isfinite(z)):
+        raise InputError("u has non-finite entries")
+    batch = z.shape[:-1]
+    return z.reshape(-1, g), batch
+
+
+# ---------------------------------------------------------------------------
+# lattice enumeration and truncation radius
+# ---------------------------------------------------------------------------
+
+def _ellipsoid_points(T: np.ndarray, radius: float, max_points: int) -> np.ndarray:
+    """All n ∈ Z^g with ‖T n‖ ≤ radius, T upper triangular (stacked construction).
+
+    Coordinates are fixed from the last to the first: with n_{i+1..g} fixed,
+    ‖Tn‖² = Σ_{l≤i} (...)² + Σ_{l>i} (T_l· n)², and row i bounds n_i to an interval.
+    """
+    g = T.shape[0]
+    pts = np.zeros((1, 0), dtype=np.int64)      # fixed trailing coordinates n_{i+1..g-1}
+    rem = np.array([radius * radius])            # radius² minus the fixed rows' contribution
+    for i in range(g - 1, -1, -1):
+        # row i: (T_ii n_i + s)^2 ≤ rem,   s = Σ_{j>i} T_ij n_j
+        s = pts @ T[i, i + 1:] if pts.shape[1] else np.zeros(pts.shape[0])
+        half = np.sqrt(np.maximum(rem, 0.0)) / T[i, i]
+        centre = -s / T[i, i]
+        lo = np.ceil(centre - half - 1e-12).astype(np.int64)
+        hi = np.floor(centre + half + 1e-12).astype(np.int64)
+        count = np.maximum(hi - lo + 1, 0)
+        total = int(count.sum())
+        if total > max_points:
+            raise NumericalFailure(
+                f"theta sum over its budget: the ellipsoid holds more than {max_points} lattice points "
+                f"(already {total} at coordinate {i + 1} of {g}); raise max_points or loosen tol")
+        idx = np.repeat(np.arange(pts.shape[0]), count)
+        offs = np.arange(total) - np.repeat(np.cumsum(count) - count, count)
+        ni = lo[idx] + offs
+        rows = T[i, i] * ni + s[idx]
+        rem = rem[idx] - rows * rows
+        pts = np.column_stack([ni, pts[idx]])
+    return pts
+
+
+def _shortest_vector(S: np.ndarray) -> float:
+    """Length of the shortest non-zero vector of the lattice S Z^g (S upper triangular)."""
+    bound = float(np.min(np.linalg.norm(S, axis=0)))  # a column is a lattice vector
+    pts = _ellipsoid_points(S, bound * (1 + 1e-12), 10_000_000)
+    norms = np.linalg.norm(pts @ S.T, axis=1)
+    norms = norms[np.any(pts != 0, axis=1)]
+    return float(min(bound, norms.min())) if norms.size else bound
+
+
+def _tail_sum(g: int, rho: float, R: float, power: int) -> float:
+    """Bound of Σ_{‖v‖≥R} ‖v‖^power exp(-‖v‖²), power ∈ {0, 1} (see module docstring)."""
+    a = 0.5 * (g + power)
+    x = (R - 0.5 * rho) ** 2
+    return float(0.5 * g * (2.0 / rho) ** g * _gamma(a) * gammaincc(a, x))
+
+
+def _radius_for(g: int, rho: float, tol: float, power: int) -> float:
+    """Smallest R (up to the root finder) with tail bound ≤ tol and the subharmonic condition."""
+    a = 0.5 * (g + power)
+    x_min = 0.5 * (g + 2 * power)                     # subharmonicity: ‖w‖² ≥ (g + 2 power)/2
+    target = tol / (0.5 * g * (2.0 / rho) ** g * _gamma(a))
+    x = x_min if target >= 1.0 else max(x_min, float(gammainccinv(a, target)))
+    R = 0.5 * rho + np.sqrt(x)
+    # gammainccinv is accurate to a few ulps; step out until the bound is certainly met
+    while _tail_sum(g, rho, R, power) > tol:
+        R *= 1.0 + 1e-6
+    return float(R)
+
+
+@dataclass(frozen=True)
+class ThetaLattice:
+    """The lattice data of one period matrix and tolerance (reusable across calls)."""
+
+    tau: np.ndarray
+    T: np.ndarray            # upper triangular, Im tau = TᵀT
+    Yinv: np.ndarray
+    Tinv_row_norm: float     # max_j ‖row_j T⁻¹‖
+    rho: float
+    radius: float
+    points: np.ndarray       # (N, g) integer lattice points
+    value_bound: float
+    gradient_tail: float     # bound of Σ_tail ‖v‖ e^{-‖v‖²}
+
+
+def theta_lattice(tau: ArrayLike, *, tol: float = 1e-14, gradient: bool = False,
+                  max_points: int = 2_000_000, shifts: ArrayLike | None = None) -> ThetaLattice:
+    """Check τ, choose the radius from the tail bound and enumerate the lattice points.
+
+    ``shifts`` (P, g): the vectors r = c - round(c) of the arguments to be summed;
+    the point set covers ‖√πT(n + r)‖ < R for each of them.  Without it, every
+    r in the cube [-1/2, 1/2]^g is covered.
+    """
+    t = _period_matrix(tau)
+    if not (np.isfinite(tol) and tol > 0):
+        raise InputError(f"tol must be a positive number; got {tol!r}")
+    g = t.shape[0]
+    Y = t.imag
+    T = _cholesky_upper(Y)
+    S = np.sqrt(np.pi) * T
+    rho = _shortest_vector(S)
+    R = _radius_for(g, rho, tol, 0)
+    Tinv = np.linalg.inv(T)
+    row = float(np.max(np.linalg.norm(Tinv, axis=1)))
+    if gradient:
+        R = max(R, _radius_for(g, rho, tol / max(row / np.sqrt(np.pi), 1e-300), 1))
+    if shifts is None:
+        # r ranges over the cube [-1/2, 1/2]^g; ‖S r‖ is convex, so its max is at a vertex
+        verts = (np.array(np.meshgrid(*([[-0.5, 0.5]] * g), indexing="ij")).reshape(g, -1)).T
+        shift = float(np.max(np.linalg.norm(verts @ S.T, axis=1)))
+    else:
+        r = np.asarray(shifts, dtype=float).reshape(-1, g)
+        shift = float(np.max(np.linalg.norm(r @ S.T, axis=1))) * (1 + 1e-12) if r.size else 0.0
+    big = R + shift
+    # estimated count (volume of the ball / covolume) before enumerating
+    est = np.pi ** (g / 2) / _gamma(g / 2 + 1) * big ** g / np.prod(np.diag(S))
+    if est > 4 * max_points:
+        raise NumericalFailure(
+            f"theta sum over its budget: about {est:.3g} lattice points needed (radius {big:.3g}, "
+            f"shortest lattice vector {rho:.3g}) but max_points = {max_points}")
+    pts = _ellipsoid_points(S, big, max_points)
+    return ThetaLattice(
+        tau=t, T=T, Yinv=np.linalg.inv(Y), Tinv_row_norm=row, rho=rho, radius=R, points=pts,
+        value_bound=_tail_sum(g, rho, R, 0), gradient_tail=_tail_sum(g, rho, R, 1))
+
+
+# ---------------------------------------------------------------------------
+# the sum
+# ---------------------------------------------------------------------------
+
+def _line_structure(points: np.ndarray):
+    """Group lattice points into lines along the first coordinate.
+
+    Returns the distinct trailing coordinates (L, g-1), the first-coordinate
+    offset ``n1_min``, and for every point its (row in n1 - n1_min, line index).
+    """
+    trail, line = np.unique(points[:, 1:], axis=0, return_inverse=True)
+    n1 = points[:, 0]
+    n1_min = int(n1.min())
+    return trail, n1_min, n1 - n1_min, line.reshape(-1)
+
+
+def _scaled_sum(z: np.ndarray, lat: ThetaLattice, gradient: bool):
+    """Oscillatory part, exponent and (optionally) oscillatory gradient at z (P, g).
+
+    Term n of θ̂ is exp(a_n + nᵀb_p + c_p) with
+    a_n = πi nᵀτn,  b_p = 2πi(u_p - τk_p),  c_p = πi kᵀτk - 2πi kᵀu_p - π yᵀY⁻¹y
+    (m = n - k).  Complex exponentials are the cost, so the sum is factored
+    along lines of the first coordinate n_1 (trailing coordinates n' fixed):
+    Σ_n = Σ_lines exp(n'ᵀb'_p + c_p) Σ_{n_1} exp(n_1 b_p1) exp(a_n),
+    the inner sums being one matrix product (arguments × n_1) · (n_1 × lines),
+    and exp(n'ᵀb'_p) a product of per-coordinate tables.
+    The factored form can overflow for huge Im τ; then the terms are
+    exponentiated one by one.
+    """
+    t = lat.tau
+    pts_i = lat.points
+    pts = pts_i.astype(float)                            # (N, g)
+    g = t.shape[0]
+    y = z.imag
+    c = y @ lat.Yinv                                     # Y symmetric: c = Y⁻¹ y
+    k = np.rint(c)
+    exponent = np.pi * np.einsum("pi,pi->p", y, c)
+    a_n = 1j * np.pi * np.einsum("ni,ij,nj->n", pts, t, pts)
+    b_p = 2j * np.pi * (z - k @ t)
+    c_p = (1j * np.pi * np.einsum("pi,ij,pj->p", k, t, k)
+           - 2j * np.pi * np.einsum("pi,pi->p", k, z) - exponent)
+    P, N = z.shape[0], pts.shape[0]
+    osc = np.empty(P, dtype=complex)
+    grad = np.empty((P, g), dtype=complex) if gradient else None
+
+    # |Re b_p| = 2π|Y r| with |r_j| ≤ 1/2: largest real exponent of a single factor
+    growth = np.pi * float(np.max(np.abs(pts) @ np.abs(t.imag).sum(axis=1))) if N else 0.0
+    if growth < 600.0:          # every factor stays below e^600 < 1e308
+        trail, n1_min, row, line = _line_structure(pts_i)
+        width = int(row.max()) + 1
+        L = trail.shape[0]
+        M = np.zeros((width, L), dtype=complex)
+        M[row, line] = np.exp(a_n)
+        n1 = (np.arange(width) + n1_min).astype(float)
+        if gradient:
+            M1 = M * n1[:, None]
+        trail_f = trail.astype(float)
+        # exp(n'ᵀb'_p) = ∏_{j≥2} exp(n_j b_pj): one small table of exponentials per coordinate,
+        # gathered onto the lines (multiplications instead of P·L complex exponentials)
+        lows = trail.min(axis=0) if g > 1 else np.zeros(0, dtype=np.int64)
+        ranges = [np.arange(lows[j], trail[:, j].max() + 1, dtype=float) for j in range(g - 1)]
+        cols = [trail[:, j] - lows[j] for j in range(g - 1)]
+        step = max(1, _CHUNK_ENTRIES // max(L + width, 1))
+        for s in range(0, P, step):
+            sl = slice(s, s + step)
+            W = np.exp(b_p[sl, 0:1] * n1[None, :])                      # (p, width)
+            F = np.repeat(np.exp(c_p[sl, None]), L, axis=1)               # (p, L)
+            for j in range(g - 1):
+                F *= np.exp(b_p[sl, j + 1:j + 2] * ranges[j][None, :])[:, cols[j]]
+            inner = W @ M
+            FI = F * inner
+            osc[sl] = FI.sum(axis=1)
+            if gradient:
+                gsum = np.empty((FI.shape[0], g), dtype=complex)
+                gsum[:, 0] = (F * (W @ M1)).sum(axis=1)
+                if g > 1:
+                    gsum[:, 1:] = FI @ trail_f
+                grad[sl] = 2j * np.pi * (gsum - k[sl] * osc[sl, None])
+    else:
+        step = max(1, _CHUNK_ENTRIES // max(N, 1))
+        for s in range(0, P, step):
+            sl = slice(s, s + step)
+            e = np.exp(b_p[sl] @ pts.T + a_n[None, :] + c_p[sl, None])
+            osc[sl] = e.sum(axis=1)
+            if gradient:
+                grad[sl] = 2j * np.pi * (e @ pts - k[sl] * osc[sl, None])
+    return osc, exponent, grad, c
+
+
+def _characteristic(characteristic, g: int):
+    if characteristic is None:
+        return None
+    try:
+        alpha, beta = characteristic
+    except (TypeError, ValueError):
+        raise InputError("characteristic must be a pair (alpha, beta) of real g-vectors") from None
+    al = np.atleast_1d(np.asarray(alpha, dtype=float))
+    be = np.atleast_1d(np.asarray(beta, dtype=float))
+    if al.shape != (g,) or be.shape != (g,) or not (np.all(np.isfinite(al)) and np.all(np.isfinite(be))):
+        raise InputError(f"characteristic (alpha, beta) must be two finite real vectors of length {g}")
+    return al, be
+
+
+def _evaluate(u, tau, tol, gradient, characteristic, max_points):
+    t = _period_matrix(tau)
+    g = t.shape[0]
+    Y = t.imag
+    _cholesky_upper(Y)                                   # refuse a non-Riemann matrix first
+    z, batch = _arguments(u, g)
+    char = _characteristic(characteristic, g)
+    if char is not None:
+        # DLMF 21.2.7: θ[α;β](u) = exp(πi αᵀτα + 2πi αᵀ(u+β)) θ(u + τα + β)
+        al, be = char
+        pre = 1j * np.pi * (al @ t @ al) + 2j * np.pi * ((z + be) @ al)
+        z = z + t @ al + be
+    # the lattice only has to cover the shifts r = c - round(c) that actually occur
+    # (c computed exactly as in _scaled_sum, so the covered shifts are the ones summed)
+    c = z.imag @ np.linalg.inv(Y)
+    lat = theta_lattice(t, tol=tol, gradient=gradient, max_points=max_points, shifts=c - np.rint(c))
+    osc, expo, grad, c = _scaled_sum(z, lat, gradient)
+    if char is not None:
+        phase = np.exp(1j * pre.imag)
+        if gradient:
+            grad = phase[:, None] * (grad + 2j * np.pi * al[None, :] * osc[:, None])
+        osc = phase * osc
+        expo = expo + pre.real
+    gbound = None
+    if gradient:
+        cmax = float(np.max(np.abs(c))) if c.size else 0.0
+        gbound = 2 * np.pi * (lat.Tinv_row_norm / np.sqrt(np.pi) * lat.gradient_tail + cmax * lat.value_bound)
+        if char is not None:
+            gbound += 2 * np.pi * float(np.max(np.abs(char[0]))) * lat.value_bound
+    return lat, batch, osc, expo, grad, gbound
+
+
+def riemann_theta(u: ArrayLike, tau: ArrayLike, *, tol: float = 1e-14, gradient: bool = False,
+                  characteristic: tuple[ArrayLike, ArrayLike] | None = None,
+                  max_points: int = 2_000_000) -> ThetaValues:
+    r"""Riemann theta function θ(u|τ) or θ[α;β](u|τ), vectorised over u.
+
+    Parameters
+    ----------
+    u : array_like, complex, shape (..., g)
+        Arguments (for g = 1 also any shape whose last axis is not of length 1).
+    tau : array_like, (g, g)
+        Symmetric, ``Im tau`` positive definite (scalar allowed for g = 1).
+    tol : float
+        Bound imposed on the neglected tail of the oscillatory part (see module
+        docstring; DHBvHS 2004, Theorem 2).
+    gradient : bool
+        Also return ∂θ/∂u_j.
+    characteristic : (alpha, beta), optional
+        Real characteristic vectors (DLMF §21.2.5).
+    max_points : int
+        Budget of lattice points; beyond it :class:`NumericalFailure` is raised.
+
+    Raises
+    ------
+    InputError
+        τ not square/symmetric/finite, ``Im τ`` not positive definite, bad u.
+    NumericalFailure
+        The ellipsoid needs more than ``max_points`` lattice points.
+    """
+    lat, batch, osc, expo, grad, gbound = _evaluate(u, tau, tol, gradient, characteristic, max_points)
+    g = lat.tau.shape[0]
+    with np.errstate(over="ignore", invalid="ignore"):
+        scale = np.exp(expo)
+        value = osc * scale
+        full_grad = grad * scale[:, None] if gradient else None
+    return ThetaValues(
+        value=value.reshape(batch),
+        gradient=None if full_grad is None else full_grad.reshape(batch + (g,)),
+        truncation_bound=lat.value_bound,
+        lattice_points=int(lat.points.shape[0]),
+        oscillatory=osc.reshape(batch),
+        exponent=expo.reshape(batch),
+        oscillatory_gradient=None if grad is None else grad.reshape(batch + (g,)),
+        gradient_truncation_bound=gbound,
+        radius=lat.radius,
+        shortest_vector=lat.rho,
+    )
+
+
+def riemann_theta_scaled(u: ArrayLike, tau: ArrayLike, *, tol: float = 1e-14,
+                         characteristic: tuple[ArrayLike, ArrayLike] | None = None,
+                         max_points: int = 2_000_000) -> tuple[np.ndarray, np.ndarray]:
+    r"""Return ``(oscillatory, exponent)`` with θ(u|τ) = oscillatory · exp(exponent).
+
+    ``exponent = π yᵀ(Im τ)⁻¹y`` (y = Im u; plus the real part of the
+    characteristic prefactor), so ``|oscillatory|`` stays O(1) however large
+    ``Im u`` is.  Same parameters and errors as :func:`riemann_theta`; the
+    truncation bound of ``oscillatory`` is ``tol``.
+    """
+    _, batch, osc, expo, _, _ = _evaluate(u, tau, tol, False, characteristic, max_points)
+    return osc.reshape(batch), expo.reshape(batch)
+
+
+def theta_gradient(u: ArrayLike, tau: ArrayLike, *, tol: float = 1e-14,
+                   characteristic: tuple[ArrayLike, ArrayLike] | None = None,
+                   max_points: int = 2_000_000) -> np.ndarray:
+    """Gradient ∂θ/∂u_j, shape (..., g); shorthand for ``riemann_theta(..., gradient=True).gradient``."""
+    return riemann_theta(u, tau, tol=tol, gradient=True, characteristic=characteristic,
+                         max_points=max_points).gradient

@@ -1,0 +1,206 @@
+"""Tests of gfunction.theta against outside references (mpmath, DLMF identities, brute-force sums).
+
+DLMF sections are §21.2 (definitions) and §21.3 (quasi-periodicity); equation numbers are from memory.
+"""
+
+from __future__ import annotations
+
+import itertools
+
+import mpmath
+import numpy as np
+import pytest
+
+from equilibrium.errors import InputError, NumericalFailure
+from gfunction.theta import riemann_theta, riemann_theta_scaled, theta_gradient
+
+
+def random_riemann_matrix(g: int, rng: np.random.Generator, lift: float = 0.4) -> np.ndarray:
+    """Symmetric τ with Im τ = AAᵀ + lift·I (positive definite)."""
+    A = rng.normal(size=(g, g))
+    X = rng.normal(size=(g, g))
+    return 0.5 * (X + X.T) + 1j * (A @ A.T + lift * np.eye(g))
+
+
+def brute_force(u: np.ndarray, tau: np.ndarray, box: int, alpha=None, beta=None):
+    """Direct sum of the DLMF §21.2 series over the box |m_j| ≤ box."""
+    g = tau.shape[0]
+    m = np.array(list(itertools.product(range(-box, box + 1), repeat=g)), float)
+    if alpha is not None:
+        m = m + alpha
+        u = u + beta
+    e = np.exp(1j * np.pi * np.einsum("ni,ij,nj->n", m, tau, m)[None, :] + 2j * np.pi * u @ m.T)
+    return e.sum(axis=1), 2j * np.pi * e @ m
+
+
+# --- genus 1 against mpmath ----------------------------------------------------------------
+
+@pytest.mark.parametrize("tau", [0.3 + 1.1j, -0.45 + 0.35j, 0.1 + 3.0j])
+def test_genus_one_matches_mpmath_jtheta(tau):
+    # Source: mpmath.jtheta; θ(u|τ) = ϑ_3(πu, q) with q = e^{πiτ} (DLMF 21.2.1 with g = 1, and 20.2.3).
+    rng = np.random.default_rng(0)
+    u = rng.uniform(-1, 1, 12) + 1j * rng.uniform(-1.5, 1.5, 12)
+    got = riemann_theta(u, tau)
+    mpmath.mp.dps = 30
+    q = mpmath.exp(1j * mpmath.pi * tau)
+    ref = np.array([complex(mpmath.jtheta(3, mpmath.pi * mpmath.mpc(x), q)) for x in u])
+    scale = np.exp(got.exponent)
+    assert np.all(np.abs(got.value - ref) <= 5e-14 * scale + 2 * got.truncation_bound * scale)
+    # derivative: d/du ϑ_3(πu, q) = π ϑ_3'(πu, q) (mpmath.jtheta with derivative=1)
+    grad = riemann_theta(u, tau, gradient=True).gradient[:, 0]
+    dref = np.array([complex(mpmath.pi * mpmath.jtheta(3, mpmath.pi * mpmath.mpc(x), q, 1)) for x in u])
+    assert np.all(np.abs(grad - dref) <= 1e-12 * (1 + np.abs(u.imag)) * scale * 2 * np.pi)
+
+
+def test_scaled_form_never_overflows():
+    # θ(u + Nτ) = exp(-πi N²τ - 2πi N u) θ(u) (DLMF §21.3, iterated); at N = 400 θ itself overflows.
+    tau = 0.2 + 0.9j
+    u = np.array([0.13 + 0.05j, -0.31 + 0.2j])
+    N = 400
+    osc, expo = riemann_theta_scaled(u + N * tau, tau)
+    osc0, expo0 = riemann_theta_scaled(u, tau)
+    log_lhs = np.log(osc) + expo
+    log_rhs = -1j * np.pi * N * N * tau - 2j * np.pi * N * u + np.log(osc0) + expo0
+    assert np.isfinite(osc).all() and np.all(expo > 800)
+    # compare modulus and phase of the logarithms (phase mod 2π)
+    assert np.all(np.abs(log_lhs.real - log_rhs.real) < 1e-9 * np.abs(log_rhs.real))
+    dphase = np.angle(np.exp(1j * (log_lhs.imag - log_rhs.imag)))
+    assert np.all(np.abs(dphase) < 1e-9)
+
+
+# --- quasi-periodicity and brute force in genus 2, 3 -----------------------------------------
+
+@pytest.mark.parametrize("g", [2, 3])
+def test_quasi_periodicity(g):
+    # DLMF §21.3 (quasi-periodicity): θ(u + e_j) = θ(u), θ(u + τe_j) = exp(-πiτ_jj - 2πiu_j) θ(u).
+    rng = np.random.default_rng(10 + g)
+    tau = random_riemann_matrix(g, rng)
+    u = rng.normal(size=(20, g)) + 0.5j * rng.normal(size=(20, g))
+    base = riemann_theta(u, tau)
+    for j in range(g):
+        ej = np.eye(g)[j]
+        shifted = riemann_theta(u + ej, tau)
+        assert np.allclose(shifted.value, base.value, rtol=0, atol=1e-13 * np.exp(base.exponent).max())
+        moved = riemann_theta(u + tau @ ej, tau)
+        factor = np.exp(-1j * np.pi * tau[j, j] - 2j * np.pi * u[:, j])
+        expected = factor * base.value
+        assert np.all(np.abs(moved.value - expected) <= 1e-12 * np.abs(factor) * np.exp(base.exponent))
+
+
+@pytest.mark.parametrize("g", [2, 3])
+def test_against_brute_force_sum_and_bound(g):
+    # Reference: the series of DLMF 21.2.1 summed over a box far larger than the ellipsoid.
+    rng = np.random.default_rng(20 + g)
+    tau = random_riemann_matrix(g, rng, lift=0.6)
+    u = rng.normal(size=(15, g)) + 0.4j * rng.normal(size=(15, g))
+    ref, dref = brute_force(u, tau, box=14 if g == 2 else 10)
+    for tol in (1e-4, 1e-8, 1e-14):
+        got = riemann_theta(u, tau, tol=tol, gradient=True)
+        scale = np.exp(got.exponent)
+        err = np.abs(got.value - ref) / scale
+        # the guaranteed bound (DHBvHS 2004, Theorem 2) holds, up to rounding
+        assert np.all(err <= got.truncation_bound + 1e-14), (tol, err.max(), got.truncation_bound)
+        assert got.truncation_bound <= tol
+        gerr = np.abs(got.gradient - dref) / scale[:, None]
+        assert np.all(gerr <= got.gradient_truncation_bound + 1e-12)
+    # the fine sum is accurate to rounding
+    assert np.max(err) < 1e-13
+
+
+def test_bound_is_not_vacuous_for_a_coarse_tolerance():
+    # A coarse tolerance really drops terms: the error is non-zero but below the bound.
+    rng = np.random.default_rng(5)
+    tau = random_riemann_matrix(2, rng, lift=0.2)
+    u = rng.normal(size=(30, 2))
+    ref, _ = brute_force(u, tau, box=16)
+    got = riemann_theta(u, tau, tol=1e-3)
+    err = np.abs(got.value - ref)
+    assert err.max() > 0 and err.max() <= got.truncation_bound
+    assert got.lattice_points < riemann_theta(u, tau, tol=1e-14).lattice_points
+
+
+def test_characteristics_match_definition():
+    # DLMF 21.2.5: θ[α;β](u|τ) = Σ exp(πi(m+α)ᵀτ(m+α) + 2πi(m+α)ᵀ(u+β)), summed directly.
+    rng = np.random.default_rng(7)
+    tau = random_riemann_matrix(2, rng)
+    u = rng.normal(size=(10, 2)) + 0.3j * rng.normal(size=(10, 2))
+    alpha, beta = np.array([0.5, 0.0]), np.array([0.5, 0.5])
+    ref, dref = brute_force(u, tau, 14, alpha, beta)
+    got = riemann_theta(u, tau, gradient=True, characteristic=(alpha, beta))
+    assert np.allclose(got.value, ref, rtol=0, atol=1e-12 * np.abs(ref).max())
+    assert np.allclose(got.gradient, dref, rtol=0, atol=1e-11 * np.abs(dref).max())
+    # a half-integer characteristic with 4αᵀβ odd gives an odd function, zero at u = 0
+    # (parity of theta characteristics, DLMF §21.2 / common practice); 4αᵀβ even gives non-zero
+    odd = riemann_theta(np.zeros(2), tau, characteristic=([0.5, 0.0], [0.5, 0.0])).value
+    even = riemann_theta(np.zeros(2), tau, characteristic=([0.5, 0.5], [0.5, 0.5])).value
+    assert abs(odd) < 1e-14 and abs(even) > 0.1
+
+
+# --- derivatives ------------------------------------------------------------------------------
+
+@pytest.mark.parametrize("g", [2, 3])
+def test_gradient_against_finite_differences(g):
+    rng = np.random.default_rng(30 + g)
+    tau = random_riemann_matrix(g, rng)
+    u = rng.normal(size=(6, g)) + 0.3j * rng.normal(size=(6, g))
+    grad = theta_gradient(u, tau)
+    h = 1e-5
+    for j in range(g):
+        ej = np.eye(g)[j] * h
+        fd = (riemann_theta(u + ej, tau).value - riemann_theta(u - ej, tau).value) / (2 * h)
+        assert np.allclose(grad[:, j], fd, rtol=1e-7, atol=1e-7 * np.abs(fd).max())
+
+
+@pytest.mark.parametrize("g", [2, 3])
+def test_heat_equation(g):
+    # Heat equation: 4πi ∂θ/∂τ_jj = ∂²θ/∂u_j², and for j ≠ k (τ_jk = τ_kj moved together)
+    # 2πi ∂θ/∂τ_jk = ∂²θ/∂u_j∂u_k.  It follows termwise from the series DLMF 21.2.1; the one-variable
+    # case is DLMF 20.13.1.  (The brief pointed to DLMF §21.4; from memory that section holds
+    # graphics, so the section is not cited here.)  τ-derivatives by central differences.
+    rng = np.random.default_rng(40 + g)
+    tau = random_riemann_matrix(g, rng)
+    u = rng.normal(size=(5, g)) + 0.2j * rng.normal(size=(5, g))
+    h = 1e-4
+    for j, k in [(0, 0), (0, 1), (g - 1, g - 1), (1, g - 1)]:
+        E = np.zeros((g, g))
+        E[j, k] = E[k, j] = 1.0
+        dtau = (riemann_theta(u, tau + h * E).value - riemann_theta(u, tau - h * E).value) / (2 * h)
+        ek = np.eye(g)[k] * h
+        d2 = (theta_gradient(u + ek, tau)[:, j] - theta_gradient(u - ek, tau)[:, j]) / (2 * h)
+        factor = 4j * np.pi if j == k else 2j * np.pi
+        assert np.allclose(factor * dtau, d2, rtol=1e-6, atol=1e-6 * np.abs(d2).max())
+
+
+# --- shapes, large Im tau, errors ----------------------------------------------------------------
+
+def test_shapes_and_genus_one_batches():
+    tau = 1j
+    assert riemann_theta(0.3, tau).value.shape == ()
+    assert riemann_theta(np.zeros((4, 5)), tau).value.shape == (4, 5)
+    assert riemann_theta(np.zeros((4, 1)), tau).value.shape == (4,)
+    t2 = np.array([[1j, 0.2], [0.2, 1.3j]])
+    r = riemann_theta(np.zeros((3, 4, 2)), t2, gradient=True)
+    assert r.value.shape == (3, 4) and r.gradient.shape == (3, 4, 2)
+
+
+def test_ill_conditioned_imaginary_part_direct_path():
+    # Im τ with eigenvalues ~ 119.5 and 0.5: the factored sum would overflow; the direct path is used.
+    tau = 1j * np.array([[60.0, 59.5], [59.5, 60.0]]) + 0.1
+    rng = np.random.default_rng(3)
+    u = rng.normal(size=(8, 2)) + 0.5j * rng.normal(size=(8, 2))
+    ref, _ = brute_force(u, tau, 12)
+    got = riemann_theta(u, tau)
+    assert np.all(np.abs(got.value - ref) <= (1e-13 + got.truncation_bound) * np.exp(got.exponent))
+
+
+def test_bad_input_is_refused():
+    with pytest.raises(InputError):
+        riemann_theta(np.zeros(2), np.array([[1j, 0.3], [0.1, 1j]]))           # not symmetric
+    with pytest.raises(InputError):
+        riemann_theta(np.zeros(2), np.array([[1j, 2j], [2j, 1j]]))             # Im τ indefinite
+    with pytest.raises(InputError):
+        riemann_theta(np.zeros(3), np.eye(2) * 1j)                              # wrong genus
+    with pytest.raises(InputError):
+        riemann_theta(0.0, -1j)
+    with pytest.raises(NumericalFailure, match="budget"):
+        riemann_theta(np.zeros(3), 0.05j * np.eye(3), max_points=1000)

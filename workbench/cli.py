@@ -1,0 +1,85 @@
+"""The ``workbench`` command line.
+
+Each subcommand lives in its own module under :mod:`workbench.commands`
+and exposes ``register(subparsers)`` and ``run(args) -> int``.  This file
+only dispatches and turns the packages' exceptions into exit codes:
+
+====  ==========================================================
+0     success (and every verification figure within tolerance)
+1     an unexpected internal error (a bug: please report it)
+2     bad input: one line on stderr naming the problem
+3     the computation ran but could not certify its answer
+130   interrupted (Ctrl-C); nothing half-written is left behind
+====  ==========================================================
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from typing import Sequence
+
+from equilibrium.errors import InputError, NumericalFailure
+
+#: subcommand name -> module; a module that is absent is simply not offered.
+COMMAND_MODULES = {
+    "equilibrium": "workbench.commands.equilibrium",
+    "recurrence": "workbench.commands.recurrence",
+    "zeros": "workbench.commands.zeros",
+    "predict": "workbench.commands.predict",
+    "run": "workbench.commands.run",
+    "sweep": "workbench.commands.sweep",
+    "plot": "workbench.commands.plot",
+    "show": "workbench.commands.show",
+    "demo": "workbench.commands.demo",
+}
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports usage errors as one line and exit code 2."""
+
+    def error(self, message: str) -> None:  # pragma: no cover - exercised via CLI tests
+        self.exit(2, f"workbench: error: {message} (see 'workbench --help')\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="workbench",
+        description="Large-degree asymptotics of orthogonal polynomials: "
+        "equilibrium measures, g-functions, model problems and direct polynomials.",
+    )
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    sub.required = True
+    for name, module_name in COMMAND_MODULES.items():
+        try:
+            module = importlib.import_module(module_name)
+        except ModuleNotFoundError as exc:
+            if exc.name == module_name:
+                continue
+            raise
+        module.register(sub)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return int(args.handler(args) or 0)
+    except InputError as exc:
+        print(f"workbench {args.command}: error: {exc}", file=sys.stderr)
+        return 2
+    except NumericalFailure as exc:
+        print(f"workbench {args.command}: numerical failure: {exc}", file=sys.stderr)
+        return 3
+    except KeyboardInterrupt:
+        print(f"workbench {args.command}: interrupted", file=sys.stderr)
+        return 130
+    except MemoryError:
+        print(f"workbench {args.command}: error: out of memory; try a smaller size", file=sys.stderr)
+        return 2
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

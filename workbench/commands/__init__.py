@@ -1,0 +1,1 @@
+"""One module per subcommand of the ``workbench`` command line."""

@@ -1,0 +1,92 @@
+"""Options shared by the commands that take a field: --potential, --on, --param, --factor, --json, --out.
+
+``add_field_options(parser)`` adds them; ``field_and_set_from_args(args)``
+turns them into an :class:`equilibrium.Field` and an
+:class:`equilibrium.IntervalSet`.  Text is parsed by the packages' own parsers
+(never evaluated as code); every problem raises
+:class:`equilibrium.errors.InputError` with one line.
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import re
+from typing import Sequence
+
+from equilibrium.errors import InputError
+from equilibrium.field import Field
+from equilibrium.sets import IntervalSet
+
+_NAME = re.compile(r"^[A-Za-z_][A-Za-z_0-9]*$")
+_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+_INTEGER = re.compile(r"^[+-]?\d+$")
+
+
+def add_field_options(parser: argparse.ArgumentParser, *, factor: bool = True, output: bool = False) -> None:
+    """Add --potential, --on, --param (repeatable), --factor; with ``output=True`` also --json and --out.
+
+    (--json/--out are separate, :func:`add_output_options`, because some commands
+    define their own --json.)
+    """
+    parser.add_argument("--potential", metavar="EXPR",
+                        help="external field V(x), e.g. 'x**4/4 - t*x**2/2' (may be omitted when --on is compact: V = 0)")
+    parser.add_argument("--on", metavar="SET", help="the set Σ as a:b,c:d (empty end = infinity; default: the real line); write --on=-1:1")
+    parser.add_argument("--param", metavar="NAME=VALUE", action="append", default=[],
+                        help="value of a parameter in the expressions (repeatable)")
+    if factor:
+        parser.add_argument("--factor", metavar="EXPR",
+                            help="n-independent factor h(x), e.g. '(1-x)^0.5*(1+x)^-0.5' or 'abs(x-0.2)^0.6'")
+    if output:
+        add_output_options(parser)
+
+
+def add_output_options(parser: argparse.ArgumentParser) -> None:
+    """Add --json (exactly one JSON object on stdout) and --out FILE.h5."""
+    parser.add_argument("--json", action="store_true", help="print exactly one JSON object on stdout")
+    parser.add_argument("--out", metavar="FILE.h5", help="also write the result to an HDF5 file")
+
+
+def parse_parameters(items: Sequence[str]) -> dict[str, float]:
+    """``["t=3", "c=-0.5"]`` → ``{"t": 3.0, "c": -0.5}``."""
+    values: dict[str, float] = {}
+    for item in items or ():
+        if item.count("=") != 1:
+            raise InputError(f"--param '{item}' must look like NAME=VALUE (e.g. --param t=3)")
+        name, text = (s.strip() for s in item.split("="))
+        if not _NAME.match(name):
+            raise InputError(f"--param name '{name}' must be a name (letters, digits, _), e.g. t")
+        if not _NUMBER.match(text):
+            raise InputError(f"--param {name}: '{text}' is not a number")
+        value = float(text)
+        if not math.isfinite(value):
+            raise InputError(f"--param {name}: '{text}' is not finite")
+        if name in values:
+            raise InputError(f"--param {name} is given twice")
+        values[name] = value
+    return values
+
+
+def field_and_set_from_args(args: argparse.Namespace) -> tuple[Field, IntervalSet]:
+    """The field and the set named on the command line."""
+    parameters = parse_parameters(getattr(args, "param", []))
+    on = IntervalSet.real_line() if not getattr(args, "on", None) else IntervalSet.parse(args.on)
+    text = getattr(args, "potential", None)
+    if text is None or not text.strip():
+        if not on.is_compact:
+            raise InputError("--potential is required unless --on names a compact set (then V = 0)")
+        return Field.zero(), on
+    return Field.from_expression(text, parameters=parameters), on
+
+
+def positive_integer(text, name: str, minimum: int = 1) -> int:
+    """An integer ≥ ``minimum`` from command-line text."""
+    if text is None:
+        raise InputError(f"{name} is required")
+    token = str(text).strip()
+    if not _INTEGER.match(token):
+        raise InputError(f"{name} must be an integer, got '{token}'")
+    value = int(token)
+    if value < minimum:
+        raise InputError(f"{name} = {value} must be >= {minimum}")
+    return value

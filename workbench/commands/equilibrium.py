@@ -1,0 +1,51 @@
+"""``workbench equilibrium``: the equilibrium measure of a field on a set."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from equilibrium import solve, solve_signed
+from workbench.commands._common import add_field_options, add_output_options, field_and_set_from_args
+from workbench.equilibrium_io import measure_group, measure_json, measure_table
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "equilibrium",
+        help="equilibrium measure of a field: support, masses, phases, ell, energy, checks",
+        description="Compute the equilibrium measure of V on a set (support found automatically), "
+        "or with --signed the signed equilibrium measure of the whole compact set.",
+    )
+    add_field_options(parser, factor=False)
+    parser.add_argument("--signed", action="store_true", help="signed problem on the whole (compact) set given by --on")
+    add_output_options(parser)
+    parser.set_defaults(handler=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    field, on = field_and_set_from_args(args)
+    mu = solve_signed(field, on) if args.signed else solve(field, on)
+    if args.out:
+        from workbench.results import write_group_file
+
+        tree = measure_group(mu)
+        write_group_file(args.out, _wrap(tree), command="workbench equilibrium", field=field.description, set=on.describe())
+    if args.json:
+        print(measure_json(mu))
+    else:
+        parameters = ", ".join(f"{k} = {v:g}" for k, v in field.parameters.items())
+        title = f"equilibrium measure of V(x) = {field.description}" + (f"  ({parameters})" if parameters else "")
+        print(measure_table(mu, title + f" on {on}"))
+    if not mu.verified:
+        print(f"workbench equilibrium: the result is not verified: {mu.message}", file=sys.stderr)
+        return 3
+    return 0
+
+
+def _wrap(node):
+    from workbench.results import Group
+
+    root = Group()
+    root.groups["equilibrium"] = node
+    return root

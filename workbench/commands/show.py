@@ -1,0 +1,124 @@
+"""``workbench show FILE.h5``: a summary table of a run or sweep file (read only)."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+
+from equilibrium.errors import InputError
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "show", help="print a summary table of a run or sweep file",
+        description="Print what a workbench HDF5 file holds: the case, the equilibrium measure, "
+                    "direct against predicted quantities at every n, and the fitted rates.")
+    parser.add_argument("file", metavar="FILE.h5", help="file written by 'workbench run' or 'sweep'")
+    parser.set_defaults(handler=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    from workbench.results import read_run
+
+    path = Path(args.file)
+    if not path.exists():
+        raise InputError(f"{path} not found; give a file written by 'workbench run' or 'sweep'")
+    print("\n".join(summary_lines(read_run(path), str(path))))
+    return 0
+
+
+def _fmt(value, width: int = 11) -> str:
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return f"{str(value):>{width}}"
+    if math.isnan(v):
+        return f"{'-':>{width}}"
+    if v != 0 and (abs(v) < 1e-3 or abs(v) >= 1e5):
+        return f"{v:>{width}.3e}"
+    return f"{v:>{width}.6f}"
+
+
+def summary_lines(tree, name: str = "") -> list[str]:
+    """Text summary of a run (or sweep) tree read back from a file."""
+    attrs = tree.attrs
+    lines = [f"{name}: {attrs.get('format', '?')} of case '{attrs.get('case_name', '?')}' "
+             f"(workbench {attrs.get('workbench_version', '?')}, {attrs.get('created_utc', '?')}"
+             + (f", commit {str(attrs['git_commit'])[:10]}" if "git_commit" in attrs else "") + ")"]
+    params = json.loads(attrs.get("parameters", "{}") or "{}")
+    if params:
+        lines.append(f"  {params.get('field', '')} on {params.get('set', '')}; {params.get('factor', '')}"
+                     + ("  [reduced size]" if params.get("reduced") else ""))
+    if attrs.get("format") == "workbench-sweep":
+        return lines + _sweep_lines(tree)
+    eq = tree.groups.get("equilibrium")
+    if eq is not None:
+        support = np.asarray(eq.get("support")).reshape(-1, 2)
+        bands = ", ".join(f"[{a:.6f}, {b:.6f}]" for a, b in support)
+        lines.append(f"  equilibrium ({eq.attrs.get('kind')}): {support.shape[0]} band(s) {bands}")
+        lines.append(f"    masses {np.array2string(np.asarray(eq.get('masses')), precision=6)}"
+                     f"  Omega {np.array2string(np.asarray(eq.get('omega')), precision=6)}"
+                     f"  ell = {eq.attrs.get('lagrange'):.10g}  energy = {eq.attrs.get('energy'):.10g}"
+                     f"  verified = {eq.attrs.get('verified')}")
+    comp = tree.groups.get("comparison")
+    if comp is not None:
+        columns = [("n", "n"), ("a_direct", "a_n direct"), ("a_model", "a_n model"),
+                   ("err_a", "|err a_n|"), ("err_b", "|err b_n|"), ("err_values", "err p_n"),
+                   ("err_zeros_bulk", "err bulk"), ("err_zeros_edge", "err edge"),
+                   ("err_zeros_gap", "err gap"), ("band_count_mismatch", "count miss"),
+                   ("small_norm", "small-norm")]
+        columns = [(k, t) for k, t in columns if comp.has(k)]
+        lines.append("  " + "".join(f"{t:>11}" for _, t in columns))
+        data = [np.asarray(comp.get(k)) for k, _ in columns]
+        for i in range(data[0].size):
+            row = [f"{int(data[0][i]):>11d}"] + [_fmt(d[i]) for d in data[1:]]
+            lines.append("  " + "".join(row))
+        if comp.has("band_counts_direct"):
+            last = np.asarray(comp.get("band_counts_direct"))[-1]
+            model = (np.asarray(comp.get("band_counts_model"))[-1] if comp.has("band_counts_model")
+                     else None)
+            lines.append(f"  zeros per band at n = {int(data[0][-1])}: direct {last.tolist()}"
+                         + (f", predicted {model.tolist()}" if model is not None else ""))
+        rates = comp.groups.get("rates")
+        if rates is not None and rates.groups:
+            lines.append("  fitted rates (error ~ C n^slope, least squares in log-log):")
+            for key, fit in rates.groups.items():
+                s, se = fit.attrs.get("slope"), fit.attrs.get("stderr")
+                note = f"  ({fit.attrs['note']})" if "note" in fit.attrs else ""
+                lines.append(f"    {key:<16} slope {_fmt(s, 8)} +- {_fmt(se, 8)}  "
+                             f"({fit.attrs.get('points')} points){note}")
+    messages = attrs.get("messages", "none")
+    if messages not in ("none", None, []):
+        lines.append(f"  not verified: {messages}")
+    figures = tree.groups.get("figures")
+    if figures is not None and figures.attrs.get("files"):
+        files = figures.attrs["files"]
+        if isinstance(files, str):  # lists of text are stored as JSON
+            files = json.loads(files) if files.startswith("[") else [files]
+        lines.append(f"  figures: {', '.join(files)}")
+    timings = json.loads(attrs.get("timings_s", "{}") or "{}")
+    if timings:
+        lines.append("  timings (s): " + ", ".join(f"{k} {v:.2f}" for k, v in timings.items()))
+    return lines
+
+
+def _sweep_lines(tree) -> list[str]:
+    grid = tree.groups["grid"]
+    names = str(tree.attrs.get("axes", "")).split(",")
+    bands = np.asarray(grid.get("bands"))
+    lines = []
+    for name in names:
+        v = np.asarray(grid.get(f"axis_{name}"))
+        lines.append(f"  axis {name}: {v.size} values from {v[0]:g} to {v[-1]:g}")
+    values, counts = np.unique(bands, return_counts=True)
+    parts = [f"{'failed' if v < 0 else f'{v} band(s)'}: {c}" for v, c in zip(values, counts)]
+    lines.append(f"  {bands.size} points; " + ", ".join(parts))
+    timings = json.loads(tree.attrs.get("timings_s", "{}") or "{}")
+    if timings:
+        lines.append(f"  sweep time {timings.get('sweep', float('nan')):.1f} s "
+                     f"({tree.attrs.get('executor', '')})")
+    return lines

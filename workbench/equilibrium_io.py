@@ -1,0 +1,120 @@
+"""The equilibrium measure as text (table, JSON) and as an HDF5 group.
+
+These are the only places where an :class:`equilibrium.EquilibriumMeasure`
+is turned into output; the command ``workbench equilibrium`` and the run
+pipeline both use them.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+
+from equilibrium.measure import TOLERANCES, EquilibriumMeasure
+from workbench.results import Group
+
+
+def measure_summary(mu: EquilibriumMeasure) -> dict:
+    """The JSON object of ``workbench equilibrium --json``."""
+    data = mu.to_dict()
+    data["tolerances"] = {k: v for k, v in TOLERANCES.items() if k in data["checks"]}
+    return data
+
+
+def measure_json(mu: EquilibriumMeasure) -> str:
+    return json.dumps(measure_summary(mu), allow_nan=False, default=_finite)
+
+
+def _finite(value):
+    return None
+
+
+def _fmt(value: float) -> str:
+    return f"{value:.15g}"
+
+
+def measure_table(mu: EquilibriumMeasure, title: str) -> str:
+    """A readable table: bands, masses, phases, constants and the verification figures."""
+    lines = [title]
+    status = "verified" if mu.verified else "NOT VERIFIED"
+    lines.append(f"kind: {mu.kind}   bands: {mu.bands}   {mu.classification}   {status}")
+    lines.append("")
+    lines.append(f"{'band':>4}  {'a_j':>22}  {'b_j':>22}  {'edges':<10}  {'mass':>18}")
+    for j, ((a, b), (left, right), m) in enumerate(zip(mu.support, mu.edges, mu.masses), start=1):
+        lines.append(f"{j:>4}  {_fmt(a):>22}  {_fmt(b):>22}  {left + '/' + right:<10}  {_fmt(m):>18}")
+    if len(mu.omega):
+        lines.append("")
+        lines.append("phases Omega_j = mu([a_{j+1}, b_k]): " + ", ".join(_fmt(o) for o in mu.omega))
+    lines.append("")
+    lines.append(f"equilibrium constant  ell = {_fmt(mu.lagrange)}")
+    lines.append(f"energy                I_V = {_fmt(mu.energy)}")
+    if mu.capacity is not None:
+        lines.append(f"capacity              cap = {_fmt(mu.capacity)}")
+    lines.append("")
+    lines.append("verification figure            value      tolerance")
+    for name, value in mu.checks.items():
+        bound = TOLERANCES.get(name)
+        if bound is None:
+            mark, text = " ", ""
+        else:
+            lower = name in ("density_margin", "min_effective_potential")
+            ok = (value >= bound) if lower else (value <= bound)
+            mark = "ok" if ok else "FAIL"
+            text = f"{'>=' if lower else '<='} {bound:.0e}"
+        lines.append(f"  {name:<28} {value:10.2e}  {text:<10} {mark}")
+    if mu.message:
+        lines.append("")
+        lines.append(mu.message)
+    return "\n".join(lines)
+
+
+def measure_group(mu: EquilibriumMeasure, grid_points: int = 801) -> Group:
+    """The /equilibrium group of a results file: numbers, conventions, and the density on a grid."""
+    node = Group()
+    support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
+    node.attrs.update(
+        {
+            "description": "equilibrium measure mu_V of the field on the set",
+            "conventions": "I_V = iint log 1/|x-y| dmu dmu + int V dmu; 2U + V = ell on S; "
+            "Omega_j = mu([a_{j+1}, b_k]); psi = dmu/dx",
+            "kind": mu.kind,
+            "bands": int(support.shape[0]),
+            "lagrange": float(mu.lagrange),
+            "energy": float(mu.energy),
+            "capacity": "none" if mu.capacity is None else float(mu.capacity),
+            "verified": bool(mu.verified),
+            "checks": {k: float(v) for k, v in mu.checks.items()},
+            "regular": bool(mu.classification.regular),
+            "classification": str(mu.classification),
+            "field": mu.field.description,
+            "set": mu.on.describe(),
+            "message": mu.message,
+        }
+    )
+    node.add("support", support, "bands [a_j, b_j], ascending (rows j = 1..k)")
+    node.add(
+        "edges",
+        np.asarray(mu.edges, dtype=object).reshape(-1, 2),
+        "kind of each band end: 'soft' (density ~ sqrt) or 'hard' (density ~ 1/sqrt)",
+    )
+    node.add("masses", np.asarray(mu.masses, dtype=float), "band masses mu([a_j, b_j]), sum 1")
+    node.add(
+        "omega",
+        np.asarray(mu.omega, dtype=float).reshape(-1),
+        "filling phases Omega_j = mu([a_{j+1}, b_k]), mass right of gap j",
+    )
+    lo, hi = support[0, 0], support[-1, 1]
+    pad = 0.08 * (hi - lo)
+    x = np.linspace(lo - pad, hi + pad, grid_points)
+    x = x[mu.on.contains(x)]
+    node.add("x", x, "grid for the density and the effective potential")
+    node.add("density", np.asarray(mu.density(x), dtype=float), "density psi(x) of mu_V on the grid x")
+    node.add("distribution", np.asarray(mu.distribution(x), dtype=float), "F(x) = mu((-inf, x])")
+    node.add(
+        "effective_potential",
+        np.asarray(mu.effective_potential(x), dtype=float),
+        "2 U^mu(x) + V(x) - ell: 0 on S, >= 0 off S for the minimiser",
+    )
+    return node

@@ -1,0 +1,655 @@
+"""The whole run of a case: equilibrium measure -> model problem -> direct polynomials -> comparisons.
+
+Stages
+------
+1. *equilibrium*: ``μ_V`` of the field on Σ (``solve``, or ``solve_signed``),
+   with its verification figures, and ψ, F on a grid for the figures.
+2. *model*: the predictions of the steepest-descent analysis at every n
+   (``gfunction.predict``): ``a_n^{(n)}, b_n^{(n)}`` from the outer
+   parametrix, zeros by the quantile rule in the bulk, Airy zeros at soft
+   edges, the zero in each gap and the count of zeros per band.
+3. *direct*: at every n the recurrence coefficients of ``exp(-nV) h`` on Σ
+   up to degree ``n + extra`` (``workbench.polynomials``, with their error
+   estimate), the zeros of ``p_n``, and ``Y(z)`` on circles around the
+   support for the small-norm check.  Each finished n is stored at once
+   (``partial/n_XXXXX.h5``, atomic), so an interrupted run resumes.
+4. *comparison*: errors of every predicted quantity against n, counts per
+   band, and rates fitted by least squares (:func:`fit_rate`).
+
+The run tree (:class:`workbench.results.Group`) is written atomically to
+one HDF5 file, then the figures are drawn from that tree alone.
+
+The small-norm check (Deift, Kriecherbauer, McLaughlin, Venakides, Zhou,
+Comm. Pure Appl. Math. 52 (1999) 1335-1425, §7): with
+``T = e^{nℓσ₃/2} Y e^{-n(g + ℓ/2)σ₃}`` and ``M`` the outer parametrix, the
+matrix ``R = T M^{-1}`` satisfies ``R = I + O(1/n)`` uniformly away from the
+support; on a circle of radius ``r`` (``contour_radius`` times the half-width
+of the support hull) about its centre the figure ``max |R - I|`` should
+shrink like ``1/n``.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Callable, Mapping, Sequence
+
+import numpy as np
+
+from equilibrium.errors import NumericalFailure
+from workbench.case import Case
+from workbench.results import (
+    Group,
+    load_partials,
+    provenance,
+    remove_stale_temporaries,
+    write_partial,
+    write_run,
+)
+
+__all__ = ["RateFit", "fit_rate", "RunOutcome", "run_case", "ERROR_QUANTITIES"]
+
+#: error quantities of /comparison that get a fitted rate
+ERROR_QUANTITIES = ("err_a", "err_b", "err_values", "err_zeros_bulk", "err_zeros_edge",
+                    "err_zeros_gap", "small_norm")
+
+#: zeros next to each soft edge compared with the Airy prediction
+EDGE_ZEROS = 5
+
+
+# ------------------------------------------------------------------------ rates
+@dataclass(frozen=True)
+class RateFit:
+    """Least-squares fit ``log e = c + s log n``.
+
+    ``stderr`` is the standard error of the slope,
+    ``sqrt(RSS / (m - 2) / Σ (log n_i - mean)^2)`` (m points; undefined, NaN,
+    for m = 2).  ``residual`` is the RMS residual in log e.
+    """
+
+    slope: float
+    stderr: float
+    intercept: float
+    points: int
+    residual: float
+
+
+def fit_rate(n: Sequence[float], error: Sequence[float]) -> RateFit:
+    """Fit the convergence rate of ``error`` against ``n`` (finite positive errors only).
+
+    Ordinary least squares on ``(log n, log e)`` (common practice); see
+    e.g. Draper & Smith, *Applied Regression Analysis*, 3rd ed., 1998, §1.4
+    for the standard error of the slope.
+    """
+    x = np.log(np.asarray(n, dtype=float))
+    y = np.asarray(error, dtype=float)
+    ok = np.isfinite(x) & np.isfinite(y) & (y > 0)
+    x, y = x[ok], np.log(y[ok])
+    m = x.size
+    if m < 2 or np.ptp(x) == 0:
+        return RateFit(math.nan, math.nan, math.nan, int(m), math.nan)
+    xm = x.mean()
+    sxx = float(np.sum((x - xm) ** 2))
+    slope = float(np.sum((x - xm) * (y - y.mean())) / sxx)
+    intercept = float(y.mean() - slope * xm)
+    rss = float(np.sum((y - intercept - slope * x) ** 2))
+    stderr = math.sqrt(rss / (m - 2) / sxx) if m > 2 else math.nan
+    return RateFit(slope, stderr, intercept, int(m), math.sqrt(rss / m))
+
+
+# ------------------------------------------------------------------ the objects
+def build_weight(case: Case, field_, on, n: float):
+    """The weight ``exp(-nV) h`` on Σ of the direct computation."""
+    from workbench.polynomials import JacobiFactor, PowerFactor, Weight
+
+    factors = []
+    if case.factor.kind == "jacobi":
+        lo, hi = case.set.intervals[0][0], case.set.intervals[-1][1]
+        factors.append(JacobiFactor(a=lo, b=hi, alpha=case.factor.alpha, beta=case.factor.beta))
+    elif case.factor.kind == "fisher_hartwig":
+        factors.append(PowerFactor(c=case.factor.c, gamma=case.factor.gamma))
+    return Weight(field=field_, n=float(n), on=on, factors=tuple(factors))
+
+
+def solve_case(case: Case):
+    """The equilibrium measure of the case (positive, or signed on the whole set)."""
+    from equilibrium import solve, solve_signed
+
+    field_ = case.build_field()
+    on = case.build_set()
+    mu = (solve_signed if case.set.signed else solve)(field_, on=on)
+    return field_, on, mu
+
+
+# ----------------------------------------------------------------------- stages
+def equilibrium_group(mu, case: Case) -> Group:
+    node = Group()
+    support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
+    node.attrs.update({
+        "description": "equilibrium measure mu_V of the field on the set",
+        "kind": mu.kind,
+        "bands": int(support.shape[0]),
+        "lagrange": float(mu.lagrange),
+        "energy": float(mu.energy),
+        "verified": bool(mu.verified),
+        "checks": {k: float(v) for k, v in dict(mu.checks).items()},
+        "regular": bool(getattr(mu.classification, "regular", True)),
+        "singularities": [list(map(str, s)) for s in getattr(mu.classification, "singularities", ())],
+        "field": case.field.describe(),
+        "set": case.set.text(),
+        "message": str(getattr(mu, "message", "") or ""),
+    })
+    node.add("support", support, "bands [a_j, b_j], ascending (rows j = 1..k)")
+    node.add("edges", np.asarray(mu.edges, dtype=object).reshape(-1, 2),
+             "kind of each band end: 'soft' (density ~ sqrt) or 'hard' (density ~ 1/sqrt)")
+    node.add("masses", np.asarray(mu.masses, dtype=float), "band masses mu([a_j, b_j]), sum 1")
+    node.add("omega", np.asarray(mu.omega, dtype=float).reshape(-1),
+             "filling phases Omega_j = mu([a_{j+1}, b_k]), mass right of gap j")
+    lo, hi = support[0, 0], support[-1, 1]
+    pad = 0.08 * (hi - lo)
+    x = np.linspace(lo - pad, hi + pad, 801)
+    on = case.build_set()
+    x = x[on.contains(x)] if hasattr(on, "contains") else x
+    node.add("x", x, "grid for the density and the effective potential")
+    node.add("density", np.asarray(mu.density(x), dtype=float), "density psi(x) of mu_V on the grid x")
+    node.add("distribution", np.asarray(mu.distribution(x), dtype=float), "F(x) = mu((-inf, x])")
+    node.add("effective_potential", np.asarray(mu.effective_potential(x), dtype=float),
+             "2 U^mu(x) + V(x) - ell: 0 on S, >= 0 off S for the minimiser")
+    return node
+
+
+def direct_group(case: Case, weight, n: int, mu, model_at_n: Mapping[str, Any] | None) -> Group:
+    """Direct polynomials at one n: coefficients, zeros, values, and Y on the contours."""
+    from workbench.polynomials import recurrence_coefficients, weighted_values, zeros
+
+    count = n + case.polynomials.extra_degrees
+    small_norm = case.comparisons.small_norm and model_at_n is not None and "small_norm" in model_at_n
+    started = time.perf_counter()
+    rc = recurrence_coefficients(weight, count, on_failure="mark")
+    node = Group()
+    node.attrs.update({
+        "description": f"direct orthogonal polynomials of exp(-n V) h on the set, n = {n}",
+        "n": int(n),
+        "degree": int(n),
+        "error_estimate": float(rc.error_estimate),
+        "verified": bool(rc.verified),
+        "method": rc.method,
+        "weight": rc.weight_description,
+        "checks": {k: float(v) for k, v in dict(rc.checks).items()},
+        "log_mass": float(rc.log_mass),
+    })
+    node.add("a", rc.a, "a_k^{(n)}, k = 0..K (a[0] = 0); x p_k = a_{k+1} p_{k+1} + b_k p_k + a_k p_{k-1}")
+    node.add("b", rc.b, "b_k^{(n)}, k = 0..K")
+    roots = zeros(rc, n)
+    node.add("zeros", roots, "zeros of p_n, ascending (eigenvalues of the Jacobi matrix)")
+    points = _bulk_points(mu, case.polynomials.value_points)
+    node.add("value_x", points, "bulk points x (inner 70% of each band) where p_n is compared")
+    node.add("values", weighted_values(rc, weight, points, n),
+             "p_n(x) w_n(x)^{1/2} at value_x (orthonormal, weight square root)")
+    if small_norm:
+        # Y off the support needs the continued fraction of the second-kind functions,
+        # i.e. coefficients beyond n (Gautschi, Math. Comp. 36 (1981) 547-554); 64 extra
+        # usually suffice on our circles, more are taken when its convergence check fails.
+        # They serve only Y: their error estimate is recorded, apart from the verified ones.
+        extra = 64
+        rc_full = recurrence_coefficients(weight, n + extra, on_failure="mark")
+        while True:
+            try:
+                deviation = model_at_n["small_norm"](rc_full)
+                break
+            except _NeedMoreCoefficients:
+                if extra >= 1024:
+                    raise NumericalFailure(
+                        f"small-norm check at n = {n}: the continued fraction of Y did not converge "
+                        f"with {extra} coefficients beyond n; use a larger contour_radius") from None
+                extra *= 4
+                rc_full = recurrence_coefficients(weight, n + extra, on_failure="mark")
+        node.add("small_norm_radii", deviation["radii"], "radii of the circles (absolute)")
+        node.add("small_norm", deviation["deviation"], "max over each circle of |T M^{-1} - I|")
+        node.attrs["det_Y_error"] = float(deviation["det_error"])
+        node.attrs["small_norm_coefficients"] = int(rc_full.count)
+        node.attrs["small_norm_coefficient_error"] = float(rc_full.error_estimate)
+    node.attrs["seconds"] = time.perf_counter() - started
+    return node
+
+
+def _bulk_points(mu, count: int) -> np.ndarray:
+    """``count`` points in the inner 70% of each band (the bulk form is not uniform at edges)."""
+    t = 0.15 + 0.7 * (np.arange(count) + 0.5) / count
+    return np.concatenate([a + (b - a) * t for a, b in np.asarray(mu.support, dtype=float).reshape(-1, 2)])
+
+
+def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
+    """Errors, counts and rates computed from the stored direct and model data only."""
+    node = Group(attrs={"description": "direct against predicted, as functions of n"})
+    ns = np.asarray(sorted(ns), dtype=np.int64)
+    node.add("n", ns, "values of n (degree = scaling)")
+    direct = [tree.get(f"direct/n_{n:05d}") for n in ns]
+    model = tree.groups.get("model", Group())
+    eq = tree.groups["equilibrium"]
+    support = np.asarray(eq.get("support"), dtype=float).reshape(-1, 2)
+    k = support.shape[0]
+
+    a_direct = np.array([d.get("a")[n] for d, n in zip(direct, ns)])
+    b_direct = np.array([d.get("b")[n] for d, n in zip(direct, ns)])
+    node.add("a_direct", a_direct, "a_n^{(n)} from the direct computation")
+    node.add("b_direct", b_direct, "b_n^{(n)} from the direct computation")
+    node.add("direct_error_estimate", np.array([d.attrs["error_estimate"] for d in direct]),
+             "error estimate of the direct coefficients (two discretisations)")
+
+    counts = np.zeros((ns.size, k), dtype=np.int64)
+    gap_direct = np.full((ns.size, max(k - 1, 0)), np.nan)
+    for i, d in enumerate(direct):
+        x = np.asarray(d.get("zeros"))
+        for j, (a, b) in enumerate(support):
+            counts[i, j] = int(np.sum((x >= a) & (x <= b)))
+        for j in range(k - 1):
+            inside = x[(x > support[j, 1]) & (x < support[j + 1, 0])]
+            if inside.size:
+                gap_direct[i, j] = inside[0] if inside.size == 1 else np.nan
+    node.add("band_counts_direct", counts, "number of zeros of p_n in each band [a_j, b_j]")
+    node.add("gap_zeros_direct", gap_direct, "the zero of p_n in gap j (NaN: none there)")
+
+    if model.has("a"):
+        a_model, b_model = model.get("a"), model.get("b")
+        node.add("a_model", a_model, "a_n^{(n)} predicted by the model problem")
+        node.add("b_model", b_model, "b_n^{(n)} predicted by the model problem")
+        if case.comparisons.coefficients:
+            node.add("err_a", np.abs(a_direct - a_model), "|a_n direct - a_n model|")
+            node.add("err_b", np.abs(b_direct - b_model), "|b_n direct - b_n model|")
+    if model.has("band_counts") and case.comparisons.band_counts:
+        predicted = np.asarray(model.get("band_counts"))
+        node.add("band_counts_model", predicted, "predicted number of zeros per band")
+        node.add("band_count_mismatch", np.abs(counts - predicted).sum(axis=1),
+                 "sum over bands of |direct count - predicted count|")
+    if case.comparisons.zeros:
+        _zero_errors(node, direct, model, ns, support, gap_direct)
+    if model.has("values_shape") and case.comparisons.values:
+        ell = float(eq.attrs["lagrange"])
+        predicted = []
+        for d, n, shape in zip(direct, ns, model.get("values_shape")):
+            # log gamma_n = -log_mass/2 - sum_{k<=n} log a_k (direct); gamma_n e^{-n ell/2} = O(1)
+            log_gamma = -0.5 * float(d.attrs["log_mass"]) - float(np.sum(np.log(d.get("a")[1:n + 1])))
+            predicted.append(np.exp(log_gamma - 0.5 * n * ell) * np.asarray(shape))
+        predicted = np.asarray(predicted)
+        values = np.array([d.get("values") for d in direct])
+        node.add("values_model", predicted, "predicted p_n w^{1/2} at the bulk points "
+                 "(model form times the direct gamma_n)")
+        node.add("err_values", np.max(np.abs(values - predicted), axis=1),
+                 "max over the bulk points of |p_n w^{1/2} direct - model|")
+    if all(d.has("small_norm") for d in direct) and case.comparisons.small_norm:
+        node.add("small_norm", np.array([np.max(d.get("small_norm")) for d in direct]),
+                 "max over the circles of |T M^{-1} - I| (should be O(1/n))")
+    if case.comparisons.rates:
+        rates = node.group("rates")
+        rates.attrs["description"] = "fits log error = intercept + slope log n (least squares)"
+        scale = max(1.0, float(np.max(np.abs(support))))
+        floor = 1e3 * np.finfo(float).eps * scale
+        for key in ERROR_QUANTITIES:
+            if node.has(key):
+                err = np.asarray(node.get(key), dtype=float)
+                # errors at rounding level carry no rate: leave them out of the fit
+                fit = fit_rate(ns, np.where(err > floor, err, np.nan))
+                entry = rates.group(key)
+                if not np.isfinite(err).any():
+                    entry.attrs["note"] = "nothing to compare at any n"
+                elif not np.any(err > floor):
+                    entry.attrs["note"] = f"all errors below {floor:.1e} (rounding level)"
+                entry.attrs.update({
+                    "slope": fit.slope, "stderr": fit.stderr, "intercept": fit.intercept,
+                    "points": fit.points, "residual": fit.residual,
+                    "description": f"rate of {key}: error ~ exp(intercept) n^slope",
+                })
+    return node
+
+
+def _zero_errors(node: Group, direct, model: Group, ns, support, gap_direct) -> None:
+    if model.has("bulk_zeros"):
+        errs = []
+        for d, predicted in zip(direct, model.get("bulk_zeros")):
+            x = np.asarray(d.get("zeros"))
+            predicted = np.asarray(predicted, dtype=float)[: x.size]
+            ok = np.isfinite(predicted)
+            errs.append(np.max(np.abs(x[ok] - predicted[ok])) if ok.any() else np.nan)
+        node.add("err_zeros_bulk", np.asarray(errs),
+                 "max |x_j - quantile-rule x_j| over bulk zeros (predicted NaN at edges excluded)")
+    if model.has("edge_zeros"):
+        predicted = np.asarray(model.get("edge_zeros"), dtype=float)  # (N, m): from b_k inward
+        m = predicted.shape[1]
+        found = np.array([np.asarray(d.get("zeros"))[::-1][:m] for d in direct])
+        node.add("edge_zeros_direct", found, "largest zeros of p_n, counted from the right edge")
+        node.add("err_zeros_edge", np.max(np.abs(found - predicted), axis=1),
+                 "max over the edge zeros of |direct - Airy prediction|")
+        if model.has("airy_zeros"):
+            airy = np.asarray(model.get("airy_zeros"), dtype=float)[:m]
+            b = support[-1, 1]
+            scale = airy[0] / (predicted[:, :1] - b)  # c n^{2/3} implied by the prediction
+            node.add("airy_zeros", airy, "zeros a_j of the Airy function Ai, j = 1..m")
+            node.add("edge_scaled_direct", scale * (found - b),
+                     "c n^{2/3} (x_j - b_k): direct zeros in the Airy scaling")
+    if model.has("gap_zeros") and gap_direct.shape[1]:
+        predicted = np.asarray(model.get("gap_zeros"), dtype=float).reshape(gap_direct.shape)
+        node.add("gap_zeros_model", predicted, "predicted zero in gap j (NaN: none)")
+        both = np.isfinite(predicted) & np.isfinite(gap_direct)
+        err = np.where(both, np.abs(predicted - gap_direct), np.nan)
+        node.add("err_zeros_gap", np.array([np.nanmax(r) if np.isfinite(r).any() else np.nan
+                                            for r in err]),
+                 "max over gaps of |gap zero direct - predicted| (where both exist)")
+        node.add("gap_zero_presence_mismatch",
+                 (np.isfinite(predicted) != np.isfinite(gap_direct)).sum(axis=1),
+                 "gaps where one of direct/model has a zero and the other none")
+
+
+# ------------------------------------------------------------------------- runs
+@dataclass(frozen=True)
+class RunOutcome:
+    """What :func:`run_case` produced."""
+
+    path: Path
+    tree: Group
+    figures: Mapping[str, list[Path]]
+    computed: tuple[int, ...]
+    reused: tuple[int, ...]
+    seconds: float
+    verified: bool
+    messages: tuple[str, ...] = ()
+
+
+def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True,
+             draw: bool | None = None, after_each_n: Callable[[int], None] | None = None) -> RunOutcome:
+    """Run every stage of ``case``; results go to ``out`` (default: the case's output folder).
+
+    ``after_each_n`` is called with n after each finished n has been stored
+    (the tests use it to interrupt a run at a known point).
+    """
+    import sys
+
+    from tqdm import tqdm
+
+    directory = case.output_directory(out)
+    directory.mkdir(parents=True, exist_ok=True)
+    remove_stale_temporaries(directory)
+    timings: dict[str, float] = {}
+    start = time.perf_counter()
+    messages: list[str] = []
+
+    t = time.perf_counter()
+    field_, on, mu = solve_case(case)
+    timings["equilibrium"] = time.perf_counter() - t
+    if not mu.verified:
+        messages.append(f"equilibrium measure not verified: {getattr(mu, 'message', '')}")
+
+    tree = Group(attrs={"format": "workbench-run"})
+    tree.groups["equilibrium"] = equilibrium_group(mu, case)
+
+    ns = list(case.polynomials.n)
+    t = time.perf_counter()
+    try:
+        model = model_predictions(case, mu, ns)
+    except NumericalFailure as exc:
+        # the direct side and the equilibrium measure still stand on their own
+        model = ModelSide(Group(attrs={"description": "model-problem predictions", "available": False,
+                                       "failure": str(exc)}))
+        messages.append(f"model problem failed: {exc}")
+    tree.groups["model"] = model.group
+    timings["model"] = time.perf_counter() - t
+
+    finished = load_partials(directory, case.digest, ns)
+    reused = tuple(sorted(finished))
+    computed = []
+    todo = [n for n in ns if n not in finished]
+    bar = tqdm(total=len(ns), initial=len(ns) - len(todo), desc=f"{case.name}: direct",
+               unit="n", file=sys.stderr, disable=not progress or not sys.stderr.isatty(),
+               leave=False)
+    t = time.perf_counter()
+    try:
+        for n in todo:
+            weight = build_weight(case, field_, on, n)
+            node = direct_group(case, weight, n, mu, model.at(n))
+            write_partial(directory, n, node, case.digest)
+            finished[n] = node
+            computed.append(n)
+            bar.update(1)
+            if after_each_n is not None:
+                after_each_n(n)
+    finally:
+        bar.close()
+    timings["direct"] = time.perf_counter() - t
+    direct = tree.group("direct")
+    direct.attrs["description"] = "one group per n: direct orthogonal polynomials"
+    for n in ns:
+        direct.groups[f"n_{n:05d}"] = finished[n]
+        if not finished[n].attrs.get("verified", True):
+            messages.append(f"direct coefficients at n = {n} not verified "
+                            f"(error estimate {finished[n].attrs.get('error_estimate')})")
+        if finished[n].attrs.get("small_norm_coefficient_error", 0.0) > 1e-6:
+            messages.append(f"coefficients used for Y at n = {n} have error estimate "
+                            f"{finished[n].attrs['small_norm_coefficient_error']:.1e}")
+
+    t = time.perf_counter()
+    tree.groups["comparison"] = comparison_group(tree, ns, case)
+    timings["comparison"] = time.perf_counter() - t
+    timings["total"] = time.perf_counter() - start
+
+    verified = not messages
+    tree.attrs.update(provenance(case.text, case.source, case.parameters(), timings))
+    tree.attrs.update({"case_name": case.name, "case_title": case.title, "verified": verified,
+                       "messages": list(messages) or "none", "reduced": case.reduced})
+
+    draw = case.figures.enabled if draw is None else draw
+    figure_files: dict[str, list[Path]] = {}
+    fig_node = tree.group("figures")
+    fig_node.attrs.update({"description": "figures drawn from this file by 'workbench plot'",
+                           "style": "one journal column (3.4 in), 8-9 pt, Okabe-Ito palette",
+                           "formats": list(case.figures.formats),
+                           "which": list(case.figures.which)})
+    path = directory / case.output.file
+    if draw:
+        from workbench.figures import draw_all
+
+        figure_files = draw_all(tree, directory / "figures", formats=case.figures.formats,
+                                which=case.figures.which, dpi=case.figures.dpi)
+        fig_node.attrs["drawn"] = sorted(figure_files)
+        fig_node.attrs["files"] = sorted(str(p.relative_to(directory)) for v in figure_files.values()
+                                         for p in v)
+    write_run(path, tree)
+    return RunOutcome(path=path, tree=tree, figures=figure_files, computed=tuple(computed),
+                      reused=reused, seconds=time.perf_counter() - start, verified=verified,
+                      messages=tuple(messages))
+
+
+# ----------------------------------------------------------------- model side
+@dataclass
+class ModelSide:
+    """Predictions of the model problem for all n (group) and per-n helpers (``at``)."""
+
+    group: Group
+    helpers: dict[int, dict[str, Any]] = field(default_factory=dict)
+
+    def at(self, n: int) -> dict[str, Any] | None:
+        return self.helpers.get(n)
+
+
+def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
+    """Everything the steepest-descent side predicts at the values ``ns`` (degree = scaling).
+
+    Stored in ``/model``: ``a``, ``b`` (outer parametrix), ``phases`` ``w = nΩ``
+    (mod 1), ``gap_zeros`` and ``band_counts`` (argument principle on M_11),
+    ``edge_zeros`` (Airy, at the rightmost edge when it is soft),
+    ``bulk_zeros`` (quantile rule, NaN near edges), ``values_shape`` (the
+    oscillatory bulk form of p_n w^{1/2} up to the factor γ_n e^{-nℓ/2}),
+    plus ``n_dense``/``a_dense``/``b_dense``/``gap_zeros_dense`` on every n of
+    the range for the quasi-periodic pattern of the figures.
+    """
+    from scipy.special import ai_zeros
+
+    from gfunction.predict import predictor
+
+    ns_arr = np.asarray(sorted(ns), dtype=np.int64)
+    node = Group(attrs={"description": "predictions of the model problem (leading order, "
+                                       "error O(1/n)); degree = scaling = n",
+                        "available": True})
+    pred = predictor(mu)
+    prediction = pred.predict(ns_arr)
+    node.attrs["checks"] = {k: float(v) for k, v in prediction.checks.items()}
+    node.attrs["g_function_checks"] = {k: float(v) for k, v in dict(pred.g.checks).items()}
+    node.attrs["model_checks"] = _numbers(pred.model.checks)
+    node.attrs["genus"] = int(pred.genus)
+    node.attrs["h_factor"] = case.factor.describe()
+    if case.factor.kind != "none":
+        node.attrs["caution"] = ("the factor h enters the outer parametrix through its Szego function; "
+                                 "these predictions use h = 1 (exact at leading order for one band)")
+    node.add("n", ns_arr, "values of n")
+    node.add("a", prediction.a, "predicted a_n^{(n)} (outer parametrix expansion, a^2 = (M1)12 (M1)21)")
+    node.add("b", prediction.b, "predicted b_n^{(n)} = (M2)12/(M1)12 - (M1)22")
+    node.add("phases", np.asarray(prediction.phases).reshape(ns_arr.size, -1),
+             "phases w = n Omega (mod 1) of the outer parametrix")
+    gap = np.array([[np.nan if v is None else v for v in row] for row in prediction.gap_zeros],
+                   dtype=float).reshape(ns_arr.size, max(pred.genus, 0))
+    node.add("gap_zeros", gap, "predicted zero of p_n in gap j (NaN: none)")
+    node.add("band_counts", np.asarray(prediction.band_counts, dtype=np.int64),
+             "predicted number of zeros of p_n in each band")
+
+    support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
+    k = support.shape[0]
+    right_edge = 2 * k - 1
+    if pred.g.edge_kinds[right_edge] == "soft":
+        edge = np.array([pred.soft_edge_zeros(right_edge, int(n), EDGE_ZEROS)[::-1] for n in ns_arr])
+        node.add("edge_zeros", edge, "predicted largest zeros (Airy: f_e(x) = a_j n^{-2/3}), "
+                                     "counted from the right edge b_k inward")
+        node.add("airy_zeros", ai_zeros(EDGE_ZEROS)[0], "zeros a_j of Ai (scipy.special.ai_zeros)")
+
+    bulk = []
+    for n in ns_arr:
+        x = np.asarray(pred.quantile_zeros(int(n)), dtype=float)
+        interior = np.zeros(x.shape, dtype=bool)
+        for a, b in support:  # the quantile rule is a bulk statement: keep 10% away from ends
+            margin = 0.1 * (b - a)
+            interior |= (x > a + margin) & (x < b - margin)
+        bulk.append(np.where(interior, x, np.nan))
+    width = max(b.size for b in bulk)
+    padded = np.full((len(bulk), width), np.nan)
+    for i, b in enumerate(bulk):
+        padded[i, : b.size] = b
+    node.add("bulk_zeros", padded, "quantile-rule zeros F(x_j) = (j - 1/2)/n; NaN near an edge "
+                                   "(10% of the band width) and beyond n in row i")
+
+    if case.factor.kind == "none":
+        points = _bulk_points(mu, case.polynomials.value_points)
+        node.add("value_x", points, "bulk points (inner 70% of each band)")
+        node.add("values_shape", np.array([_band_form(pred, mu, points, int(n)) for n in ns_arr]),
+                 "Re[M11+ e^{n(g+ - V/2 + ell/2)} + M11- e^{n(g- - V/2 + ell/2)}]: predicted "
+                 "p_n w^{1/2} divided by gamma_n e^{-n ell/2}")
+
+    helpers = {}
+    if case.comparisons.small_norm and case.factor.kind != "none":
+        node.attrs["small_norm_skipped"] = ("with h != 1 the global parametrix carries the Szego "
+                                            "function of h (D_inf^{sigma3} M D^{-sigma3}), which the "
+                                            "model side does not provide; check not made")
+    elif case.comparisons.small_norm:
+        lo, hi = support[0, 0], support[-1, 1]
+        centre, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
+        radius = case.comparisons.contour_radius * half
+        if case.set.is_compact:
+            # Y jumps on all of Σ and its continued fraction converges slowly near Σ:
+            # the circles enclose the whole set, not only the support
+            ends = np.array([case.set.intervals[0][0], case.set.intervals[-1][1]])
+            radius = max(radius, 1.25 * float(np.max(np.abs(ends - centre))))
+        radii = np.array([radius, 2.0 * radius])
+        theta = 2 * np.pi * (np.arange(case.comparisons.contour_points) + 0.5) / case.comparisons.contour_points
+        circles = centre + radii[:, None] * np.exp(1j * theta)[None, :]
+        g_on = pred.g(circles)
+        for n in ns_arr:
+            helpers[int(n)] = {"small_norm": _small_norm_check(pred, mu, int(n), circles, radii, g_on)}
+        node.add("contour_radii", radii, "radii of the circles of the small-norm check, "
+                                         "centred at the middle of the support hull")
+
+    dense = _dense_range(ns_arr)
+    if dense.size:
+        a_d, b_d, _ = pred.recurrence(dense)
+        node.add("n_dense", dense, "every n of the range (for the quasi-periodic pattern)")
+        node.add("a_dense", a_d, "predicted a_n^{(n)} on n_dense")
+        node.add("b_dense", b_d, "predicted b_n^{(n)} on n_dense")
+        if pred.genus:
+            gz, _ = pred.gap_zeros(dense)
+            node.add("gap_zeros_dense", gz, "predicted gap zeros on n_dense (NaN: none)")
+    return ModelSide(node, helpers)
+
+
+def _orthogonality_matrix(rc, z, n: int):
+    """Y(z) from the coefficients at hand, or with more of them when its continued fraction needs it."""
+    from workbench.polynomials import orthogonality_matrix
+
+    # The deviations measured are >= 1e-6 at the sizes we run; a continued fraction
+    # converged to 1e-10 is ample, and its rounding floor on these circles is ~1e-12.
+    try:
+        return orthogonality_matrix(rc, z, n, tolerance=1e-10)
+    except NumericalFailure:
+        raise _NeedMoreCoefficients from None
+
+
+class _NeedMoreCoefficients(Exception):
+    """Raised inside the small-norm check; the direct stage retries with more coefficients."""
+
+
+def _small_norm_check(pred, mu, n: int, circles: np.ndarray, radii: np.ndarray, g_on: np.ndarray):
+    """A function ``rc -> {radii, deviation}``: ``max |T M^{-1} - I|`` on each circle.
+
+    ``T_ij = e^{s_i nℓ/2} Y_ij e^{-s_j n(g + ℓ/2)}``, ``s = (+1, -1)``; the
+    exponents are added to the log-scales of Y before exponentiating, so
+    nothing overflows (module docstring; DKMVZ 1999 §4).
+    """
+    def check(rc) -> dict[str, np.ndarray]:
+        Y = _orthogonality_matrix(rc, circles, n)
+        ell = float(mu.lagrange)
+        s = np.array([1.0, -1.0])
+        exponent = (Y.log_scale
+                    + (s[:, None, None, None] * n * ell / 2)
+                    - s[None, :, None, None] * n * (g_on[None, None] + ell / 2))
+        T = Y.mantissa * np.exp(exponent)
+        M = pred.model.evaluate(circles, pred.phases([n])[0])  # shape circles + (2, 2)
+        Minv = np.empty_like(M)
+        Minv[..., 0, 0], Minv[..., 1, 1] = M[..., 1, 1], M[..., 0, 0]
+        Minv[..., 0, 1], Minv[..., 1, 0] = -M[..., 0, 1], -M[..., 1, 0]
+        T = np.moveaxis(T, (0, 1), (-2, -1))
+        R = T @ Minv
+        dev = np.abs(R - np.eye(2)).max(axis=(-2, -1)).max(axis=-1)
+        return {"radii": radii, "deviation": dev, "det_error": Y.checks["det_error"]}
+
+    return check
+
+
+def _numbers(checks: Mapping[str, Any]) -> dict[str, float]:
+    """Verification figures as plain floats (largest modulus of array-valued ones)."""
+    out = {}
+    for key, value in dict(checks).items():
+        try:
+            out[key] = float(np.max(np.abs(np.asarray(value, dtype=complex))))
+        except (TypeError, ValueError):
+            continue
+    return out
+
+
+def _dense_range(ns: np.ndarray, limit: int = 400) -> np.ndarray:
+    lo, hi = int(ns.min()), int(ns.max())
+    if hi - lo + 1 <= limit:
+        return np.arange(lo, hi + 1)
+    return np.unique(np.round(np.linspace(lo, hi, limit)).astype(np.int64))
+
+
+def _band_form(pred, mu, x: np.ndarray, n: int) -> np.ndarray:
+    """Oscillatory bulk form of π_n e^{-nV/2} e^{nℓ/2} (DKMVZ 1999, Theorem 1.1 at leading order).
+
+    On a band ``g_± - V/2 + ℓ/2 = ±iπ μ([x, b_k])`` is purely imaginary, so the
+    exponentials are of modulus one and nothing overflows at large n.
+    """
+    w = pred.phases([n])[0]
+    gp, gm = pred.g.boundary_values(x)
+    shift = 0.5 * np.asarray(mu.field.V(x), dtype=float) - 0.5 * float(mu.lagrange)
+    ep = n * (gp - shift)
+    em = n * (gm - shift)
+    Mp = pred.model.evaluate(x + 1e-300j, w)[..., 0, 0]
+    Mm = pred.model.evaluate(x - 1e-300j, w)[..., 0, 0]
+    return (Mp * np.exp(ep) + Mm * np.exp(em)).real

@@ -1,0 +1,417 @@
+"""Discretisation of ``w_n`` for degrees ``k ≤ K``: nodes from the equilibrium measure.
+
+A discrete measure ``Σ_i λ_i δ_{x_i}`` replaces ``w_n(x) dx``; the discretised
+Stieltjes procedure (Gautschi, *Orthogonal Polynomials: Computation and
+Approximation*, OUP 2004, §2.2.3) then gives the recurrence coefficients.  The
+discrete measure must integrate ``p_j p_k w_n`` (``j, k ≤ K``) to rounding
+accuracy and should carry no nodes where those integrands are below rounding.
+
+Where the polynomials live
+--------------------------
+Write ``t = n/K`` and ``μ_t`` for the equilibrium measure of ``t V`` on Σ,
+``eff_t = 2 U^{μ_t} + t V - ℓ_t`` its effective potential.
+
+* Buyarov and Rakhmanov (Mat. Sb. 190 (1999) 791–802) show that
+  ``τ ↦ τ μ_{V/τ}`` increases with ``τ``, its derivative being the equilibrium
+  measure (no field) of ``supp μ_{V/τ}``.  With ``τ = k/n``, the support of
+  ``μ_{(n/k)V}`` grows with ``k``, so the support of ``μ_{(n/K)V}`` covers the
+  zeros of every ``p_k``, ``k ≤ K``.  Differentiating the same identity shows
+  that ``k · eff_{(n/k)V}(x)`` *decreases* in ``k`` at every ``x`` (the
+  derivative is ``2 U^{ν}(x) - const ≤ 0`` for the equilibrium measure ``ν`` of
+  the support), so ``K eff_t`` is the smallest of these exponents.
+* The weighted Bernstein–Walsh inequality (Saff & Totik, *Logarithmic
+  Potentials with External Fields*, Springer 1997, Thm III.2.1) gives
+  ``p_k(x)² w_n(x) ≤ M_k h(x) exp(-k eff_{(n/k)V}(x)) ≤ M_k h(x) exp(-K eff_t(x))``
+  with ``M_k = max_S p_k² e^{-nV}``, which is ``O(K)`` (Christoffel-function
+  bound: common practice).
+
+Cutting tails and gap interiors
+-------------------------------
+Nodes are placed only where ``K eff_t(x) ≤ L``.  The mass neglected in any
+``∫ p_j p_k w`` beyond a cut point ``x_c`` is at most
+``M_K ∫_{x_c}^∞ h e^{-K eff_t} ≲ M_K e^{-L} / (K eff_t'(x_c)) ≲ e^{-L}`` up to
+the factor ``M_K/(K eff_t') = O(1)``; we ask for ``e^{-L} · K ≤ 2^{-56}``, i.e.
+
+    L = 56 log 2 + log K + 1  ≈ 39.8 + log K,
+
+which keeps the neglected mass below the rounding level of the coefficients.
+
+Panels
+------
+* **Bands.**  Breaks at the quantiles of ``μ_t`` on each band, ``ζ`` zeros of
+  ``p_K`` per panel (so the panels follow the local zero spacing
+  ``1/(K ψ_t)``), ``m`` Gauss–Legendre points per panel.  For an integrand
+  that grows like ``exp(2π K ψ_t |Im z|)`` off the axis, the error of an
+  ``m``-point rule on a panel holding ``ζ`` zeros is about
+  ``min_ρ exp(π ζ (ρ - 1/ρ)/2 - 2 m log ρ)`` (Bernstein-ellipse bound: common
+  practice); ``(ζ, m) = (12, 40)`` gives ``e^{-40}``, ``(10, 34)`` gives
+  ``e^{-35}``.
+* **Soft edges.**  The quantile panel at a soft edge is ``~ζ^{2/3}`` Airy units
+  long; it is split geometrically toward the edge until its pieces are two
+  Airy units ``(K C)^{-2/3}`` long (``ψ_t ≈ C (distance)^{1/2}``).
+* **Outside the bands.**  On ``{K eff_t ≤ L} \\ S`` the breaks are uniform in the
+  variation of ``σ = (K eff_t)^{2/3}``, which is the Airy variable near a soft
+  edge and keeps the change of ``log(p_k² w)`` per panel below a few units
+  further out.
+* **Singular points** of ``h`` inside Σ are panel breaks; adjacent panels use
+  Gauss–Jacobi rules with that exponent (scipy.special.roots_jacobi), so
+  ``(x - c)^p`` is integrated exactly.
+
+The second, independent discretisation uses other values of ``(ζ, m)``, a
+shifted set of quantile breaks and another exterior step; the difference of
+the two coefficient lists is the error estimate.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import dataclass
+from typing import Any, Callable
+
+import numpy as np
+from scipy.special import roots_jacobi
+
+from equilibrium.errors import NumericalFailure
+from equilibrium.quadrature import gauss_legendre
+
+from .weight import Weight
+
+#: log of the rounding level asked of the neglected mass (2^-56)
+_LOG_EPS = 56.0 * math.log(2.0)
+
+
+@dataclass(frozen=True)
+class PanelLayout:
+    """Parameters of one discretisation.
+
+    zeros_per_panel : ζ, zeros of p_K per band panel.
+    points : m, Gauss points per panel.
+    exterior_step : step in the variation of σ = (K eff)^{2/3} outside the bands.
+    offset : fraction in [0, 1) by which the quantile breaks are shifted.
+    airy_units : length of the smallest soft-edge pieces, in Airy units.
+    exterior_points : Gauss points per panel outside the bands (no oscillation there).
+    """
+
+    zeros_per_panel: float
+    points: int
+    exterior_step: float
+    offset: float
+    airy_units: float = 2.0
+    name: str = "layout"
+    exterior_points: int = 24
+
+
+PRIMARY = PanelLayout(12.0, 40, 0.6, 0.0, 2.0, "primary", 24)
+SECONDARY = PanelLayout(10.0, 34, 0.5, 0.43, 1.5, "secondary", 20)
+
+
+def cut_level(degree: int) -> float:
+    """L = 56 log 2 + log K + 1 (see the module docstring)."""
+    return _LOG_EPS + math.log(max(degree, 1)) + 1.0
+
+
+@dataclass(frozen=True)
+class Discretisation:
+    """A discrete measure ``Σ λ_i δ_{x_i}`` replacing ``w_n(x) dx`` for degrees ≤ ``degree``.
+
+    Attributes
+    ----------
+    nodes : x_i, ascending.
+    log_weights : log λ_i (the weight is never exponentiated).
+    breaks : panel breaks, ascending (each panel ``[breaks[j], breaks[j+1]]``
+        unless it straddles an excluded region; see ``panels``).
+    panels : array (P, 2) of panel ends.
+    degree : K, the largest degree the layout is made for.
+    level : the cut level L.
+    layout : the :class:`PanelLayout`.
+    """
+
+    nodes: np.ndarray
+    log_weights: np.ndarray
+    panels: np.ndarray
+    degree: int
+    level: float
+    layout: PanelLayout
+
+    @property
+    def size(self) -> int:
+        return int(self.nodes.size)
+
+    @property
+    def log_mass(self) -> float:
+        """log Σ λ_i = log ∫ w (log-sum-exp)."""
+        top = float(np.max(self.log_weights))
+        return top + math.log(float(np.sum(np.exp(self.log_weights - top))))
+
+
+# --------------------------------------------------------------------------- quadrature rules
+@functools.lru_cache(maxsize=64)
+def gauss_jacobi(m: int, alpha: float, beta: float) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss–Jacobi rule for (1-u)^α (1+u)^β on [-1, 1] (scipy.special.roots_jacobi), cached."""
+    u, w = roots_jacobi(m, alpha, beta)
+    u.setflags(write=False)
+    w.setflags(write=False)
+    return u, w
+
+
+# --------------------------------------------------------------------------- the measure
+def measure_for(weight: Weight, degree: int, solver: Callable[..., Any] | None = None):
+    """The equilibrium measure of ``(n/degree) V`` on Σ (``V`` itself when V = 0)."""
+    if solver is None:
+        from equilibrium import solve as solver  # imported late: the package may be optional
+    field = weight.field
+    if not getattr(field, "is_zero", False):
+        field = field.scaled(weight.n / max(degree, 1))
+    measure = solver(field, on=weight.on)
+    if hasattr(measure, "verified") and not measure.verified:
+        raise NumericalFailure(
+            f"the equilibrium measure used to place the nodes is not verified: {getattr(measure, 'message', '')}"
+        )
+    return measure
+
+
+def _band_cdf(measure, a: float, b: float, samples: int = 1025) -> tuple[np.ndarray, np.ndarray]:
+    """θ-grid and normalised distribution of μ on the band [a, b], x = (a+b)/2 - (b-a)/2 cos θ."""
+    theta = np.linspace(0.0, math.pi, samples)
+    x = 0.5 * (a + b) - 0.5 * (b - a) * np.cos(theta)
+    inner = x[1:-1]
+    density = np.zeros_like(x)
+    density[1:-1] = np.asarray(measure.density(inner), dtype=float)
+    integrand = np.maximum(density, 0.0) * 0.5 * (b - a) * np.sin(theta)
+    # endpoint values by extrapolation (the θ-integrand is bounded at both ends)
+    integrand[0] = max(2 * integrand[1] - integrand[2], 0.0)
+    integrand[-1] = max(2 * integrand[-2] - integrand[-3], 0.0)
+    cdf = np.concatenate([[0.0], np.cumsum(0.5 * (integrand[1:] + integrand[:-1]) * np.diff(theta))])
+    if not cdf[-1] > 0:
+        raise NumericalFailure(f"the equilibrium density vanishes on the band [{a:g}, {b:g}]")
+    return theta, cdf / cdf[-1]
+
+
+def _band_breaks(measure, a: float, b: float, edges: tuple[str, str], mass: float, degree: int,
+                 layout: PanelLayout) -> np.ndarray:
+    theta, cdf = _band_cdf(measure, a, b)
+    count = max(int(math.ceil(mass * (degree + 1) / layout.zeros_per_panel)), 2)
+    levels = (np.arange(count) + layout.offset) / count
+    levels = np.concatenate([[0.0], levels[levels > 0], [1.0]])
+    th = np.interp(levels, cdf, theta)
+    x = 0.5 * (a + b) - 0.5 * (b - a) * np.cos(th)
+    x[0], x[-1] = a, b
+    # no panel longer than a quarter of the band (small K)
+    x = _refine_long(x, 0.25 * (b - a))
+    # soft edges: split the edge panel geometrically down to the Airy scale
+    extra = []
+    for side, kind in zip((0, 1), edges):
+        if kind != "soft":
+            continue
+        edge = a if side == 0 else b
+        width = (x[1] - x[0]) if side == 0 else (x[-1] - x[-2])
+        airy = _airy_unit(measure, edge, a, b, side, degree)
+        d = 0.5 * width
+        while d > layout.airy_units * airy:
+            extra.append(edge + d if side == 0 else edge - d)
+            d *= 0.5
+    x = np.unique(np.concatenate([x, extra]))
+    return x
+
+
+def _airy_unit(measure, edge: float, a: float, b: float, side: int, degree: int) -> float:
+    """(K C)^{-2/3} with ψ ≈ C sqrt(distance) near the soft edge."""
+    delta = 1e-3 * (b - a)
+    x = edge + delta if side == 0 else edge - delta
+    psi = float(np.asarray(measure.density(np.array([x])), dtype=float)[0])
+    c = max(psi / math.sqrt(delta), 1e-300)
+    return ((degree + 1) * c) ** (-2.0 / 3.0)
+
+
+def _refine_long(x: np.ndarray, longest: float) -> np.ndarray:
+    pieces = [x[:1]]
+    for lo, hi in zip(x[:-1], x[1:]):
+        k = max(int(math.ceil((hi - lo) / longest)), 1)
+        pieces.append(np.linspace(lo, hi, k + 1)[1:])
+    return np.concatenate(pieces)
+
+
+def _complement_pieces(on, support) -> list[tuple[float, float]]:
+    """Components of Σ \\ S (closures), possibly unbounded."""
+    pieces = []
+    for lo, hi in on.intervals:
+        cursor = lo
+        for a, b in support:
+            if b <= lo or a >= hi:
+                continue
+            if a > cursor:
+                pieces.append((cursor, a))
+            cursor = max(cursor, b)
+        if cursor < hi:
+            pieces.append((cursor, hi))
+    scale = max(1.0, max(abs(e) for ab in support for e in ab))
+    return [(p, q) for p, q in pieces if q - p > 1e-13 * scale]
+
+
+def _exterior_breaks(measure, piece: tuple[float, float], support, degree: int, level: float,
+                     layout: PanelLayout, longest: float) -> list[np.ndarray]:
+    """Breaks on the parts of ``piece`` where K eff ≤ L."""
+    lo, hi = piece
+    edges = [e for ab in support for e in ab]
+    touches_lo = any(abs(lo - e) <= 1e-12 * max(1.0, abs(e)) for e in edges)
+    touches_hi = any(abs(hi - e) <= 1e-12 * max(1.0, abs(e)) for e in edges)
+    width = max(b for _, b in support) - min(a for a, _ in support)
+
+    def k_eff(x):
+        with np.errstate(all="ignore"):
+            values = np.asarray(measure.effective_potential(np.asarray(x, dtype=float)), dtype=float)
+        values = np.where(np.isfinite(values), values, np.inf)
+        return (degree + 1) * np.maximum(values, 0.0)
+
+    # make unbounded sides finite: march away until K eff > L
+    if not math.isfinite(lo) or not math.isfinite(hi):
+        anchor = hi if not math.isfinite(lo) else lo
+        direction = -1.0 if not math.isfinite(lo) else 1.0
+        step = 1e-4 * width
+        while True:
+            x = anchor + direction * step
+            if k_eff(np.array([x]))[0] > 2.0 * level:
+                break
+            step *= 2.0
+            if step > 1e12 * max(1.0, width):
+                raise NumericalFailure("the weight does not decay: cannot find where to cut the tail")
+        lo, hi = (x, hi) if direction < 0 else (lo, x)
+    samples = 801
+    s = np.linspace(0.0, math.pi, samples)
+    x = 0.5 * (lo + hi) - 0.5 * (hi - lo) * np.cos(s)  # clustered at both ends
+    values = k_eff(x)
+    if touches_lo:
+        values[0] = 0.0
+    if touches_hi:
+        values[-1] = 0.0
+    inside = values <= level
+    out = []
+    k = 0
+    while k < samples:
+        if not inside[k]:
+            k += 1
+            continue
+        j = k
+        while j + 1 < samples and inside[j + 1]:
+            j += 1
+        # extend each run to the crossing by linear interpolation
+        left = x[k]
+        if k > 0:
+            f0, f1 = values[k - 1], values[k]
+            left = x[k] - (x[k] - x[k - 1]) * (level - f1) / (f0 - f1) if math.isfinite(f0) else x[k]
+        right = x[j]
+        if j < samples - 1:
+            f0, f1 = values[j], values[j + 1]
+            right = x[j] + (x[j + 1] - x[j]) * (level - f0) / (f1 - f0) if math.isfinite(f1) else x[j]
+        if right > left:
+            grid = np.concatenate([[left], x[k:j + 1], [right]])
+            grid = np.unique(grid)
+            sigma = k_eff(grid) ** (2.0 / 3.0)
+            sigma = np.where(np.isfinite(sigma), sigma, level ** (2.0 / 3.0))
+            tau = np.concatenate([[0.0], np.cumsum(np.abs(np.diff(sigma)))])
+            tau = tau + (grid - grid[0]) / longest * layout.exterior_step
+            count = max(int(math.ceil(tau[-1] / layout.exterior_step)), 1)
+            targets = np.linspace(0.0, tau[-1], count + 1)
+            targets = targets + layout.offset * (targets[1] - targets[0]) * (0 < targets) * (targets < tau[-1])
+            targets = np.clip(targets, 0.0, tau[-1])
+            breaks = np.interp(targets, tau, grid)
+            breaks[0], breaks[-1] = left, right
+            out.append(np.unique(breaks))
+        k = j + 1
+    return out
+
+
+def _panel_rule(weight: Weight, lo: float, hi: float, m: int, singular: dict[float, float]):
+    """Nodes and log weights on [lo, hi], Gauss–Jacobi for singular ends."""
+    p_lo = _lookup(singular, lo)
+    p_hi = _lookup(singular, hi)
+    half = 0.5 * (hi - lo)
+    if p_lo == 0.0 and p_hi == 0.0:
+        u, w = gauss_legendre(m)
+        omit: tuple[float, ...] = ()
+    else:
+        u, w = gauss_jacobi(m, p_hi, p_lo)
+        omit = tuple(c for c, p in ((lo, p_lo), (hi, p_hi)) if p != 0.0)
+    x = 0.5 * (lo + hi) + half * u
+    log_lambda = np.log(w) + (1.0 + p_lo + p_hi) * math.log(half) + weight.log_weight(x, omit)
+    return x, log_lambda
+
+
+def _lookup(singular: dict[float, float], point: float) -> float:
+    for c, p in singular.items():
+        if abs(c - point) <= 1e-14 * max(1.0, abs(c)):
+            return p
+    return 0.0
+
+
+def discretise(weight: Weight, degree: int, layout: PanelLayout = PRIMARY, measure=None,
+               solver: Callable[..., Any] | None = None) -> Discretisation:
+    """Discrete measure for ``∫ f w_n`` with f of degree ≤ 2·degree + 1.
+
+    Parameters
+    ----------
+    weight : the weight.
+    degree : K (the largest degree of the polynomials).
+    layout : :data:`PRIMARY`, :data:`SECONDARY` or another :class:`PanelLayout`.
+    measure : the equilibrium measure of ``(n/K) V`` (computed when omitted).
+    solver : the equilibrium solver (default :func:`equilibrium.solve`).
+    """
+    degree = int(degree)
+    if measure is None:
+        measure = measure_for(weight, degree, solver)
+    support = [tuple(map(float, ab)) for ab in measure.support]
+    edges = list(getattr(measure, "edges", [("soft", "soft")] * len(support)))
+    masses = np.asarray(getattr(measure, "masses", np.ones(len(support)) / len(support)), dtype=float)
+    level = cut_level(degree + 1)
+    # the bands
+    band_breaks = [
+        _band_breaks(measure, a, b, tuple(e), float(mass), degree, layout)
+        for (a, b), e, mass in zip(support, edges, masses)
+    ]
+    longest = max(float(np.max(np.diff(bb))) for bb in band_breaks)
+    # outside the bands: tails, gaps, pieces of Σ beyond the support
+    exterior: list[np.ndarray] = []
+    for piece in _complement_pieces(weight.on, support):
+        exterior.extend(_exterior_breaks(measure, piece, support, degree, level, layout, longest))
+    # singular points of h become breaks
+    singular = {c: p for c, p in weight.singular_points}
+    segments = [(seg, layout.points) for seg in band_breaks] + [(seg, layout.exterior_points) for seg in exterior]
+    for c in singular:
+        for k, (seg, m) in enumerate(segments):
+            if seg[0] < c < seg[-1] and not np.any(np.abs(seg - c) <= 1e-14 * max(1.0, abs(c))):
+                segments[k] = (np.sort(np.concatenate([seg, [c]])), m)
+    rows = [(lo, hi, m) for seg, m in segments for lo, hi in zip(seg[:-1], seg[1:]) if hi > lo]
+    table = np.array(rows)
+    table = table[np.argsort(table[:, 0])]
+    panels = table[:, :2]
+    # the nodes: regular panels at once (grouped by point count), singular panels one by one
+    regular = np.array([_lookup(singular, lo) == 0.0 and _lookup(singular, hi) == 0.0 for lo, hi in panels])
+    xs, logs = [], []
+    for m in sorted({int(v) for v in table[:, 2]}):
+        chosen = regular & (table[:, 2] == m)
+        if not np.any(chosen):
+            continue
+        u, w = gauss_legendre(m)
+        lo, hi = panels[chosen, 0][:, None], panels[chosen, 1][:, None]
+        x_reg = (0.5 * (lo + hi) + 0.5 * (hi - lo) * u[None, :]).ravel()
+        xs.append(x_reg)
+        logs.append((np.log(w)[None, :] + np.log(0.5 * (hi - lo))).ravel() + weight.log_weight(x_reg))
+    for lo_s, hi_s, m in table[~regular]:
+        x, lg = _panel_rule(weight, float(lo_s), float(hi_s), int(m), singular)
+        xs.append(x)
+        logs.append(lg)
+    nodes = np.concatenate(xs)
+    log_weights = np.concatenate(logs)
+    order = np.argsort(nodes, kind="stable")
+    nodes, log_weights = nodes[order], log_weights[order]
+    keep = log_weights > -np.inf
+    if np.any(np.isnan(log_weights)) or np.any(log_weights == np.inf):
+        raise NumericalFailure("the weight is not finite at some quadrature nodes")
+    return Discretisation(nodes[keep], log_weights[keep], panels, degree, level, layout)
+
+
+def estimate_size(weight: Weight, degree: int, layout: PanelLayout = PRIMARY, bands: int = 1) -> int:
+    """Number of nodes ``discretise`` will place, estimated before any allocation."""
+    panels = (degree + 1) / layout.zeros_per_panel + bands * (8 + 3 * math.log2(degree + 2)) + 60 * (bands + 1)
+    return int(panels * layout.points)

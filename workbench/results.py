@@ -1,0 +1,296 @@
+"""The HDF5 layout of a run: writing it atomically and reading it back.
+
+One file per run, one group per stage::
+
+    /                   provenance (attributes): format, workbench version, git commit (when
+                        there is one), case text, parameters, library versions, timings
+    /equilibrium        support, edges, band masses, Ω, ℓ, energy, checks; density on a grid
+    /model              predictions of the model problem at every n (a_n, b_n, zeros, counts)
+    /direct/n_XXXX      direct orthogonal polynomials at one n (coefficients, zeros, values, Y)
+    /comparison         errors against n, counts per band, small-norm deviations
+    /comparison/rates   fitted rates (slope, standard error) per error quantity
+    /figures            metadata of the figures drawn (names, files, style, palette)
+
+Every dataset carries a ``description`` attribute (what it is, in which
+convention) so a file can be read with plain h5py and no project code: the
+:func:`read_run` reader below uses nothing but h5py and numpy.
+
+In memory a run is a tree of :class:`Group` nodes holding attributes,
+arrays and sub-groups.  The pipeline builds that tree; :func:`write_run`
+stores it; :func:`read_run` restores it; :func:`figures` and ``show`` work
+only from the restored tree.
+
+Partial results (one file per finished n, written atomically, tied to the
+SHA-256 digest of the case) let an interrupted run resume: see
+:func:`write_partial` and :func:`load_partials`.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import json
+import os
+import platform
+import subprocess
+import sys
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Iterable, Mapping
+
+import h5py
+import numpy as np
+
+from workbench.hdf5 import atomic_file, set_attributes
+
+__all__ = [
+    "FORMAT",
+    "FORMAT_VERSION",
+    "Group",
+    "Dataset",
+    "write_run",
+    "read_run",
+    "write_group_file",
+    "read_group_file",
+    "write_partial",
+    "load_partials",
+    "partial_path",
+    "provenance",
+    "git_commit",
+    "library_versions",
+    "remove_stale_temporaries",
+]
+
+FORMAT = "workbench-run"
+FORMAT_VERSION = 1
+
+
+@dataclass
+class Dataset:
+    """An array with the attributes that say what it means (``description`` is required)."""
+
+    data: np.ndarray
+    attrs: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass
+class Group:
+    """A node of the run tree: attributes, datasets and sub-groups."""
+
+    attrs: dict[str, Any] = field(default_factory=dict)
+    datasets: dict[str, Dataset] = field(default_factory=dict)
+    groups: dict[str, "Group"] = field(default_factory=dict)
+
+    def add(self, name: str, data: Any, description: str, **attrs: Any) -> Dataset:
+        """Add a dataset; ``description`` is mandatory so files stay self-describing."""
+        array = np.asarray(data)
+        if array.dtype.kind == "U":
+            array = array.astype(object)
+        item = Dataset(array, {"description": description, **attrs})
+        self.datasets[name] = item
+        return item
+
+    def group(self, name: str) -> "Group":
+        """The sub-group ``name`` (created empty when absent); ``a/b`` paths allowed."""
+        node = self
+        for part in name.split("/"):
+            node = node.groups.setdefault(part, Group())
+        return node
+
+    def get(self, path: str) -> Any:
+        """Array or group at a slash path, e.g. ``"comparison/err_a"``."""
+        node: Any = self
+        for part in path.strip("/").split("/"):
+            if isinstance(node, Group) and part in node.groups:
+                node = node.groups[part]
+            elif isinstance(node, Group) and part in node.datasets:
+                node = node.datasets[part].data
+            else:
+                raise KeyError(path)
+        return node
+
+    def has(self, path: str) -> bool:
+        try:
+            self.get(path)
+        except KeyError:
+            return False
+        return True
+
+
+# ---------------------------------------------------------------------- writing
+def _store_array(parent: h5py.Group, name: str, item: Dataset) -> None:
+    data = item.data
+    if data.dtype == object or data.dtype.kind == "U":
+        data = np.asarray([str(v) for v in data.ravel()], dtype=object).reshape(data.shape)
+        node = parent.create_dataset(name, data=data, dtype=h5py.string_dtype())
+    else:
+        compress = data.size > 256
+        node = parent.create_dataset(name, data=data, compression="gzip" if compress else None)
+    set_attributes(node, item.attrs)
+
+
+def _store_group(target: h5py.Group, node: Group) -> None:
+    set_attributes(target, node.attrs)
+    for name, item in node.datasets.items():
+        _store_array(target, name, item)
+    for name, child in node.groups.items():
+        _store_group(target.create_group(name), child)
+
+
+def write_run(path: str | os.PathLike[str], tree: Group) -> Path:
+    """Write the run tree atomically to ``path`` (previous file kept until the rename)."""
+    with atomic_file(path) as handle:
+        _store_group(handle, tree)
+        handle.attrs["format"] = FORMAT
+        handle.attrs["format_version"] = FORMAT_VERSION
+    return Path(path)
+
+
+def write_group_file(path: str | os.PathLike[str], tree: Group, **root_attrs: Any) -> Path:
+    """Atomically write a small file holding one tree (partial results, sweep points)."""
+    with atomic_file(path) as handle:
+        _store_group(handle, tree)
+        set_attributes(handle, root_attrs)
+    return Path(path)
+
+
+# ---------------------------------------------------------------------- reading
+def _decode(value: Any) -> Any:
+    if isinstance(value, bytes):
+        return value.decode()
+    if isinstance(value, np.ndarray) and value.dtype.kind in "OS":
+        return np.asarray([_decode(v) for v in value.ravel()], dtype=object).reshape(value.shape)
+    if isinstance(value, np.generic):
+        return value.item()
+    return value
+
+
+def _load_group(source: h5py.Group) -> Group:
+    node = Group(attrs={k: _decode(v) for k, v in source.attrs.items()})
+    for name, item in source.items():
+        if isinstance(item, h5py.Group):
+            node.groups[name] = _load_group(item)
+        else:
+            if h5py.check_string_dtype(item.dtype) is not None:
+                data = np.asarray(item.asstr()[()], dtype=object)
+            else:
+                data = item[()]
+            node.datasets[name] = Dataset(np.asarray(data),
+                                          {k: _decode(v) for k, v in item.attrs.items()})
+    return node
+
+
+def read_run(path: str | os.PathLike[str]) -> Group:
+    """Read a run file back into a :class:`Group` tree (plain h5py; no computation)."""
+    from equilibrium.errors import InputError
+
+    try:
+        with h5py.File(path, "r") as handle:
+            if handle.attrs.get("format") not in (FORMAT, "workbench-sweep"):
+                raise InputError(f"{path} is not a workbench run file (no 'format' attribute "
+                                 f"'{FORMAT}'); give a file written by 'workbench run' or 'sweep'")
+            return _load_group(handle)
+    except (OSError, KeyError) as exc:
+        raise InputError(f"cannot read {path} as HDF5: {exc}") from None
+
+
+def read_group_file(path: str | os.PathLike[str]) -> Group:
+    with h5py.File(path, "r") as handle:
+        return _load_group(handle)
+
+
+# ---------------------------------------------------------- partial results (resume)
+def partial_path(directory: str | os.PathLike[str], n: int) -> Path:
+    return Path(directory) / "partial" / f"n_{n:05d}.h5"
+
+
+def write_partial(directory: str | os.PathLike[str], n: int, tree: Group, digest: str) -> Path:
+    """Store the finished work at one n; the file appears only when complete."""
+    return write_group_file(partial_path(directory, n), tree, case_digest=digest, n=int(n))
+
+
+def load_partials(directory: str | os.PathLike[str], digest: str,
+                  wanted: Iterable[int]) -> dict[int, Group]:
+    """Finished per-n results of the same case (same digest); unreadable files are ignored."""
+    found: dict[int, Group] = {}
+    for n in wanted:
+        path = partial_path(directory, n)
+        if not path.exists():
+            continue
+        try:
+            with h5py.File(path, "r") as handle:
+                if handle.attrs.get("case_digest") != digest:
+                    continue
+                found[n] = _load_group(handle)
+        except OSError:
+            continue  # cannot happen for atomically written files, but never trust a disk
+    return found
+
+
+def remove_stale_temporaries(directory: str | os.PathLike[str]) -> list[Path]:
+    """Remove temporary files left by a process killed with SIGKILL (``*.h5.*.tmp``).
+
+    :func:`workbench.hdf5.atomic_file` removes its temporary file on every
+    exception, but nothing runs after SIGKILL; such leftovers never carry a
+    final name, so they cannot be mistaken for results, and the next run
+    clears them.
+    """
+    removed = []
+    root = Path(directory)
+    if not root.exists():
+        return removed
+    for path in list(root.glob("*.h5.*.tmp")) + list(root.glob("*/*.h5.*.tmp")):
+        try:
+            path.unlink()
+            removed.append(path)
+        except OSError:
+            pass
+    return removed
+
+
+# ------------------------------------------------------------------- provenance
+def git_commit() -> str | None:
+    """``git rev-parse HEAD`` of the repository holding the package, or None (never fails)."""
+    here = Path(__file__).resolve().parent.parent
+    if not (here / ".git").exists():
+        return None
+    try:
+        out = subprocess.run(["git", "rev-parse", "HEAD"], cwd=here, capture_output=True,
+                             text=True, timeout=5, check=False)
+    except (OSError, subprocess.SubprocessError):
+        return None
+    commit = out.stdout.strip()
+    return commit if out.returncode == 0 and len(commit) >= 7 else None
+
+
+def library_versions() -> dict[str, str]:
+    versions = {"python": platform.python_version()}
+    for name in ("numpy", "scipy", "h5py", "mpmath", "matplotlib"):
+        try:
+            module = __import__(name)
+            versions[name] = str(getattr(module, "__version__", "unknown"))
+        except ImportError:
+            versions[name] = "absent"
+    versions["hdf5"] = h5py.version.hdf5_version
+    return versions
+
+
+def provenance(case_text: str, case_source: str, parameters: Mapping[str, Any],
+               timings: Mapping[str, float], kind: str = "run") -> dict[str, Any]:
+    """Root attributes of a result file."""
+    import workbench
+
+    attrs: dict[str, Any] = {
+        "workbench_version": workbench.__version__,
+        "created_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+        "case_text": case_text,
+        "case_source": case_source,
+        "parameters": json.dumps(dict(parameters), default=str, sort_keys=True),
+        "library_versions": json.dumps(library_versions(), sort_keys=True),
+        "timings_s": json.dumps({k: round(float(v), 4) for k, v in timings.items()}),
+        "platform": platform.platform(),
+        "command": " ".join(["workbench", kind] + sys.argv[2:]) if sys.argv else "",
+    }
+    commit = git_commit()
+    if commit is not None:
+        attrs["git_commit"] = commit
+    return attrs

@@ -1,0 +1,570 @@
+"""Parameter sweeps: the equilibrium measure over a 1-D or 2-D grid of field parameters.
+
+A sweep evaluates a *point function* (parameters -> small dict of numbers)
+at every grid point, in parallel, and records each finished point at once in
+an append-only journal (JSON lines, one per point, flushed as it arrives).
+A rerun reads the journal and evaluates only the points not yet in it, so
+an interrupted sweep resumes where it stopped; a torn last line (the
+process was killed while writing it) is ignored.
+
+Executors
+---------
+* a local process pool (:class:`concurrent.futures.ProcessPoolExecutor`,
+  ``forkserver`` start method so that no thread state is forked).  A worker
+  that dies (segfault, ``os._exit``, OOM kill) breaks the pool
+  (:class:`~concurrent.futures.process.BrokenProcessPool`): the pool is
+  rebuilt, tasks that had not started are resubmitted as they were, and the
+  points of tasks that had started are rerun one at a time in a one-process
+  pool, so the culprit is isolated; a point whose worker died
+  ``retries + 1`` times is recorded as failed and the sweep completes.
+* a Dask distributed cluster, when a scheduler address is given; Dask
+  itself reschedules tasks of a lost worker and reports
+  ``KilledWorker`` after its allowed failures, which is recorded the same way.
+
+A point function raising an exception does not stop the sweep: the point
+is recorded with ``{"error": message, "error_kind": class name}`` (a
+deterministic failure is not retried).  The journal holds the case digest
+in its first line; a journal of another case is set aside, never mixed in.
+"""
+
+from __future__ import annotations
+
+import concurrent.futures as cf
+import functools
+import json
+import math
+import multiprocessing
+import os
+import signal
+import sys
+import time
+from concurrent.futures.process import BrokenProcessPool
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Callable, Mapping, Sequence
+
+import numpy as np
+
+from equilibrium.errors import InputError
+
+__all__ = [
+    "SweepOutcome",
+    "Journal",
+    "grid_points",
+    "run_points",
+    "equilibrium_point",
+    "equilibrium_point_fast",
+    "sweep_case",
+    "CaseSweep",
+    "field_payload",
+    "assemble",
+]
+
+PointFunction = Callable[[Mapping[str, float]], Mapping[str, Any]]
+
+
+# ----------------------------------------------------------------------- journal
+class Journal:
+    """Append-only record of finished points (JSON lines) tied to a case digest."""
+
+    def __init__(self, path: str | os.PathLike[str], digest: str) -> None:
+        self.path = Path(path)
+        self.digest = digest
+        self.results: dict[int, dict[str, Any]] = {}
+        self._handle = None
+        self._last_sync = 0.0
+        self._load()
+
+    def _load(self) -> None:
+        if not self.path.exists():
+            return
+        lines = self.path.read_text(encoding="utf-8").splitlines()
+        header = _parse_line(lines[0]) if lines else None
+        if not header or header.get("digest") != self.digest:
+            # another case (or a damaged header): keep it aside, start afresh
+            self.path.replace(self.path.with_suffix(f".other-{int(time.time())}.jsonl"))
+            return
+        for line in lines[1:]:
+            record = _parse_line(line)
+            if record is not None and "id" in record and "result" in record:
+                self.results[int(record["id"])] = record["result"]
+
+    def open(self) -> None:
+        new = not self.path.exists()
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        if not new:
+            # a torn last line (SIGKILL mid-write) must not glue onto the next record
+            with open(self.path, "rb") as stream:
+                stream.seek(0, os.SEEK_END)
+                if stream.tell() > 0:
+                    stream.seek(-1, os.SEEK_END)
+                    torn = stream.read(1) != b"\n"
+                else:
+                    torn = False
+        self._handle = open(self.path, "a", encoding="utf-8")
+        if new:
+            self._write({"digest": self.digest, "format": "workbench-sweep-journal"})
+        elif torn:
+            self._handle.write("\n")
+
+    def _write(self, record: Mapping[str, Any]) -> None:
+        assert self._handle is not None
+        self._handle.write(json.dumps(record, default=_json_default) + "\n")
+        self._handle.flush()
+        now = time.monotonic()
+        if now - self._last_sync > 2.0:  # bound the fsync cost; flush already survives SIGKILL
+            os.fsync(self._handle.fileno())
+            self._last_sync = now
+
+    def record(self, point_id: int, result: Mapping[str, Any]) -> None:
+        self.results[int(point_id)] = dict(result)
+        self._write({"id": int(point_id), "result": result})
+
+    def close(self) -> None:
+        if self._handle is not None:
+            self._handle.flush()
+            os.fsync(self._handle.fileno())
+            self._handle.close()
+            self._handle = None
+
+
+def _parse_line(line: str) -> dict[str, Any] | None:
+    try:
+        value = json.loads(line)
+    except ValueError:
+        return None
+    return value if isinstance(value, dict) else None
+
+
+def _json_default(value: Any) -> Any:
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    if isinstance(value, np.generic):
+        return value.item()
+    return str(value)
+
+
+# ------------------------------------------------------------------ point running
+@dataclass(frozen=True)
+class SweepOutcome:
+    """What a call of :func:`run_points` did."""
+
+    results: dict[int, dict[str, Any]]
+    computed: int          # points evaluated in this call
+    reused: int            # points taken from the journal
+    failed: int            # points recorded with an error
+    retried: int           # resubmissions after a worker died
+    complete: bool         # every point has a result
+    seconds: float
+
+
+_STARTED = None  # worker-process side: queue on which a worker announces each task it starts
+
+
+def _worker_init(started) -> None:
+    # Ctrl-C goes to the whole process group; the parent alone decides what to do
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    global _STARTED
+    _STARTED = started
+
+
+def _evaluate_chunk(function: PointFunction,
+                    chunk: Sequence[tuple[int, Mapping[str, float]]]) -> list[tuple[int, dict]]:
+    if _STARTED is not None and chunk:
+        _STARTED.put(chunk[0][0])  # lets the parent tell the culprit of a dead worker
+    out = []
+    for point_id, params in chunk:
+        try:
+            result = dict(function(params))
+        except Exception as exc:  # recorded per point: one bad point must not stop a sweep
+            result = {"error": str(exc) or type(exc).__name__, "error_kind": type(exc).__name__}
+        out.append((point_id, result))
+    return out
+
+
+def _chunks(items: Sequence[tuple[int, Mapping[str, float]]], size: int):
+    return [list(items[i:i + size]) for i in range(0, len(items), size)]
+
+
+def run_points(
+    points: Sequence[Mapping[str, float]],
+    function: PointFunction,
+    journal: Journal,
+    *,
+    workers: int | None = None,
+    scheduler: str | None = None,
+    chunk_size: int | None = None,
+    retries: int = 2,
+    budget: int | None = None,
+    progress: bool = True,
+    description: str = "sweep",
+    scheduler_timeout: float = 10.0,
+) -> SweepOutcome:
+    """Evaluate ``function`` at every point not yet in ``journal``.
+
+    Parameters
+    ----------
+    points : sequence of parameter dicts; the point id is the position.
+    function : picklable callable ``params -> dict`` (top-level function or partial).
+    journal : where finished points are recorded (and found on a rerun).
+    workers : processes of the local pool (default: the number of CPUs).
+    scheduler : address ``tcp://host:port`` of a Dask scheduler; overrides the pool.
+    chunk_size : points per task (default: about 8 tasks per worker, at most 64 points).
+    retries : resubmissions of a point after its worker died.
+    budget : stop after this many new points (used to test resuming).
+    progress : show a tqdm bar on stderr (only when stderr is a terminal).
+    scheduler_timeout : seconds to wait for the Dask scheduler before giving up.
+    """
+    start = time.perf_counter()
+    todo = [(i, dict(p)) for i, p in enumerate(points) if i not in journal.results]
+    reused = len(points) - len(todo)
+    if budget is not None:
+        todo = todo[:max(0, int(budget))]
+    workers = max(1, int(workers or os.cpu_count() or 1))
+    if chunk_size is None:
+        chunk_size = int(min(64, max(1, math.ceil(len(todo) / (8 * workers)))))
+    bar = _progress_bar(len(points), reused, progress, description)
+    counters = {"computed": 0, "failed": 0, "retried": 0}
+
+    def record(point_id: int, result: dict[str, Any]) -> None:
+        journal.record(point_id, result)
+        counters["computed"] += 1
+        counters["failed"] += "error" in result
+        bar.update(1)
+
+    journal.open()
+    try:
+        if todo:
+            if scheduler:
+                _run_dask(todo, function, scheduler, chunk_size, record, scheduler_timeout)
+            else:
+                _run_pool(todo, function, workers, chunk_size, retries, record, counters)
+    finally:
+        journal.close()
+        bar.close()
+    return SweepOutcome(
+        results=dict(journal.results),
+        computed=counters["computed"],
+        reused=reused,
+        failed=sum("error" in journal.results.get(i, {}) for i in range(len(points))),
+        retried=counters["retried"],
+        complete=all(i in journal.results for i in range(len(points))),
+        seconds=time.perf_counter() - start,
+    )
+
+
+def _run_pool(todo, function, workers, chunk_size, retries, record, counters) -> None:
+    """Bulk rounds on ``workers`` processes, then the suspects of dead workers one by one.
+
+    When a worker dies the executor terminates every worker and fails every
+    pending task.  Tasks that had not started are innocent: they go to the
+    next bulk round unchanged.  Tasks that had started and not finished are
+    suspects: each of their points is then run alone in a one-process pool,
+    where a death can only be that point's; it is retried ``retries`` times
+    and then recorded as failed.
+    """
+    context = _pool_context()
+    pending = _chunks(todo, chunk_size)
+    suspects: list[tuple[int, Mapping[str, float]]] = []
+    while pending:
+        lost, started = _pool_round(context, workers, pending, function, record)
+        pending = []
+        if lost and not any(chunk[0][0] in started for chunk in lost):
+            started = {chunk[0][0] for chunk in lost}  # no announcement arrived: suspect all
+        for chunk in lost:
+            if chunk[0][0] in started:
+                suspects.extend(chunk)
+            else:
+                pending.append(chunk)
+        counters["retried"] += sum(len(chunk) for chunk in lost)
+    for point in suspects:
+        for attempt in range(retries + 1):
+            lost, _ = _pool_round(context, 1, [[point]], function, record)
+            if not lost:
+                break
+            if attempt < retries:
+                counters["retried"] += 1
+        else:
+            record(point[0], {"error": f"worker died {retries + 1} times at this point",
+                              "error_kind": "WorkerDied"})
+
+
+def _pool_context():
+    """``forkserver`` context whose server has the solver imported already.
+
+    Workers fork from the server, so no thread state of the parent (progress
+    bar, Dask) is ever forked, and each worker starts with equilibrium and
+    its expression parser loaded instead of importing them itself.
+    """
+    context = multiprocessing.get_context("forkserver")
+    context.set_forkserver_preload(["workbench.sweep", "equilibrium", "equilibrium.expression"])
+    return context
+
+
+def _pool_round(context, workers, chunks, function, record):
+    """Run ``chunks`` on a fresh pool; return the chunks lost to a dead worker and the started ids."""
+    started_queue = context.SimpleQueue()
+    pool = cf.ProcessPoolExecutor(max_workers=workers, mp_context=context,
+                                  initializer=_worker_init, initargs=(started_queue,))
+    lost = []
+    try:
+        futures = {pool.submit(_evaluate_chunk, function, chunk): chunk for chunk in chunks}
+        for future in cf.as_completed(futures):
+            try:
+                finished = future.result()
+            except BrokenProcessPool:
+                lost.append(futures[future])
+                continue
+            for point_id, result in finished:
+                record(point_id, result)
+    except BaseException:
+        pool.shutdown(wait=False, cancel_futures=True)
+        raise
+    pool.shutdown(wait=True, cancel_futures=True)
+    started = set()
+    if lost:
+        while not started_queue.empty():
+            started.add(started_queue.get())
+    started_queue.close()
+    return lost, started
+
+
+def _run_dask(todo, function, scheduler, chunk_size, record, timeout) -> None:
+    try:
+        from distributed import Client, as_completed
+        from distributed.scheduler import KilledWorker
+    except ImportError:  # pragma: no cover - dask is a declared dependency
+        raise InputError("--scheduler needs dask.distributed; install it with "
+                         "'pip install dask[distributed]'") from None
+    try:
+        client = Client(scheduler, timeout=f"{timeout}s", set_as_default=False)
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise InputError(f"cannot reach the Dask scheduler at {scheduler} ({exc}); start one "
+                         f"with 'dask scheduler' and give its tcp://HOST:PORT") from None
+    try:
+        chunks = _chunks(todo, chunk_size)
+        futures = [client.submit(_evaluate_chunk, function, chunk, pure=False) for chunk in chunks]
+        by_key = {f.key: chunk for f, chunk in zip(futures, chunks)}
+        with client.as_current():
+            for future in as_completed(futures):
+                try:
+                    finished = future.result()
+                except KilledWorker as exc:
+                    finished = [(pid, {"error": f"Dask worker lost repeatedly: {exc}",
+                                       "error_kind": "WorkerDied"})
+                                for pid, _ in by_key[future.key]]
+                for point_id, result in finished:
+                    record(point_id, result)
+    finally:
+        client.close()
+
+
+def _progress_bar(total: int, initial: int, enabled: bool, description: str):
+    from tqdm import tqdm
+
+    return tqdm(total=total, initial=initial, desc=description, unit="pt", file=sys.stderr,
+                disable=not enabled or not sys.stderr.isatty(), dynamic_ncols=True, leave=False)
+
+
+# ------------------------------------------------------------------ grid and point
+def grid_points(axes: Sequence[tuple[str, np.ndarray]]) -> list[dict[str, float]]:
+    """Points of the tensor grid, first axis slowest (C order, like ``np.meshgrid(indexing='ij')``)."""
+    if len(axes) == 1:
+        name, values = axes[0]
+        return [{name: float(v)} for v in values]
+    (n1, v1), (n2, v2) = axes
+    return [{n1: float(a), n2: float(b)} for a in v1 for b in v2]
+
+
+def field_payload(case) -> dict[str, Any]:
+    """The picklable description of a case that :func:`equilibrium_point` needs."""
+    return {
+        "expression": case.field.expression,
+        "parameters": dict(case.field.parameters),
+        "intervals": [list(pair) for pair in case.set.intervals],
+        "signed": case.set.signed,
+    }
+
+
+@functools.lru_cache(maxsize=4)
+def _interval_set(intervals: tuple[tuple[float, float], ...]):
+    from equilibrium import IntervalSet
+
+    if intervals == ((-math.inf, math.inf),):
+        return IntervalSet.real_line()
+    return IntervalSet(list(intervals))
+
+
+def equilibrium_point(payload: Mapping[str, Any], params: Mapping[str, float]) -> dict[str, Any]:
+    """Equilibrium measure at one grid point: bands, support, Ω, ℓ, energy, verification."""
+    from equilibrium import Field, solve, solve_signed
+
+    values = dict(payload["parameters"])
+    values.update(params)
+    field_ = Field.from_expression(payload["expression"], parameters=values)
+    on = _interval_set(tuple(tuple(p) for p in payload["intervals"]))
+    mu = (solve_signed if payload["signed"] else solve)(field_, on=on)
+    return _measure_summary(mu)
+
+
+def assemble(results: Mapping[int, Mapping[str, Any]], shape: tuple[int, ...]) -> dict[str, np.ndarray]:
+    """Grids of the recorded quantities (NaN / -1 where a point failed)."""
+    size = int(np.prod(shape))
+    max_bands = max([len(r.get("support", [])) for r in results.values()] + [1])
+    bands = np.full(size, -1, dtype=np.int64)
+    lagrange = np.full(size, np.nan)
+    energy = np.full(size, np.nan)
+    verified = np.zeros(size, dtype=bool)
+    regular = np.zeros(size, dtype=bool)
+    support = np.full((size, max_bands, 2), np.nan)
+    omega = np.full((size, max(1, max_bands - 1)), np.nan)
+    errors = np.full(size, "", dtype=object)
+    for i in range(size):
+        r = results.get(i)
+        if r is None:
+            errors[i] = "not computed"
+            continue
+        if "error" in r:
+            errors[i] = f"{r.get('error_kind', 'Error')}: {r['error']}"
+            continue
+        bands[i] = r["bands"]
+        lagrange[i] = r.get("lagrange", np.nan)
+        energy[i] = r.get("energy", np.nan)
+        verified[i] = r.get("verified", False)
+        regular[i] = r.get("regular", False)
+        for j, band in enumerate(r.get("support", [])):
+            support[i, j] = band
+        for j, w in enumerate(r.get("omega", [])):
+            omega[i, j] = w
+    return {
+        "bands": bands.reshape(shape),
+        "lagrange": lagrange.reshape(shape),
+        "energy": energy.reshape(shape),
+        "verified": verified.reshape(shape),
+        "regular": regular.reshape(shape),
+        "support": support.reshape(shape + (max_bands, 2)),
+        "omega": omega.reshape(shape + (omega.shape[1],)),
+        "errors": errors.reshape(shape),
+    }
+
+
+# ---------------------------------------------------------------- sweep of a case
+def _fast_field(payload: Mapping[str, Any], values: Mapping[str, float]):
+    """Field of the payload's expression at ``values``.
+
+    A polynomial V is rebuilt from its coefficients (``Field.from_coefficients``),
+    which skips the symbolic derivatives ``Field.from_expression`` computes;
+    the coefficients come from the same parser, so the field is the same.
+    """
+    from equilibrium import Field
+    from equilibrium.expression import parse_expression
+
+    expression = parse_expression(payload["expression"], dict(values))
+    coefficients = expression.polynomial_coefficients()
+    if coefficients is not None:
+        return Field.from_coefficients(coefficients)
+    return Field.from_expression(payload["expression"], parameters=dict(values))
+
+
+def equilibrium_point_fast(payload: Mapping[str, Any], params: Mapping[str, float]) -> dict[str, Any]:
+    """:func:`equilibrium_point` with the field built by :func:`_fast_field`."""
+    from equilibrium import solve, solve_signed
+
+    values = dict(payload["parameters"])
+    values.update(params)
+    field_ = _fast_field(payload, values)
+    on = _interval_set(tuple(tuple(p) for p in payload["intervals"]))
+    mu = (solve_signed if payload["signed"] else solve)(field_, on=on)
+    return _measure_summary(mu)
+
+
+def _measure_summary(mu) -> dict[str, Any]:
+    return {
+        "bands": len(mu.support),
+        "support": [list(map(float, band)) for band in mu.support],
+        "omega": [float(w) for w in np.atleast_1d(mu.omega)],
+        "masses": [float(m) for m in np.atleast_1d(mu.masses)],
+        "lagrange": float(mu.lagrange),
+        "energy": float(mu.energy),
+        "verified": bool(mu.verified),
+        "regular": bool(getattr(mu.classification, "regular", True)),
+    }
+
+
+@dataclass(frozen=True)
+class CaseSweep:
+    """Files and counts of :func:`sweep_case`."""
+
+    path: Path | None
+    journal: Path
+    outcome: SweepOutcome
+    figures: Mapping[str, list[Path]]
+    shape: tuple[int, ...]
+
+
+def sweep_case(case, out: str | os.PathLike[str] | None = None, *, workers: int | None = None,
+               scheduler: str | None = None, budget: int | None = None, retries: int = 2,
+               progress: bool = True, draw: bool | None = None,
+               function: PointFunction | None = None) -> CaseSweep:
+    """Run the ``[sweep]`` grid of ``case``: journal, then ``sweep.h5`` and the phase diagram.
+
+    The HDF5 file is written (atomically) only when every point has a result.
+    """
+    from workbench.results import Group, provenance, remove_stale_temporaries, write_group_file
+
+    if case.sweep is None:
+        raise InputError(f"{case.source} has no [sweep] table; add one with [[sweep.axis]] "
+                         f"tables (name, start, stop, num) or use 'workbench run'")
+    directory = Path(case.output_directory(out))
+    directory.mkdir(parents=True, exist_ok=True)
+    remove_stale_temporaries(directory)
+    axes = [(axis.name, axis.values()) for axis in case.sweep.axes]
+    points = grid_points(axes)
+    if function is None:
+        function = functools.partial(equilibrium_point_fast, field_payload(case))
+    journal = Journal(directory / "points.jsonl", case.digest)
+    outcome = run_points(points, function, journal, workers=workers, scheduler=scheduler,
+                         budget=budget, retries=retries, progress=progress,
+                         description=f"{case.name}: sweep")
+    if not outcome.complete:
+        return CaseSweep(None, journal.path, outcome, {}, case.sweep.shape)
+
+    grids = assemble(outcome.results, case.sweep.shape)
+    tree = Group()
+    tree.attrs.update(provenance(case.text, case.source, case.parameters(),
+                                 {"sweep": outcome.seconds}, kind="sweep"))
+    tree.attrs.update({"format": "workbench-sweep", "format_version": 1, "case_name": case.name,
+                       "axes": ",".join(a.name for a in case.sweep.axes),
+                       "points": len(points), "failed_points": outcome.failed,
+                       "executor": scheduler or f"process pool ({workers or os.cpu_count()} workers)"})
+    grid = tree.group("grid")
+    grid.attrs["description"] = ("equilibrium measure over the parameter grid (first axis slowest); "
+                                 "-1 / NaN where a point failed (see 'errors')")
+    for name, values in axes:
+        grid.add(f"axis_{name}", values, f"grid values of the parameter {name}")
+    grid.add("bands", grids["bands"], "number of bands of mu_V (-1: failed)")
+    wanted = set(case.sweep.quantities)
+    described = {
+        "lagrange": "equilibrium constant ell",
+        "energy": "energy I_V(mu_V)",
+        "omega": "Omega_j = mu([a_{j+1}, b_k]) (last axis j; NaN: no such gap)",
+        "support": "bands [a_j, b_j] (axis -2: j, axis -1: a/b; NaN: none)",
+    }
+    for key, text in described.items():
+        if key in wanted:
+            grid.add(key, grids[key], text)
+    grid.add("verified", grids["verified"], "verification figures within tolerance")
+    grid.add("regular", grids["regular"], "measure regular (no singular point)")
+    grid.add("errors", grids["errors"], "error message of a failed point ('' when fine)")
+    draw = case.figures.enabled if draw is None else draw
+    figure_files: dict[str, list[Path]] = {}
+    if draw:
+        from workbench.figures import draw_all
+
+        figure_files = draw_all(tree, directory / "figures", formats=case.figures.formats,
+                                dpi=case.figures.dpi)
+    tree.group("figures").attrs.update({"description": "figures drawn from this file",
+                                        "drawn": sorted(figure_files) or "none"})
+    path = directory / "sweep.h5"
+    write_group_file(path, tree)
+    return CaseSweep(path, journal.path, outcome, figure_files, case.sweep.shape)
