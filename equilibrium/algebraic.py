@@ -324,6 +324,17 @@ def solve_structure(
     ends = structure.ends.copy()
     state = algebraic_state(window, structure, p, with_jacobian=True)
     norm = float(np.max(np.abs(state.residual))) if state.residual.size else 0.0
+    if len(soft) == 0:
+        # linear in p: one solve and one step of iterative refinement
+        for iteration in range(2):
+            if q == 0 or norm < tolerance:
+                break
+            trial_p = p - np.linalg.solve(state.jacobian, state.residual)
+            trial = algebraic_state(window, structure, trial_p, with_jacobian=iteration == 0)
+            trial_norm = float(np.max(np.abs(trial.residual)))
+            if trial_norm < norm:
+                p, state, norm = trial_p, trial, trial_norm
+        return AlgebraicSolution(state, 1, norm, norm < 1e-11)
     iterations = 0
     for iterations in range(1, max_iterations + 1):
         if norm < tolerance:
@@ -334,7 +345,9 @@ def solve_structure(
             delta = np.linalg.lstsq(state.jacobian, -state.residual, rcond=None)[0]
         scale = 1.0
         accepted = False
-        for _ in range(30):
+        # at the rounding floor a full step that does not help ends the iteration
+        halvings = 1 if norm < 1e-12 else 30
+        for _ in range(halvings):
             trial = ends.copy()
             trial[soft] += scale * delta[: len(soft)]
             ok = bool(np.all(np.diff(trial) > 0))

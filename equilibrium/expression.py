@@ -703,6 +703,19 @@ def _sympy_number(value: float | Fraction) -> sympy.Rational:
     return sympy.Rational(exact.numerator, exact.denominator)
 
 
+def _exact_power_too_large(base: sympy.Expr, exponent: Node) -> bool:
+    """Would sympy build a huge exact number for this constant power (``0.001^1e10``)?
+
+    sympy raises rationals to integer (parts of) powers exactly, so the size of
+    the result is about (bits of the base's rationals) * |p|; beyond 2**16 bits
+    the constant is taken at its double-precision value instead.
+    """
+    with np.errstate(all="ignore"):
+        p = abs(float(_evaluate(exponent, None)))
+    bits = sum(r.p.bit_length() + r.q.bit_length() for r in base.atoms(sympy.Rational))
+    return p > MAX_EXPONENT or bits * p > 2**16
+
+
 def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
     """Build sympy objects node by node (``calculus`` swaps in the real-argument |u| for differentiation)."""
     def walk(n: Node) -> sympy.Expr:
@@ -721,7 +734,11 @@ def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
         if isinstance(n, Product):
             return sympy.Mul(*[sympy.Pow(walk(f), -1) if d else walk(f) for f, d in zip(n.factors, n.divided)])
         if isinstance(n, Power):
-            return sympy.Pow(walk(n.base), walk(n.exponent))
+            base, exponent = walk(n.base), walk(n.exponent)
+            if base.is_number and exponent.is_number and _exact_power_too_large(base, n.exponent):
+                with np.errstate(all="ignore"):
+                    return _sympy_number(float(_evaluate(n, None)))
+            return sympy.Pow(base, exponent)
         if calculus and n.function in ("abs", "sign"):
             return (_RealAbs if n.function == "abs" else _RealSign)(walk(n.argument))
         return _SYMPY_FUNCTIONS[n.function](walk(n.argument))
@@ -732,7 +749,14 @@ def _from_sympy(expr: sympy.Expr, variable: str) -> Node:
     """Convert a sympy tree back into the evaluator's tree; unknown node types are refused."""
     def number(value: Fraction) -> Node:
         magnitude = abs(value)
-        node: Node = Number(float(magnitude.numerator), Fraction(magnitude.numerator))
+        if max(magnitude.numerator, magnitude.denominator) > 2**53:   # not p/q in doubles: one number
+            try:
+                node: Node = Number(float(magnitude), magnitude)
+            except OverflowError:
+                raise ExpressionError("the symbolic form has a coefficient beyond double precision "
+                                      "(|c| > 1.8e308); rescale the expression") from None
+            return Negate(node) if value < 0 else node
+        node = Number(float(magnitude.numerator), Fraction(magnitude.numerator))
         if magnitude.denominator != 1:
             node = Product((node, Number(float(magnitude.denominator), Fraction(magnitude.denominator))),
                            (False, True))

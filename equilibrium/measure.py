@@ -121,8 +121,7 @@ class EquilibriumMeasure:
     _window: Window = dataclass_field(repr=False)
     _state: AlgebraicState = dataclass_field(repr=False)
     _g_scaled: np.ndarray = dataclass_field(repr=False)
-    _band_cdfs: tuple[CumulativeIntegral, ...] = dataclass_field(repr=False)
-    _outer: dict = dataclass_field(repr=False)
+    _pieces: "_Pieces" = dataclass_field(repr=False)
 
     # ----------------------------------------------------------------- basics
     @property
@@ -180,7 +179,7 @@ class EquilibriumMeasure:
             out[x >= b] = before + self.masses[j]
             inside = (x > a) & (x < b)
             if np.any(inside):
-                out[inside] = before + self._band_cdfs[j].at_theta(theta_of_x(a, b, x[inside]))
+                out[inside] = before + self._pieces.band_cdf(j).at_theta(theta_of_x(a, b, x[inside]))
             before += self.masses[j]
         return np.clip(out, 0.0, 1.0)
 
@@ -200,7 +199,7 @@ class EquilibriumMeasure:
             hi = np.full(target.shape, math.pi)
             for _ in range(60):
                 mid = 0.5 * (lo + hi)
-                below = self._band_cdfs[j].at_theta(mid) < target
+                below = self._pieces.band_cdf(j).at_theta(mid) < target
                 lo = np.where(below, mid, lo)
                 hi = np.where(below, hi, mid)
             theta = 0.5 * (lo + hi)
@@ -213,15 +212,7 @@ class EquilibriumMeasure:
 
     def g_far(self, z) -> np.ndarray:
         """g(z) from its Laurent series, valid where |u(z)| ≥ ρ (outside the ellipse)."""
-        ellipse = self._window.ellipse
-        u = self._u(z)
-        ratio = ellipse.rho / u
-        series = np.zeros(u.shape, dtype=complex)
-        power = np.ones(u.shape, dtype=complex)
-        for coefficient in self._g_scaled:
-            power = power * ratio
-            series = series + coefficient * power
-        return math.log(ellipse.half_width / 2) + np.log(u) + series
+        return _g_series(self._window.ellipse, self._g_scaled, self._u(z))
 
     def stieltjes(self, z) -> np.ndarray:
         """G(z) = ∫ dμ(s)/(z - s) for z off the support."""
@@ -235,13 +226,8 @@ class EquilibriumMeasure:
             out[~far] = 0.5 * (self._window.dV(zn) - self.h(zn) * self.sqrt_ratio(zn))
         if np.any(far):
             uf = u[far]
-            ratio = ellipse.rho / uf
             m = np.arange(1, len(self._g_scaled) + 1)
-            series = np.zeros(uf.shape, dtype=complex)
-            power = np.ones(uf.shape, dtype=complex)
-            for mm, coefficient in zip(m, self._g_scaled):
-                power = power * ratio
-                series = series + mm * coefficient * power
+            series = _power_series(ellipse.rho / uf, m * self._g_scaled)
             dz_du = ellipse.half_width * 0.5 * (1 - uf ** -2)
             out[far] = (1 - series) / uf / dz_du
         return out
@@ -257,9 +243,9 @@ class EquilibriumMeasure:
             lo, hi = e[2 * j + 1], e[2 * j + 2]
             mask = inside_sigma & (x > lo) & (x < hi)
             if np.any(mask):
-                out[mask] = self._outer["gaps"][j].at_theta(theta_of_x(lo, hi, x[mask]))
+                out[mask] = self._pieces.gap(j).at_theta(theta_of_x(lo, hi, x[mask]))
         for side in ("left", "right"):
-            piece = self._outer.get(side)
+            piece = self._pieces.outer(side)
             if piece is None:
                 continue
             lo, hi = piece.lo, piece.hi
@@ -275,8 +261,7 @@ class EquilibriumMeasure:
 
     def log_potential(self, x) -> np.ndarray:
         """U^μ(x) = ∫ log 1/|x-y| dμ(y) by direct quadrature (real x; slow, for checks)."""
-        x = np.atleast_1d(np.asarray(x, dtype=float))
-        return np.array([_log_potential_at(self, xi) for xi in x])
+        return _log_potentials(self, np.atleast_1d(np.asarray(x, dtype=float)))
 
     # ----------------------------------------------------------------- export
     def to_dict(self) -> dict[str, Any]:
@@ -400,15 +385,10 @@ def build_measure(
         ("hard" if structure.hard[2 * j] else "soft", "hard" if structure.hard[2 * j + 1] else "soft") for j in range(k)
     )
 
-    # band masses and distribution functions (angular panels)
-    cdfs = []
-    for j in range(k):
-        a, b = support[j]
-        near_lo, near_hi = _band_rule_distances(structure, j)
-        breaks = angular_breaks(b - a, near_lo, near_hi)
-        cdfs.append(cumulative_integral(_band_integrand((structure, h_of), j), a, b, breaks))
-    masses = np.array([c.total for c in cdfs])
+    # band masses (angular rule); cumulative pieces are built lazily when asked for
+    masses = band_masses(window, state)
     omega = np.array([masses[j + 1:].sum() for j in range(k - 1)])
+    pieces = _Pieces(structure, h_of, on, ellipse)
 
     # G on the ellipse and the Laurent series of g
     z = ellipse.z
@@ -439,44 +419,14 @@ def build_measure(
     # ℓ at the left end of every band, through the gaps, with the exact V
     dV_integral = window.dV.antiderivative(bk, 0.0)
     lagranges = [lagrange]
-    gap_effs = []
     gap_total = 0.0
     for j in range(k - 2, -1, -1):
-        lo, hi = e[2 * j + 1], e[2 * j + 2]
-        breaks = angular_breaks(hi - lo, lo - e[2 * j], e[2 * j + 3] - hi)
-        eff = cumulative_integral(
-            _outer_integrand(structure, h_of, 2 * j + 1, 2 * j + 2, lo, hi, gap_sign(structure, j)), lo, hi, breaks
-        )
-        gap_effs.append(eff)
-        gap_total += eff.total
+        gap_total += pieces.gap_total(j)
         a = e[2 * j]
         V_a = float(np.real(field.V(np.array([a]))[0]))
         # ℓ_j - ℓ = [V(a_j) - V(b_k) + ∫_{a_j}^{b_k} V'_approx] - Σ_{gaps right of a_j} ∫ eff'
         lagranges.append(lagrange + (V_a - V_bk + (0.0 - float(dV_integral(a)))) - gap_total)
-    gap_effs = gap_effs[::-1]
     lagrange_spread = float(np.max(np.abs(np.array(lagranges) - lagrange)))
-
-    # the effective potential beside the hull, up to the ellipse crossing
-    outer: dict[str, Any] = {"gaps": tuple(gap_effs)}
-    sigma_lo, sigma_hi = on.hull
-    right_end = min(X, sigma_hi)
-    if right_end > bk and not structure.hard[-1] or (right_end > bk and structure.hard[-1]):
-        if right_end > bk:
-            breaks = angular_breaks(right_end - bk, bk - e[-2], None)
-            outer["right"] = cumulative_integral(
-                _outer_integrand(structure, h_of, len(e) - 1, len(e), bk, right_end, 1), bk, right_end, breaks
-            )
-    X_left = ellipse.center - ellipse.half_width * 0.5 * (ellipse.rho + 1 / ellipse.rho)
-    left_end = max(X_left, sigma_lo)
-    a1 = e[0]
-    if left_end < a1:
-        # on (-∞, a_1): R^{1/2}/Q_h has sign (-1)^k (-1)^{#hard}; eff(x) = -∫_x^{a_1} eff'
-        sign = (-1) ** k * (-1) ** structure.hard_count
-        breaks = angular_breaks(a1 - left_end, None, e[1] - a1)
-        piece = cumulative_integral(
-            _outer_integrand(structure, h_of, -1, 0, left_end, a1, sign), left_end, a1, breaks
-        )
-        outer["left"] = _Reversed(piece)
 
     # energy: I = (ℓ + ∫ V dμ)/2 with ∫ V dμ by angular quadrature of the exact V
     V_mean = 0.0
@@ -507,8 +457,7 @@ def build_measure(
         _window=window,
         _state=state,
         _g_scaled=g_scaled,
-        _band_cdfs=tuple(cdfs),
-        _outer=outer,
+        _pieces=pieces,
     )
 
     checks: dict[str, float] = {
@@ -594,8 +543,7 @@ def build_measure(
         _window=window,
         _state=state,
         _g_scaled=g_scaled,
-        _band_cdfs=tuple(cdfs),
-        _outer=outer,
+        _pieces=pieces,
     )
 
 
@@ -606,6 +554,78 @@ def _fails(name: str, value: float) -> bool:
     if name in ("density_margin", "min_effective_potential"):
         return not value >= bound
     return not value <= bound
+
+
+class _Pieces:
+    """Cumulative integrals on the bands (distribution) and off them (effective potential).
+
+    Built on first use and kept: most callers never need them, and they are the
+    expensive part of a result.
+    """
+
+    def __init__(self, structure: BandStructure, h_of, on: IntervalSet, ellipse):
+        self.structure, self.h_of, self.on, self.ellipse = structure, h_of, on, ellipse
+        self._cache: dict = {}
+
+    def band_cdf(self, j: int) -> CumulativeIntegral:
+        key = ("band", j)
+        if key not in self._cache:
+            structure = self.structure
+            a, b = structure.ends[2 * j], structure.ends[2 * j + 1]
+            breaks = angular_breaks(b - a, *_band_rule_distances(structure, j))
+            self._cache[key] = cumulative_integral(_band_integrand((structure, self.h_of), j), a, b, breaks)
+        return self._cache[key]
+
+    def _gap_integrand(self, j: int):
+        e = self.structure.ends
+        lo, hi = e[2 * j + 1], e[2 * j + 2]
+        return lo, hi, _outer_integrand(self.structure, self.h_of, 2 * j + 1, 2 * j + 2, lo, hi, gap_sign(self.structure, j))
+
+    def gap(self, j: int) -> CumulativeIntegral:
+        key = ("gap", j)
+        if key not in self._cache:
+            e = self.structure.ends
+            lo, hi, integrand = self._gap_integrand(j)
+            breaks = angular_breaks(hi - lo, lo - e[2 * j], e[2 * j + 3] - hi)
+            self._cache[key] = cumulative_integral(integrand, lo, hi, breaks)
+        return self._cache[key]
+
+    def gap_total(self, j: int) -> float:
+        """∫ over gap j of eff' (zero for the solution), by the angular rule."""
+        e = self.structure.ends
+        lo, hi, integrand = self._gap_integrand(j)
+        rule = angular_rule(lo, hi, lo - e[2 * j], e[2 * j + 3] - hi)
+        return float(np.dot(rule.weights, integrand(rule.theta)))
+
+    def outer(self, side: str):
+        key = ("outer", side)
+        if key not in self._cache:
+            self._cache[key] = self._build_outer(side)
+        return self._cache[key]
+
+    def _build_outer(self, side: str):
+        structure, ellipse = self.structure, self.ellipse
+        e, k = structure.ends, structure.bands
+        sigma_lo, sigma_hi = self.on.hull
+        if side == "right":
+            bk = e[-1]
+            right_end = min(ellipse.real_crossing, sigma_hi)
+            if right_end <= bk:
+                return None
+            breaks = angular_breaks(right_end - bk, bk - e[-2], None)
+            return cumulative_integral(
+                _outer_integrand(structure, self.h_of, len(e) - 1, len(e), bk, right_end, 1), bk, right_end, breaks
+            )
+        a1 = e[0]
+        X_left = ellipse.center - ellipse.half_width * 0.5 * (ellipse.rho + 1 / ellipse.rho)
+        left_end = max(X_left, sigma_lo)
+        if left_end >= a1:
+            return None
+        # on (-∞, a_1): R^{1/2}/Q_h has sign (-1)^k (-1)^{#hard}; eff(x) = -∫_x^{a_1} eff'
+        sign = (-1) ** k * (-1) ** structure.hard_count
+        breaks = angular_breaks(a1 - left_end, None, e[1] - a1)
+        piece = cumulative_integral(_outer_integrand(structure, self.h_of, -1, 0, left_end, a1, sign), left_end, a1, breaks)
+        return _Reversed(piece)
 
 
 class _Reversed:
@@ -619,21 +639,56 @@ class _Reversed:
         return -(self.piece.total - self.piece.at_theta(theta))
 
 
+def _power_series(ratio: np.ndarray, coefficients: np.ndarray) -> np.ndarray:
+    """Σ_{m≥1} c_m ratio^m for |ratio| ≤ 1, by blocks of powers (vectorised, no Python loop over m)."""
+    ratio = np.asarray(ratio, dtype=complex)
+    flat = ratio.ravel()
+    out = np.zeros(flat.shape, dtype=complex)
+    block = 64
+    powers_in_block = np.cumprod(np.broadcast_to(flat[:, None], (flat.size, block)), axis=1)
+    start_power = np.ones(flat.shape, dtype=complex)
+    for start in range(0, len(coefficients), block):
+        chunk = coefficients[start : start + block]
+        out += start_power * (powers_in_block[:, : len(chunk)] @ chunk)
+        start_power = start_power * powers_in_block[:, -1]
+        if np.all(np.abs(start_power) < 1e-18):
+            break
+    return out.reshape(ratio.shape)
+
+
 def _g_series(ellipse, g_scaled, u):
-    ratio = ellipse.rho / u
-    series = np.zeros(u.shape, dtype=complex)
-    power = np.ones(u.shape, dtype=complex)
-    for coefficient in g_scaled:
-        power = power * ratio
-        series = series + coefficient * power
-    return math.log(ellipse.half_width / 2) + np.log(u) + series
+    """g(z(u)) = log(d/2) + log u + Σ_m g_m u^{-m}, from the coefficients scaled to |u| = ρ."""
+    return math.log(ellipse.half_width / 2) + np.log(u) + _power_series(ellipse.rho / u, g_scaled)
 
 
-def _log_potential_at(measure: EquilibriumMeasure, x: float) -> float:
+def _log_potentials(measure: EquilibriumMeasure, xs: np.ndarray) -> np.ndarray:
+    """U^μ at many points: one shared rule per band for the points far from it, graded splits otherwise."""
+    structure = measure.structure
+    total = np.zeros(xs.shape)
+    near_points = []
+    for j, (a, b) in enumerate(measure.support):
+        distance = np.maximum(a - xs, xs - b)
+        far = distance > 0.25 * (b - a)
+        if np.any(far):
+            rule = angular_rule(a, b, *_band_rule_distances(structure, j), points=20)
+            values = band_sign(structure, j) * measure.h(rule.x) * distance_product(structure, 2 * j, 2 * j + 1, rule)
+            weights = rule.weights * values / (2 * math.pi)
+            total[far] += -np.log(np.abs(xs[far, None] - rule.x[None, :])) @ weights
+        near_points.append(~far)
+    for i, x in enumerate(xs):
+        total[i] += sum(
+            _log_potential_at(measure, float(x), bands=[j]) for j in range(measure.bands) if near_points[j][i]
+        )
+    return total
+
+
+def _log_potential_at(measure: EquilibriumMeasure, x: float, bands=None) -> float:
     """∫ log 1/|x - y| ψ(y) dy with panels graded toward x when x lies in or near a band."""
     structure = measure.structure
     total = 0.0
     for j, (a, b) in enumerate(measure.support):
+        if bands is not None and j not in bands:
+            continue
         near_lo, near_hi = _band_rule_distances(structure, j)
         if a < x < b:
             pieces = [(a, x, "hi"), (x, b, "lo")]
@@ -713,25 +768,31 @@ def _off_support_regions(measure: EquilibriumMeasure) -> list[tuple[float, float
 
 
 def _effective_potential_minimum(measure: EquilibriumMeasure) -> tuple[float, float]:
-    best, place = math.inf, math.nan
+    """Min of the effective potential over samples of Σ \\ S (denser toward the ends) and its critical points."""
+    samples = []
     for lo, hi in _off_support_regions(measure):
-        xs = np.concatenate([lo + (hi - lo) * np.sin(np.linspace(0, math.pi / 2, 130)[1:-1]) ** 2, _critical_points(measure, lo, hi)])
-        values = measure.effective_potential(xs)
-        values = values[np.isfinite(values)]
-        if values.size and values.min() < best:
-            best = float(values.min())
-            place = float(xs[np.argmin(values)])
-    return (best if math.isfinite(best) else 0.0), place
+        fraction = np.sin(np.linspace(0, math.pi / 2, 66)[1:-1]) ** 2
+        samples.append(lo + (hi - lo) * fraction)
+        samples.append(_critical_points(measure, lo, hi))
+    if not samples:
+        return 0.0, math.nan
+    xs = np.concatenate(samples)
+    values = measure.effective_potential(xs)
+    finite = np.isfinite(values)
+    if not np.any(finite):
+        return 0.0, math.nan
+    i = int(np.argmin(np.where(finite, values, np.inf)))
+    return float(values[i]), float(xs[i])
 
 
 def _effective_potential_touches(measure: EquilibriumMeasure) -> list[tuple[float, float]]:
-    """Local minima of the effective potential at critical points strictly off the support."""
-    out = []
+    """Values of the effective potential at its critical points strictly off the support."""
+    points = []
     for lo, hi in _off_support_regions(measure):
         for x in _critical_points(measure, lo, hi):
-            if hi - lo <= 0 or min(x - lo, hi - x) < 1e-6 * (hi - lo):
-                continue
-            value = float(measure.effective_potential(np.array([x]))[0])
-            if np.isfinite(value):
-                out.append((float(x), value))
-    return out
+            if hi - lo > 0 and min(x - lo, hi - x) >= 1e-6 * (hi - lo):
+                points.append(float(x))
+    if not points:
+        return []
+    values = measure.effective_potential(np.array(points))
+    return [(x, float(v)) for x, v in zip(points, values) if np.isfinite(v)]

@@ -78,6 +78,24 @@ def _check_field_on(field: Field, on: IntervalSet) -> None:
             )
 
 
+def _check_values_on(field: Field, on: IntervalSet, lower: float, upper: float) -> None:
+    """V and V' must be real and finite on Σ ∩ [lower, upper] (sampled densely, ends included)."""
+    for a, b in on.clipped(lower, upper).intervals:
+        x = np.concatenate([[a, b], np.linspace(a, b, 2001)[1:-1]])
+        _sample_V(field, x)
+        with np.errstate(all="ignore"):
+            slopes = np.asarray(field.dV(x))
+        if np.iscomplexobj(slopes):
+            slopes = np.where(np.abs(slopes.imag) <= 1e-12 * (1 + np.abs(slopes.real)), slopes.real, np.nan)
+        slopes = np.broadcast_to(slopes, x.shape).astype(float)
+        bad = ~np.isfinite(slopes)
+        if np.any(bad):
+            raise InputError(
+                f"V' is not finite at x = {x[np.argmax(bad)]:.6g} in the set; the field must be differentiable there "
+                "(restrict the set with --on)"
+            )
+
+
 def _sample_V(field: Field, x: np.ndarray) -> np.ndarray:
     with np.errstate(all="ignore"):
         values = np.asarray(field.V(x))
@@ -146,6 +164,7 @@ def solve_signed(field: Field, on: IntervalSet) -> EquilibriumMeasure:
         raise InputError("the signed problem needs a compact set; give --on=a:b or a union a:b,c:d")
     structure = _all_hard(on.intervals)
     lo, hi = on.hull
+    _check_values_on(field, on, lo, hi)
     window = field_window(field, lo, hi)
     solution = solve_structure(window, structure)
     second = _variant_window(field, lo, hi)
@@ -322,16 +341,45 @@ def _solve_structure_search(window: Window, structure: BandStructure, on: Interv
     return solution
 
 
-def solve(field: Field, on: IntervalSet | None = None) -> EquilibriumMeasure:
+def solve(
+    field: Field,
+    on: IntervalSet | None = None,
+    guess: EquilibriumMeasure | BandStructure | None = None,
+) -> EquilibriumMeasure:
     """The equilibrium measure μ_V of ``field`` on ``on`` (default: the real line).
 
     The number of bands, their ends and the kind of each end are found
     automatically.  The result carries its verification figures; when they
     fail, ``verified`` is False and ``message`` names the figures.
+
+    Parameters
+    ----------
+    guess : a measure (or band structure) of a nearby field, e.g. the previous
+        point of a sweep.  Newton's method then starts from its structure;
+        when that does not lead to a verified measure the full search runs,
+        so a guess never changes the answer, only the time to it.
     """
     on = IntervalSet.real_line() if on is None else on
     _check_field_on(field, on)
-    window, structure = _shrink(field, on, _initial_window(field, on))
+    bounds = _initial_window(field, on)
+    _check_values_on(field, on, *bounds)
+    if guess is not None:
+        structure = guess.structure if isinstance(guess, EquilibriumMeasure) else guess
+        lo = min(bounds[0], structure.ends[0])
+        hi = max(bounds[1], structure.ends[-1])
+        window = field_window(field, max(lo, on.hull[0]), min(hi, on.hull[1]))
+        try:
+            measure = _search_from(field, on, window, structure)
+        except (NumericalFailure, ValueError, np.linalg.LinAlgError):
+            measure = None
+        if measure is not None and measure.verified:
+            return measure
+    window, structure = _shrink(field, on, bounds)
+    return _search_from(field, on, window, structure)
+
+
+def _search_from(field: Field, on: IntervalSet, window: Window, structure: BandStructure) -> EquilibriumMeasure:
+    """Stage 3 and the structural corrections suggested by the verification."""
     solution = _solve_structure_search(window, structure, on)
     measure = None
     for attempt in range(6):

@@ -30,7 +30,7 @@ from .algebraic import BandStructure, band_sign, field_window, solve_structure
 from .errors import InputError, NumericalFailure
 from .field import Field
 from .measure import EquilibriumMeasure, _effective_potential_touches, build_measure
-from .search import _sigma_piece_bounds, solve
+from .search import _initial_window, _sigma_piece_bounds, solve
 from .sets import IntervalSet
 
 
@@ -51,8 +51,10 @@ def structure_margin(field: Field, on: IntervalSet, structure: BandStructure) ->
     """Solve a fixed band structure for ``field`` and return its margin m and the solved structure."""
     ends = structure.ends
     span = ends[-1] - ends[0]
-    lo = max(on.hull[0], ends[0] - 0.15 * span)
-    hi = min(on.hull[1], ends[-1] + 0.15 * span)
+    # the window must see the whole region where a band could be born, not only the support
+    search_lo, search_hi = _initial_window(field, on)
+    lo = max(on.hull[0], min(ends[0] - 0.15 * span, search_lo))
+    hi = min(on.hull[1], max(ends[-1] + 0.15 * span, search_hi))
     window = field_window(field, lo, hi)
     solution = solve_structure(window, structure, bounds=_sigma_piece_bounds(on, ends))
     if not solution.converged:

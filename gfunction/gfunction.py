@@ -63,12 +63,14 @@ Local variables at the edges
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
-from scipy.special import roots_jacobi
 
 from equilibrium.errors import InputError, NumericalFailure
+
+from .quadrature import graded_jacobi_rule
 
 __all__ = ["GFunction", "g_function", "EdgeVariable"]
 
@@ -218,37 +220,27 @@ class GFunction:
         return (0.75 ** (2.0 / 3.0)) * (z - e) * np.cbrt(q0) * (q / q0) ** (1.0 / 3.0)
 
 
-def _jacobi_panel(beta: float, n: int):
-    """Gauss–Jacobi nodes/weights on [0, 1] for the weight t^beta."""
-    t, w = roots_jacobi(n, 0.0, beta)  # weight (1-x)^0 (1+x)^beta on [-1,1]
-    return (t + 1.0) / 2.0, w / 2.0 ** (1.0 + beta)
-
-
-_RULE_CACHE: dict = {}
-
-
+@lru_cache(maxsize=8)
 def _graded_rule(beta: float):
     """Composite rule on [0,1] for t^beta f(t), panels graded toward t = 0.
 
     Panels ``[0, 4^{-P+1}], …, [1/4, 1]``: Gauss–Jacobi on the first, with the
     factor ``t^beta`` kept in the weight; Gauss–Legendre with the factor in
-    the integrand on the others.  Returns ``(t, w)`` such that
-    ``∫_0^1 t^beta f(t) dt ≈ Σ w_i f(t_i)``.
+    the integrand on the others (every panel from
+    :func:`gfunction.quadrature.graded_jacobi_rule`).  Returns read-only
+    ``(t, w)`` such that ``∫_0^1 t^beta f(t) dt ≈ Σ w_i f(t_i)``.
     """
-    key = (beta, _SEGMENT_NODES, _SEGMENT_PANELS)
-    if key in _RULE_CACHE:
-        return _RULE_CACHE[key]
     edges = [0.0] + [4.0 ** (-p) for p in range(_SEGMENT_PANELS - 1, -1, -1)]
-    tj, wj = _jacobi_panel(beta, _SEGMENT_NODES)
-    tl, wl = np.polynomial.legendre.leggauss(_SEGMENT_NODES)
-    ts, ws = [tj * edges[1]], [wj * edges[1] ** (1.0 + beta)]
-    for lo, hi in zip(edges[1:-1], edges[2:]):
-        t = lo + (hi - lo) * (tl + 1.0) / 2.0
+    ts, ws = [], []
+    for i, (lo, hi) in enumerate(zip(edges[:-1], edges[1:])):
+        t, w, da, _ = graded_jacobi_rule(lo, hi, 0.0, beta if i == 0 else 0.0, n=_SEGMENT_NODES,
+                                         return_distances=True)
         ts.append(t)
-        ws.append(wl * (hi - lo) / 2.0 * t ** beta)
-    rule = (np.concatenate(ts), np.concatenate(ws))
-    _RULE_CACHE[key] = rule
-    return rule
+        ws.append(w if i == 0 else w * t ** beta)
+    t, w = np.concatenate(ts), np.concatenate(ws)
+    t.setflags(write=False)
+    w.setflags(write=False)
+    return t, w
 
 
 def _segment_integral(measure, e: float, beta: float, z: np.ndarray) -> np.ndarray:
@@ -268,16 +260,19 @@ def _segment_integral(measure, e: float, beta: float, z: np.ndarray) -> np.ndarr
 
 
 def _band_rule(measure, n: int):
-    """Nodes and weights with ``Σ w_i f(x_i) ≈ ∫ f dμ`` (Gauss–Jacobi per band)."""
+    """Nodes and weights with ``Σ w_i f(x_i) ≈ ∫ f dμ`` (Gauss–Jacobi per band).
+
+    The weight ``(x - a)^α (b - x)^β`` carries the edge behaviour of the
+    density (α, β = 1/2 soft, -1/2 hard); the smooth rest ``ψ / weight`` is
+    evaluated from the rule's accurate end distances.
+    """
     xs, ws = [], []
     for (a, b), (ka, kb) in zip(measure.support, measure.edges):
         alpha = 0.5 if ka == "soft" else -0.5
         beta = 0.5 if kb == "soft" else -0.5
-        t, wt = roots_jacobi(n, beta, alpha)  # (1-t)^beta (1+t)^alpha
-        x = (a + b) / 2.0 + (b - a) / 2.0 * t
-        smooth = measure.density(x) / ((x - a) ** alpha * (b - x) ** beta)
+        x, wt, da, db = graded_jacobi_rule(a, b, beta, alpha, n=n, return_distances=True)
         xs.append(x)
-        ws.append(wt * smooth * ((b - a) / 2.0) ** (1.0 + alpha + beta))
+        ws.append(wt * measure.density(x) / (da ** alpha * db ** beta))
     return np.concatenate(xs), np.concatenate(ws)
 
 

@@ -77,7 +77,8 @@ import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
 
-__all__ = ["ModelProblem", "model_problem", "gamma_factor", "lattice_decomposition", "jump_residuals"]
+__all__ = ["ModelProblem", "model_problem", "gamma_factor", "lattice_decomposition", "jump_residuals",
+           "GapAbelMap", "gap_abel_map"]
 
 _LIFT = 1e-300  # imaginary lift selecting the + boundary value on a cut
 
@@ -267,6 +268,68 @@ class ModelProblem:
         a2 = M1_12 * M1_21
         b = M2_12 / M1_12 - M1_22
         return {"M1_12": M1_12, "M1_21": M1_21, "M1_22": M1_22, "M2_12": M2_12, "a2": a2, "b": b}
+
+
+@dataclass(frozen=True)
+class GapAbelMap:
+    r"""The Abel map ``u_+(x)`` on gap ``j`` as a Chebyshev series in the angle ``t``.
+
+    ``x(t) = lo + (hi - lo)(1 - cos t)/2``, ``t ∈ [0, π]``, ``lo = b_j``, ``hi = a_{j+1}``.
+    Near a branch point ``u(x) - u(e)`` is ``(x - e)^{1/2}`` times an analytic
+    function and ``(x - lo)^{1/2} = (hi - lo)^{1/2} sin(t/2)``, so ``u(x(t))`` is
+    analytic on a neighbourhood of ``[0, π]`` (the other branch points are its
+    nearest singularities) and its Chebyshev interpolant converges
+    geometrically (Trefethen, Approximation Theory and Approximation
+    Practice, SIAM 2013, Thm 8.2).  ``error`` is the measured maximum
+    deviation from the direct Abel map at the points halfway between the
+    interpolation nodes; when it exceeds the tolerance ``coefficients`` is
+    ``None`` and evaluation falls back to the direct map.
+    """
+
+    model: Any
+    gap: int
+    lo: float
+    hi: float
+    coefficients: np.ndarray | None     # (degree + 1, g) Chebyshev coefficients in s = 2t/π - 1
+    error: float
+
+    def x(self, t) -> np.ndarray:
+        t = np.asarray(t, dtype=float)
+        return self.lo + (self.hi - self.lo) * (1 - np.cos(t)) / 2
+
+    def __call__(self, t) -> np.ndarray:
+        """``u_+(x(t))``, shape ``t.shape + (g,)``."""
+        t = np.asarray(t, dtype=float)
+        if self.coefficients is None:
+            return self.model.abel(self.x(t) + 1j * _LIFT)
+        s = 2.0 * t / np.pi - 1.0
+        return np.polynomial.chebyshev.chebval(s, self.coefficients).transpose(*range(1, t.ndim + 1), 0) \
+            if t.ndim else np.polynomial.chebyshev.chebval(s, self.coefficients)
+
+
+def gap_abel_map(mp: "ModelProblem", j: int, *, tolerance: float = 1e-14, max_degree: int = 256) -> GapAbelMap:
+    """Chebyshev interpolant of the Abel map on gap ``j`` (0-based), degree doubled until certified."""
+    if not 0 <= j < mp.genus:
+        raise InputError(f"gap index must be in 0..{mp.genus - 1}; got {j}")
+    lo, hi = mp.support[j][1], mp.support[j + 1][0]
+    cheb = np.polynomial.chebyshev
+    deg = 32
+    while True:
+        # Chebyshev points of the first kind in s, their midpoints for the check
+        s = np.cos(np.pi * (np.arange(deg + 1) + 0.5) / (deg + 1))
+        ts = np.pi * (s + 1) / 2
+        u = mp.abel(lo + (hi - lo) * (1 - np.cos(ts)) / 2 + 1j * _LIFT)
+        coef = cheb.chebfit(s, u, deg)
+        sm = np.cos(np.pi * np.arange(1, deg + 1) / (deg + 1))
+        tm = np.pi * (sm + 1) / 2
+        um = mp.abel(lo + (hi - lo) * (1 - np.cos(tm)) / 2 + 1j * _LIFT)
+        err = float(np.max(np.abs(cheb.chebval(sm, coef).T - um)))
+        scale = max(1.0, float(np.max(np.abs(u))))
+        if err <= tolerance * scale:
+            return GapAbelMap(mp, j, lo, hi, coef, err)
+        if 2 * deg > max_degree:
+            return GapAbelMap(mp, j, lo, hi, None, err)
+        deg *= 2
 
 
 def _gap_points(support) -> np.ndarray:

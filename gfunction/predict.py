@@ -44,8 +44,9 @@ from scipy.special import ai_zeros
 from equilibrium.errors import InputError, NumericalFailure
 
 from .gfunction import GFunction, g_function
-from .outer import ModelProblem, model_problem
+from .outer import ModelProblem, gamma_factor, gap_abel_map, model_problem
 from .quadrature import graded_jacobi_rule
+from .theta import theta_lattice, theta_shift_table
 
 __all__ = ["Predictor", "Prediction", "harmonic_phases", "predictor"]
 
@@ -120,8 +121,6 @@ class Predictor:
     model: ModelProblem
     omega_hat: np.ndarray
     szego: Any = None
-    _gap_grid: tuple = field(default=None, repr=False)
-    _arcs: tuple = field(default=None, repr=False)
 
     @property
     def genus(self) -> int:
@@ -177,39 +176,65 @@ class Predictor:
         return (Mp * np.exp(degree * gp) + Mm * np.exp(degree * gm)).real
 
     # -- zeros ---------------------------------------------------------------
-    def _m11_on(self, zs, u, W):
-        """M_11 at fixed points ``zs`` (P,) with precomputed Abel values ``u`` (P, g), phases W (N, g)."""
-        from .outer import gamma_factor
+    # M_11 = A θ(u+d+W)/θ(u+d) · θ(u∞+d)/θ(u∞+d+W) (outer.py).  W is real, so each
+    # theta of the numerator has the same imaginary part, hence the same exponent
+    # π yᵀY⁻¹y, as the matching denominator: the scaled parts divide exactly, and
+    # for fixed points the numerator over all degrees is one matrix product
+    # (theta.ThetaShiftTable).
+    def _c1(self, W) -> np.ndarray:
+        """θ(u∞+d)/θ(u∞+d+W) for phases W (N, g); shape (N,)."""
+        mp = self.model
+        tab = theta_shift_table((mp.u_infinity + mp.d)[None, :], mp.tau)
+        return tab.unshifted()[0] / tab.oscillatory(W)[:, 0]
+
+    def _m11_table(self, zs, us, W, c1):
+        """M_11 at fixed points ``zs`` (P,) with Abel values ``us`` (P, g), phases W (N, g): (N, P)."""
         mp = self.model
         gam = gamma_factor(np.where(zs.imag == 0, zs + 1e-300j, zs), mp.support)
         A = (gam + 1 / gam) / 2
-        d, ui = mp.d, mp.u_infinity
-        num = mp._theta(u[None, :, :] + d + W[:, None, :])
-        den = mp._theta(u + d)
-        c1n = mp._theta(ui + d)
-        c1d = mp._theta(ui + d + W)
-        ratio = (num[0] / den[0][None, :]) * np.exp(num[1] - den[1][None, :])
-        c1 = (c1n[0] / c1d[0]) * np.exp(c1n[1] - c1d[1])
-        return A[None, :] * ratio * c1[:, None]
+        tab = theta_shift_table(us + mp.d, mp.tau)
+        return (A / tab.unshifted())[None, :] * tab.oscillatory(W) * c1[:, None]
+
+    def _m11_pointwise(self, xs, us, W, c1, lattice):
+        """M_11 at point i with phases W[i] (pointwise pairing), real xs on a gap."""
+        mp = self.model
+        gam = gamma_factor(xs + 1e-300j, mp.support)
+        A = (gam + 1 / gam) / 2
+        tab = theta_shift_table(us + mp.d, mp.tau, lattice=lattice)
+        return A * tab.paired(W) / tab.unshifted() * c1
 
     def gap_zeros(self, degrees, scalings=None) -> tuple[np.ndarray, dict]:
-        """Zero of π in each gap (NaN when none), shape (len(degrees), g)."""
+        """Zero of π in each gap (NaN when none), shape (len(degrees), g).
+
+        Sign change of the real function ``M_11+(x) e^{iπ w_j}`` on a grid of
+        the angle ``t`` (``x = lo + (hi-lo)(1-cos t)/2``) for all degrees at
+        once, then Illinois (regula falsi) steps on the bracketing cell, with
+        the Abel map from its Chebyshev interpolant on the gap
+        (``outer.gap_abel_map``).
+        """
         w = self.phases(degrees, scalings)
         N = w.shape[0]
         out = np.full((N, self.genus), np.nan)
         worst_imag = 0.0
+        abel_error = 0.0
         W = self.model.W(w)
+        c1 = self._c1(W)
         for j in range(self.genus):
             lo, hi = self.g.support[j][1], self.g.support[j + 1][0]
+            gap_abel = gap_abel_map(self.model, j)
+            abel_error = max(abel_error, gap_abel.error)
             # θ-variable x = lo + (hi-lo)(1-cos θ)/2 keeps M_11 smooth up to the ends
             th = np.linspace(0.0, np.pi, 161)[1:-1]
-            xs = lo + (hi - lo) * (1 - np.cos(th)) / 2
-            us = self.model.abel(xs + 1e-300j)
-            vals = self._m11_on(xs + 0j, us, W) * np.exp(1j * np.pi * w[:, j])[:, None]
+            xs = gap_abel.x(th)
+            us = gap_abel(th)
+            vals = self._m11_table(xs + 0j, us, W, c1) * np.exp(1j * np.pi * w[:, j])[:, None]
             worst_imag = max(worst_imag, float(np.max(np.abs(vals.imag) / (1 + np.abs(vals)))))
             r = vals.real
             s = np.sign(r)
             change = s[:, :-1] * s[:, 1:] < 0
+            # more than one sign change would contradict "at most one zero per gap"
+            if np.any(change.sum(axis=1) > 1):
+                raise NumericalFailure(f"more than one sign change of M_11 in gap {j + 1}")
             has = change.any(axis=1)
             if not np.any(has):
                 continue
@@ -217,35 +242,32 @@ class Predictor:
             rows = np.nonzero(has)[0]
             tl, tr = th[idx[rows]], th[idx[rows] + 1]
             fl = r[rows, idx[rows]]
-            Wr = W[rows]
-            # vectorised Illinois (regula falsi) on the bracketing grid cell
             fr = r[rows, idx[rows] + 1]
+            Wr, c1r, ph = W[rows], c1[rows], np.exp(1j * np.pi * w[rows, j])
+            # one lattice for every Illinois step: it covers the shifts of the whole gap
+            # (a 1 % larger ball than the dense sample needs; coverage is re-checked per call)
+            tt = np.linspace(0.0, np.pi, 1025)
+            cc = (gap_abel(tt) + self.model.d).imag @ np.linalg.inv(self.model.tau.imag)
+            lattice = theta_lattice(self.model.tau, shifts=1.01 * (cc - np.rint(cc)))
+            # vectorised Illinois (regula falsi) on the bracketing grid cell; a row stops once its
+            # step is below 1e-15 of the angle range or M_11 vanishes exactly (at most 10 steps)
+            active = np.arange(rows.size)
             for _ in range(10):
-                tm = tr - fr * (tr - tl) / (fr - fl)
-                tm = np.where(np.isfinite(tm), tm, 0.5 * (tl + tr))
-                xm = lo + (hi - lo) * (1 - np.cos(tm)) / 2
-                um = self.model.abel(xm + 1e-300j)
-                fm = (self._m11_diag(xm, um, Wr) * np.exp(1j * np.pi * w[rows, j])).real
-                same = np.sign(fm) == np.sign(fr)
+                a_ = active
+                tm = tr[a_] - fr[a_] * (tr[a_] - tl[a_]) / (fr[a_] - fl[a_])
+                tm = np.where(np.isfinite(tm), tm, 0.5 * (tl[a_] + tr[a_]))
+                fm = (self._m11_pointwise(gap_abel.x(tm), gap_abel(tm), Wr[a_], c1r[a_], lattice) * ph[a_]).real
+                same = np.sign(fm) == np.sign(fr[a_])
                 # Illinois: halve the retained end's value when the same end is kept
-                fl = np.where(same, fl * 0.5, fr)
-                tl = np.where(same, tl, tr)
-                tr, fr = tm, fm
-            tl = tr
-            out[rows, j] = lo + (hi - lo) * (1 - np.cos(0.5 * (tl + tr))) / 2
-            # more than one sign change would contradict "at most one zero per gap"
-            if np.any(change.sum(axis=1) > 1):
-                raise NumericalFailure(f"more than one sign change of M_11 in gap {j + 1}")
-        return out, {"gap_realness": worst_imag}
-
-    def _m11_diag(self, xs, us, W):
-        """M_11 at point i with phases W[i] (pointwise pairing)."""
-        from .outer import gamma_factor
-        mp = self.model
-        gam = gamma_factor(xs + 1e-300j, mp.support)
-        A = (gam + 1 / gam) / 2
-        d, ui = mp.d, mp.u_infinity
-        return A * mp._ratio(us + d + W, us + d) * mp._ratio(ui + d + 0 * W, ui + d + W)
+                fl[a_] = np.where(same, fl[a_] * 0.5, fr[a_])
+                tl[a_] = np.where(same, tl[a_], tr[a_])
+                done = (fm == 0.0) | (np.abs(tm - tr[a_]) <= 1e-15 * np.pi)
+                tr[a_], fr[a_] = tm, fm
+                active = a_[~done]
+                if active.size == 0:
+                    break
+            out[rows, j] = gap_abel.x(tr)
+        return out, {"gap_realness": worst_imag, "gap_abel_interpolation": abel_error}
 
     def band_counts(self, degrees, scalings=None, gap_zeros=None) -> tuple[np.ndarray, dict]:
         """Number of zeros of π in each band (argument principle, module docstring)."""
@@ -256,6 +278,7 @@ class Predictor:
         w = self.phases(degrees, scalings)
         n = N.astype(float) if scalings is None else np.broadcast_to(np.asarray(scalings, float), N.shape)
         W = self.model.W(w)
+        c1 = self._c1(W)
         if gap_zeros is None:
             gap_zeros, _ = self.gap_zeros(degrees, scalings)
         right = np.zeros((len(N), self.genus), dtype=int)
@@ -263,27 +286,32 @@ class Predictor:
         worst = 0.0
         bk = self.g.support[-1][1]
         x1 = bk + 0.5 * (bk - self.g.support[0][0])
+        # unreduced phases n Ω_j + (N - n) Ω̂_j - c_j: the argument of e^{n g_+ + (N-n) ĝ_+} D_+^{-1} on gap j over π
+        raw = n[:, None] * np.asarray(self.g.omega)[None, :] + (N - n)[:, None] * self.omega_hat[None, :]
+        if self.szego is not None:
+            raw = raw - self.szego.phase_shift[None, :]
+        t = np.linspace(np.pi, 0.0, 97)
         for j in range(self.genus):
             lo, hi = self.g.support[j][1], self.g.support[j + 1][0]
             cands = [lo + (hi - lo) / 3, lo + 2 * (hi - lo) / 3]
-            res = []
-            for x0 in cands:
+            # start the contour at the third of the gap farther from the gap zero
+            z = np.nan_to_num(gap_zeros[:, j], nan=1e300)
+            far = np.abs(z - cands[0]) >= np.abs(z - cands[1])
+            choice = np.where(far, 0, 1)
+            x0s[:, j] = np.where(far, cands[0], cands[1])
+            cnt = np.empty(len(N))
+            for ci, x0 in enumerate(cands):
+                rows = np.nonzero(choice == ci)[0]
+                if rows.size == 0:
+                    continue
                 c, r = 0.5 * (x0 + x1), 0.5 * (x1 - x0)
-                t = np.linspace(np.pi, 0.0, 97)
                 zs = c + r * np.exp(1j * t)
                 zs[0], zs[-1] = x0 + 0j, x1 + 0j
                 us = self.model.abel(zs + np.where(zs.imag == 0, 1e-300j, 0))
-                m = self._m11_on(zs, us, W)
+                m = self._m11_table(zs, us, W[rows], c1[rows])
                 ph = np.unwrap(np.angle(m), axis=1)
-                # with a factor π ≈ D_∞ M_11 e^{ng}/D and arg D_+ = π c_j on the gap, arg D = 0 right of b_k
-                shift = self.szego.phase_shift[j] if self.szego is not None else 0.0
-                cnt = n * self.g.omega[j] - shift + (ph[:, 0] - ph[:, -1]) / np.pi
-                # the exact phase e^{iπ nΩ_j} multiplies M_11+ into the reals: count is integral
-                res.append(cnt)
-            z = gap_zeros[:, j]
-            far = np.abs(np.nan_to_num(z, nan=1e300) - cands[0]) >= np.abs(np.nan_to_num(z, nan=1e300) - cands[1])
-            cnt = np.where(far, res[0], res[1])
-            x0s[:, j] = np.where(far, cands[0], cands[1])
+                # the exact phase e^{iπ w_j} multiplies M_11+ into the reals: the count is integral
+                cnt[rows] = raw[rows, j] + (ph[:, 0] - ph[:, -1]) / np.pi
             ri = np.round(cnt)
             worst = max(worst, float(np.max(np.abs(cnt - ri))))
             right[:, j] = ri.astype(int)

@@ -72,6 +72,8 @@ __all__ = [
     "theta_gradient",
     "theta_lattice",
     "ThetaLattice",
+    "ThetaShiftTable",
+    "theta_shift_table",
 ]
 
 _CHUNK_ENTRIES = 1_500_000  # arguments × lattice points per block (memory ~ 24 MB complex)
@@ -250,6 +252,15 @@ class ThetaLattice:
     points: np.ndarray       # (N, g) integer lattice points
     value_bound: float
     gradient_tail: float     # bound of Σ_tail ‖v‖ e^{-‖v‖²}
+    shift_radius: float = float("inf")   # the point set covers every shift r with ‖√πT r‖ ≤ this
+    gradient: bool = False   # radius also chosen for the gradient tail
+
+    def covers(self, shifts: np.ndarray) -> bool:
+        """True if every shift r (rows of ``shifts``) satisfies ‖√πT r‖ ≤ ``shift_radius``."""
+        r = np.asarray(shifts, dtype=float).reshape(-1, self.T.shape[0])
+        if r.size == 0:
+            return True
+        return bool(np.max(np.linalg.norm(r @ (np.sqrt(np.pi) * self.T).T, axis=1)) <= self.shift_radius)
 
 
 def theta_lattice(tau: ArrayLike, *, tol: float = 1e-14, gradient: bool = False,
@@ -290,7 +301,8 @@ def theta_lattice(tau: ArrayLike, *, tol: float = 1e-14, gradient: bool = False,
     pts = _ellipsoid_points(S, big, max_points)
     return ThetaLattice(
         tau=t, T=T, Yinv=np.linalg.inv(Y), Tinv_row_norm=row, rho=rho, radius=R, points=pts,
-        value_bound=_tail_sum(g, rho, R, 0), gradient_tail=_tail_sum(g, rho, R, 1))
+        value_bound=_tail_sum(g, rho, R, 0), gradient_tail=_tail_sum(g, rho, R, 1),
+        shift_radius=shift, gradient=gradient)
 
 
 # ---------------------------------------------------------------------------
@@ -396,7 +408,7 @@ def _characteristic(characteristic, g: int):
     return al, be
 
 
-def _evaluate(u, tau, tol, gradient, characteristic, max_points):
+def _evaluate(u, tau, tol, gradient, characteristic, max_points, lattice=None):
     t = _period_matrix(tau)
     g = t.shape[0]
     Y = t.imag
@@ -411,7 +423,12 @@ def _evaluate(u, tau, tol, gradient, characteristic, max_points):
     # the lattice only has to cover the shifts r = c - round(c) that actually occur
     # (c computed exactly as in _scaled_sum, so the covered shifts are the ones summed)
     c = z.imag @ np.linalg.inv(Y)
-    lat = theta_lattice(t, tol=tol, gradient=gradient, max_points=max_points, shifts=c - np.rint(c))
+    r = c - np.rint(c)
+    if (lattice is not None and (lattice.gradient or not gradient) and lattice.tau.shape == t.shape
+            and np.array_equal(lattice.tau, t) and lattice.covers(r)):
+        lat = lattice
+    else:
+        lat = theta_lattice(t, tol=tol, gradient=gradient, max_points=max_points, shifts=r)
     osc, expo, grad, c = _scaled_sum(z, lat, gradient)
     if char is not None:
         phase = np.exp(1j * pre.imag)
@@ -478,15 +495,21 @@ def riemann_theta(u: ArrayLike, tau: ArrayLike, *, tol: float = 1e-14, gradient:
 
 def riemann_theta_scaled(u: ArrayLike, tau: ArrayLike, *, tol: float = 1e-14,
                          characteristic: tuple[ArrayLike, ArrayLike] | None = None,
-                         max_points: int = 2_000_000) -> tuple[np.ndarray, np.ndarray]:
+                         max_points: int = 2_000_000,
+                         lattice: ThetaLattice | None = None) -> tuple[np.ndarray, np.ndarray]:
     r"""Return ``(oscillatory, exponent)`` with θ(u|τ) = oscillatory · exp(exponent).
 
     ``exponent = π yᵀ(Im τ)⁻¹y`` (y = Im u; plus the real part of the
     characteristic prefactor), so ``|oscillatory|`` stays O(1) however large
     ``Im u`` is.  Same parameters and errors as :func:`riemann_theta`; the
     truncation bound of ``oscillatory`` is ``tol``.
+
+    ``lattice`` -- a :func:`theta_lattice` of the same τ to reuse (saves the
+    enumeration in repeated calls).  It is used only when it covers the
+    shifts of these arguments (:meth:`ThetaLattice.covers`); its own ``tol``
+    then applies.  Otherwise a new lattice is built as without it.
     """
-    _, batch, osc, expo, _, _ = _evaluate(u, tau, tol, False, characteristic, max_points)
+    _, batch, osc, expo, _, _ = _evaluate(u, tau, tol, False, characteristic, max_points, lattice)
     return osc.reshape(batch), expo.reshape(batch)
 
 
@@ -496,3 +519,111 @@ def theta_gradient(u: ArrayLike, tau: ArrayLike, *, tol: float = 1e-14,
     """Gradient ∂θ/∂u_j, shape (..., g); shorthand for ``riemann_theta(..., gradient=True).gradient``."""
     return riemann_theta(u, tau, tol=tol, gradient=True, characteristic=characteristic,
                          max_points=max_points).gradient
+
+
+# ---------------------------------------------------------------------------
+# fixed arguments, many real shifts
+# ---------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class ThetaShiftTable:
+    r"""The terms of θ(u_p + s | τ) for fixed arguments ``u_p`` and any real shift ``s``.
+
+    For real ``s`` the imaginary part of the argument, hence ``c = Y⁻¹ Im u_p``,
+    ``k_p = round(c)``, the exponent ``π yᵀY⁻¹y`` and the lattice of the
+    module docstring do not depend on ``s``.  With ``m = n - k_p``
+
+        θ̂(u_p + s) = Σ_n C_pn e^{2πi mᵀs},   C_pn = exp(πi mᵀτm + 2πi mᵀu_p - π yᵀY⁻¹y),
+
+    so that for shifts ``s_q`` the whole (q, p) table is one matrix product
+    ``e^{2πi n s_q} · C_pᵀ`` times ``e^{-2πi k_pᵀ s_q}``.  The terms and the
+    truncation bound are those of :func:`riemann_theta_scaled` (same lattice,
+    same radius), so the two agree to rounding.
+
+    Attributes
+    ----------
+    lattice : ThetaLattice
+    offsets : float ndarray (P, g)     ``k_p``
+    terms : complex ndarray (P, N)     ``C_pn``, ``|C_pn| = exp(-‖v_n‖²) ≤ 1``
+    exponent : float ndarray (P,)      ``π yᵀY⁻¹y``
+    truncation_bound : float           bound of the neglected tail of every entry
+    """
+
+    lattice: ThetaLattice
+    offsets: np.ndarray
+    terms: np.ndarray
+    exponent: np.ndarray
+    truncation_bound: float
+
+    def oscillatory(self, shifts: ArrayLike) -> np.ndarray:
+        """θ̂(u_p + s_q) for real shifts ``s`` (Q, g); shape (Q, P).  θ = θ̂ · exp(exponent[p])."""
+        g = self.offsets.shape[1]
+        s = np.asarray(shifts, dtype=float)
+        if g == 1 and (s.ndim == 0 or s.shape[-1] != 1):
+            s = s[..., None]
+        if s.ndim != 2 or s.shape[1] != g or not np.all(np.isfinite(s)):
+            raise InputError(f"shifts must be a finite real array of shape (Q, {g}); got shape {np.shape(shifts)}")
+        pts = self.lattice.points.astype(float)
+        P, N = self.terms.shape
+        out = np.empty((s.shape[0], P), dtype=complex)
+        step = max(1, _CHUNK_ENTRIES // max(N + P, 1))
+        for a in range(0, s.shape[0], step):
+            sl = slice(a, a + step)
+            E = np.exp(2j * np.pi * (s[sl] @ pts.T))                      # (q, N)
+            out[sl] = (E @ self.terms.T) * np.exp(-2j * np.pi * (s[sl] @ self.offsets.T))
+        return out
+
+    def paired(self, shifts: ArrayLike) -> np.ndarray:
+        """θ̂(u_p + s_p) for one real shift per argument (``shifts`` (P, g)); shape (P,)."""
+        s = np.asarray(shifts, dtype=float).reshape(self.offsets.shape)
+        if not np.all(np.isfinite(s)):
+            raise InputError("shifts must be finite real numbers")
+        pts = self.lattice.points.astype(float)
+        # (n - k_p)ᵀ s_p as a matrix product
+        phase = s @ pts.T - np.einsum("pi,pi->p", self.offsets, s)[:, None]
+        return (self.terms * np.exp(2j * np.pi * phase)).sum(axis=1)
+
+    def unshifted(self) -> np.ndarray:
+        """θ̂(u_p) (shift 0); shape (P,)."""
+        return self.terms.sum(axis=1)
+
+
+def theta_shift_table(u: ArrayLike, tau: ArrayLike, *, tol: float = 1e-14,
+                      max_points: int = 2_000_000, lattice: ThetaLattice | None = None) -> ThetaShiftTable:
+    """Tabulate the theta terms of the arguments ``u`` (P, g) for later real shifts.
+
+    See :class:`ThetaShiftTable`; errors as :func:`riemann_theta`.  ``lattice``
+    is reused when it belongs to τ and covers the shifts of ``u`` (as in
+    :func:`riemann_theta_scaled`).
+    """
+    t = _period_matrix(tau)
+    g = t.shape[0]
+    Y = t.imag
+    _cholesky_upper(Y)
+    z, _ = _arguments(u, g)
+    c = z.imag @ np.linalg.inv(Y)
+    k = np.rint(c)
+    if (lattice is not None and lattice.tau.shape == t.shape and np.array_equal(lattice.tau, t)
+            and lattice.covers(c - k)):
+        lat = lattice
+    else:
+        lat = theta_lattice(t, tol=tol, max_points=max_points, shifts=c - k)
+    c = z.imag @ lat.Yinv                                  # exactly as in _scaled_sum
+    k = np.rint(c)
+    exponent = np.pi * np.einsum("pi,pi->p", z.imag, c)
+    pts = lat.points.astype(float)
+    P, N = z.shape[0], pts.shape[0]
+    terms = np.empty((P, N), dtype=complex)
+    step = max(1, _CHUNK_ENTRIES // max(N, 1))
+    # with m = n - k_p: mᵀτm = nᵀτn - 2 nᵀτk_p + k_pᵀτk_p and mᵀu_p = nᵀu_p - k_pᵀu_p (matrix products)
+    a_n = np.einsum("ni,ij,nj->n", pts, t, pts)
+    tk = k @ t                                            # (P, g), τ symmetric
+    kk = np.einsum("pi,pi->p", tk, k)
+    ku = np.einsum("pi,pi->p", k, z)
+    for a in range(0, P, step):
+        sl = slice(a, a + step)
+        quad = a_n[None, :] - 2.0 * (tk[sl] @ pts.T) + kk[sl, None]
+        lin = z[sl] @ pts.T - ku[sl, None]
+        terms[sl] = np.exp(1j * np.pi * quad + 2j * np.pi * lin - exponent[sl, None])
+    return ThetaShiftTable(lattice=lat, offsets=k, terms=terms, exponent=exponent,
+                           truncation_bound=lat.value_bound)

@@ -40,7 +40,10 @@ class _Parser(argparse.ArgumentParser):
     """argparse that reports usage errors as one line and exit code 2."""
 
     def error(self, message: str) -> None:  # pragma: no cover - exercised via CLI tests
-        self.exit(2, f"workbench: error: {message} (see 'workbench --help')\n")
+        hint = "see 'workbench --help'"
+        if "expected one argument" in message:
+            hint = "a value that starts with '-' must be attached with '=', e.g. --potential=-x^3+x^4 or --on=-1:1"
+        self.exit(2, f"workbench: error: {message} ({hint})\n")
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -466,15 +466,26 @@ def _fast_field(payload: Mapping[str, Any], values: Mapping[str, float]):
     return Field.from_expression(payload["expression"], parameters=dict(values))
 
 
+#: per worker process: the last measure computed, a warm start for the next grid point.
+#: ``solve(..., guess=...)`` returns the same answer with or without it (it only saves time).
+_WARM_START: dict[str, Any] = {}
+
+
 def equilibrium_point_fast(payload: Mapping[str, Any], params: Mapping[str, float]) -> dict[str, Any]:
-    """:func:`equilibrium_point` with the field built by :func:`_fast_field`."""
+    """:func:`equilibrium_point` with the field built by :func:`_fast_field` and a warm start."""
     from equilibrium import solve, solve_signed
 
     values = dict(payload["parameters"])
     values.update(params)
     field_ = _fast_field(payload, values)
     on = _interval_set(tuple(tuple(p) for p in payload["intervals"]))
-    mu = (solve_signed if payload["signed"] else solve)(field_, on=on)
+    if payload["signed"]:
+        mu = solve_signed(field_, on=on)
+    else:
+        key = json.dumps([payload["expression"], payload["intervals"]], default=str)
+        mu = solve(field_, on=on, guess=_WARM_START.get(key))
+        _WARM_START.clear()
+        _WARM_START[key] = mu
     return _measure_summary(mu)
 
 

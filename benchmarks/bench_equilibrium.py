@@ -1,0 +1,68 @@
+"""Speed of the equilibrium solver; prints a table.
+
+Targets (issue #2, medians after warm-up, one process):
+  * a polynomial field with up to three bands, full positive solve with verification: 20 ms;
+  * the signed problem on five intervals: 10 ms;
+  * a gap of 1e-8 of the hull: at most twice the time of a wide gap.
+
+Usage::
+
+    python benchmarks/bench_equilibrium.py [--repeats 30]
+"""
+
+from __future__ import annotations
+
+import os
+
+for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):  # as the workbench does
+    os.environ.setdefault(_name, "1")
+
+import argparse
+import statistics
+import time
+
+import numpy as np
+
+from equilibrium import Field, IntervalSet, solve, solve_signed
+
+
+def median_time(function, repeats: int) -> float:
+    for _ in range(3):
+        function()
+    times = []
+    for _ in range(repeats):
+        start = time.perf_counter()
+        function()
+        times.append(time.perf_counter() - start)
+    return statistics.median(times)
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--repeats", type=int, default=30)
+    args = parser.parse_args()
+    five = [(-3.0, -2.2), (-1.9, -1.0), (-0.2, 0.4), (1.0, 1.3), (2.0, 3.5)]
+    tiny = [(-3.0, -2.2), (-1.9, -1.0), (-0.2, 0.25), (0.25 + 6.5e-8, 1.3), (2.0, 3.5)]  # gap 1e-8 of the hull
+    field = Field.from_expression("x**2/2 + 0.1*x**3/3")
+    rows = [
+        ("positive, 1 band  (x^4/4 - x^2/2 + x/5)", lambda: solve(Field.from_coefficients([0, 0.2, -0.5, 0, 0.25])), 20.0),
+        ("positive, 2 bands (x^4/4 - 3x^2/2 + x/5)", lambda: solve(Field.from_coefficients([0, 0.2, -1.5, 0, 0.25])), 20.0),
+        ("positive, 3 bands (sextic triple well)", lambda: solve(Field.from_coefficients([0, 0.1, 3.0, 0, -2.6, 0, 0.5])), 20.0),
+        ("positive, 1 band, cosh(x)", lambda: solve(Field.from_expression("cosh(x)")), None),
+        ("signed, 5 intervals, wide gaps", lambda: solve_signed(field, IntervalSet(five)), 10.0),
+        ("signed, 5 intervals, one gap 1e-8", lambda: solve_signed(field, IntervalSet(tiny)), None),
+    ]
+    print(f"load average: {os.getloadavg()[0]:.2f}   repeats: {args.repeats}")
+    print(f"{'case':<44} {'median ms':>10} {'target ms':>10}  met")
+    results = {}
+    for name, function, target in rows:
+        seconds = median_time(function, args.repeats)
+        results[name] = seconds
+        met = "" if target is None else ("yes" if seconds * 1e3 <= target else "NO")
+        print(f"{name:<44} {seconds * 1e3:10.2f} {'' if target is None else f'{target:10.0f}':>10}  {met}")
+    ratio = results["signed, 5 intervals, one gap 1e-8"] / results["signed, 5 intervals, wide gaps"]
+    print(f"{'tiny gap / wide gap time ratio':<44} {ratio:10.2f} {'2':>10}  {'yes' if ratio <= 2 else 'NO'}")
+
+
+if __name__ == "__main__":
+    main()
