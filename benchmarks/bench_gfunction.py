@@ -38,7 +38,7 @@ def main():
         ("g-function, 3 bands (with checks)", best(lambda: g_function(mu)), None),
         ("jump residuals, 3 bands", best(lambda: jump_residuals(pred.model, [0.3, 0.7])), None),
         ("a, b for 1000 degrees", best(lambda: pred.recurrence(degrees)), 1.0),
-        ("a, b, gap zeros, band counts, 1000 degrees", best(lambda: pred.predict(degrees), 1), 1.0),
+        ("a, b, gap zeros, band counts, 1000 degrees", best(lambda: pred.predict(degrees)), 1.0),
         ("Szegő function, 3 bands, FH + smooth factor", best(lambda: szego_function(factor, mu.support)), None),
         ("Airy matching P N^-1 - I, one edge, 5 degrees", best(lambda: matching_mismatch(pred, 5, [100, 200, 400, 800, 1600])), None),
     ]

@@ -819,6 +819,9 @@ def _from_sympy(expr: sympy.Expr, variable: str) -> Node:
             return Power(walk(base), walk(exponent))
         if e.func in _FROM_SYMPY and len(e.args) == 1:
             return Call(_FROM_SYMPY[e.func], walk(e.args[0]))
+        if e is sympy.I:
+            raise ExpressionError("the symbolic form is complex-valued (e.g. a negative constant raised to a "
+                                  "power that depends on x), which cannot be evaluated here; use a positive base")
         raise ExpressionError(f"the symbolic form contains {type(e).__name__}, which cannot be evaluated "
                               "here; use the functions " + ", ".join(ALLOWED_FUNCTIONS))
     return walk(expr)
@@ -960,7 +963,8 @@ class Expression:
 
 def _check_name(name, role: str, variable: str | None = None) -> str:
     if not isinstance(name, str) or not name.isascii() or not name.isidentifier() or keyword.iskeyword(name):
-        raise ExpressionError(f"{role} name {name!r} is not allowed; use an ASCII identifier such as t or a1")
+        shown = repr(name)[:40] if isinstance(name, str) else f"of type {type(name).__name__}"
+        raise ExpressionError(f"{role} name {shown} is not allowed; use an ASCII identifier such as t or a1")
     taken = set(ALLOWED_FUNCTIONS) | {"pi", "sign"} | ({variable} if variable else set())
     if name in taken:
         raise ExpressionError(f"{role} name '{name}' collides with the variable, pi or a function name; "
@@ -996,10 +1000,11 @@ def parse_expression(text: str, parameters: Mapping[str, float] | None = None,
     values: dict[str, float] = {}
     for name, value in (parameters or {}).items():
         _check_name(name, "parameter", variable)
-        if isinstance(value, (bool, np.bool_)) or not isinstance(value, (int, float, np.integer, np.floating)) \
-                or not math.isfinite(float(value)):
-            raise ExpressionError(f"parameter {name} = {value!r} is not allowed; give a finite real number, "
-                                  f"e.g. --param {name}=1.5")
+        real = isinstance(value, (int, float, np.integer, np.floating)) and not isinstance(value, (bool, np.bool_))
+        if not real or not math.isfinite(float(value)):
+            shown = repr(float(value)) if real else f"a {type(value).__name__}"
+            raise ExpressionError(f"parameter {name} is {shown}; give a finite real number, e.g. "
+                                  f"--param {name}=1.5")
         values[name] = float(value)
     if not isinstance(text, str):
         raise ExpressionError(f"an expression must be text, got {type(text).__name__}")

@@ -96,6 +96,19 @@ def _check_values_on(field: Field, on: IntervalSet, lower: float, upper: float) 
             )
 
 
+def check_field(field: Field, on: IntervalSet | None = None) -> None:
+    """The input checks of :func:`solve` without solving (cheap: a few thousand evaluations of V).
+
+    Raises :class:`InputError` when V = 0 on an unbounded set, when V does not
+    confine on an unbounded side of Σ, or when V or V' is not real and finite on
+    the part of Σ where the support can lie.  Callers that run many solves (a
+    sweep) use it to refuse a bad field before starting.
+    """
+    on = IntervalSet.real_line() if on is None else on
+    _check_field_on(field, on)
+    _check_values_on(field, on, *_initial_window(field, on))
+
+
 def _sample_V(field: Field, x: np.ndarray) -> np.ndarray:
     with np.errstate(all="ignore"):
         values = np.asarray(field.V(x))

@@ -233,8 +233,7 @@ def _graded_rule(beta: float):
     edges = [0.0] + [4.0 ** (-p) for p in range(_SEGMENT_PANELS - 1, -1, -1)]
     ts, ws = [], []
     for i, (lo, hi) in enumerate(zip(edges[:-1], edges[1:])):
-        t, w, da, _ = graded_jacobi_rule(lo, hi, 0.0, beta if i == 0 else 0.0, n=_SEGMENT_NODES,
-                                         return_distances=True)
+        t, w = graded_jacobi_rule(lo, hi, 0.0, beta if i == 0 else 0.0, n=_SEGMENT_NODES)
         ts.append(t)
         ws.append(w if i == 0 else w * t ** beta)
     t, w = np.concatenate(ts), np.concatenate(ws)

@@ -237,13 +237,12 @@ class EdgeParametrix:
             Q = _S3 @ Q @ _S3
         return Q
 
-    def mismatch(self, z, degree: int) -> np.ndarray:
-        """``P(z) N(z)^{-1} - I`` at points ``z`` off the real axis (module docstring)."""
+    def outer_times_U(self, z, degree: int) -> np.ndarray:
+        """``N U = D_∞^{σ₃} M e^{(log W/2 - log D ± iπnΩ) σ₃}`` at ``z`` (module docstring)."""
         z = np.asarray(z, dtype=complex)
         pr = self.predictor
         w = pr.phases([degree])[0]
         M = pr.model.evaluate(z, w)
-        # N U = D_∞^{σ₃} M e^{(log W/2 - log D ± iπnΩ) σ₃}
         lu = self._half_log_W_minus_log_D(z) + self._U(z, degree)
         D = pr.szego
         lim = np.log(D.limit) if D is not None else 0.0
@@ -252,6 +251,12 @@ class EdgeParametrix:
         NU[..., 1, :] *= np.exp(-lim)
         NU[..., :, 0] *= np.exp(lu)[..., None]
         NU[..., :, 1] *= np.exp(-lu)[..., None]
+        return NU
+
+    def mismatch(self, z, degree: int) -> np.ndarray:
+        """``P(z) N(z)^{-1} - I`` at points ``z`` off the real axis (module docstring)."""
+        z = np.asarray(z, dtype=complex)
+        NU = self.outer_times_U(z, degree)
         Q = self.model_Q(z, degree)
         return NU @ (Q - np.eye(2)) @ np.linalg.inv(NU)
 
@@ -293,17 +298,7 @@ def airy_form_ratio(ep: EdgeParametrix, x, degree: int) -> np.ndarray:
     """``s·r(x)`` with ``r = E_12/E_11`` at real ``x`` (+ side), ``s = side`` (module docstring)."""
     x = np.asarray(x, dtype=float)
     z = x + 1j * 1e-300
-    pr = ep.predictor
-    w = pr.phases([degree])[0]
-    M = pr.model.evaluate(z, w)
-    lu = ep._half_log_W_minus_log_D(z) + ep._U(z, degree)
-    D = pr.szego
-    lim = np.log(D.limit) if D is not None else 0.0
-    NU = M.copy()
-    NU[..., 0, :] *= np.exp(lim)
-    NU[..., 1, :] *= np.exp(-lim)
-    NU[..., :, 0] *= np.exp(lu)[..., None]
-    NU[..., :, 1] *= np.exp(-lu)[..., None]
+    NU = ep.outer_times_U(z, degree)
     A = _A0 if ep.side > 0 else _S3 @ _A0 @ _S3
     K = NU @ np.linalg.inv(A)
     zeta = ep.zeta(z, degree)

@@ -221,23 +221,6 @@ class ModelProblem:
 
     __call__ = evaluate
 
-    def m11(self, z, phases, *, abel=None) -> np.ndarray:
-        """``M_11(z)`` only (zeros of π_n), phases may be (N, g) against z (N, P)."""
-        z = np.asarray(z, dtype=complex)
-        zl = np.where(z.imag == 0.0, z + 1j * _LIFT, z)
-        gam = gamma_factor(zl, self.support)
-        A = (gam + 1 / gam) / 2
-        if self.genus == 0:
-            return A
-        W = self.W(phases)
-        u = self.abel(z) if abel is None else abel
-        d, ui = self.d, self.u_infinity
-        Wz = W[..., None, :] if W.ndim == u.ndim else W
-        c1 = self._ratio(ui + d, ui + d + W)
-        if W.ndim == u.ndim:
-            c1 = c1[..., None]
-        return A * self._ratio(u + d + Wz, u + d) * c1
-
     def expansion(self, phases=None) -> dict:
         """The coefficients at infinity needed for recurrence coefficients.
 

@@ -225,10 +225,18 @@ def test_derivative_order_and_text():
 
 def test_walker_refuses_unknown_sympy_nodes():
     s = sympy.Symbol("x", real=True)
-    for foreign in (sympy.gamma(s), sympy.re(sympy.sqrt(s)), sympy.Heaviside(s), sympy.I * s, sympy.zoo,
+    for foreign in (sympy.gamma(s), sympy.re(sympy.sqrt(s)), sympy.Heaviside(s), sympy.zoo,
                     sympy.Symbol("y"), sympy.Derivative(sympy.Function("f")(s), s)):
         with pytest.raises(ExpressionError, match="cannot be evaluated"):
             _from_sympy(foreign, "x")
+
+
+def test_complex_valued_derivative_is_refused():
+    # d/dx (-2)^x = (-2)^x log(-2) has log(-2) = log 2 + i pi: complex, refused with a remedy
+    with pytest.raises(ExpressionError, match="complex-valued"):
+        parse_expression("(-2)^x").derivative()
+    with pytest.raises(ExpressionError, match="complex-valued"):
+        _from_sympy(sympy.I * sympy.Symbol("x", real=True), "x")
 
 
 def test_deep_derivative_is_refused_not_crashing():
@@ -429,10 +437,12 @@ def test_unknown_name_lists_what_is_allowed():
 
 
 @pytest.mark.parametrize("parameters, fragment", [
-    ({"t": float("nan")}, "finite real number"),
+    ({"t": float("nan")}, "parameter t is nan; give a finite real number"),
     ({"t": float("inf")}, "finite real number"),
     ({"t": 1 + 2j}, "finite real number"),
-    ({"t": "3"}, "finite real number"),
+    ({"t": "3"}, "parameter t is a str"),
+    ({"t": np.array([1.0, 2.0])}, "parameter t is a ndarray"),
+    ({3: 1.0}, "name of type int"),
     ({"t": True}, "finite real number"),
     ({"x": 1.0}, "collides"),
     ({"sin": 1.0}, "collides"),

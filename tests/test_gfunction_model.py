@@ -108,3 +108,36 @@ def test_cli_json_and_errors():
     bad = subprocess.run([sys.executable, "-m", "workbench", "predict", "--potential", "x**2",
                           "--degrees", "9:3"], capture_output=True, text=True)
     assert bad.returncode == 2 and bad.stderr.count("\n") == 1
+
+
+def test_gap_abel_interpolant_and_gap_zeros_of_the_fast_path():
+    # three bands, irrational phases: the Chebyshev interpolant of the Abel map on each gap
+    # against the direct map, and each predicted gap zero is a zero of the theta numerator
+    # θ(u + d + W) evaluated directly by riemann_theta (Riemann vanishing, DKMVZ 1999 §4)
+    from gfunction.outer import gap_abel_map
+    from gfunction.theta import riemann_theta_scaled
+    mu = solve(Field.from_expression("x**6/6 - 1.5*x**4 + 3.3*x**2 + 0.3*x"), on=IntervalSet.real_line())
+    pred = predictor(mu)
+    mp = pred.model
+    t = np.linspace(0.05, np.pi - 0.05, 37)
+    for j in range(2):
+        ga = gap_abel_map(mp, j)
+        assert ga.coefficients is not None and ga.error < 1e-14
+        assert np.max(np.abs(ga(t) - mp.abel(ga.x(t) + 1e-300j))) < 1e-13
+    degrees = np.arange(500, 540)
+    p = pred.predict(degrees)
+    W = mp.W(pred.phases(degrees))
+    found = 0
+    for i, row in enumerate(p.gap_zeros):
+        for j, x in enumerate(row):
+            if x is None:
+                continue
+            found += 1
+            u = mp.abel(np.array([x + 1e-300j]))
+            zero, _ = riemann_theta_scaled(u + mp.d + W[i], mp.tau)
+            ref, _ = riemann_theta_scaled(u + mp.d, mp.tau)
+            assert abs(zero[0]) < 1e-11 * abs(ref[0])
+    assert found > 10
+    assert all(sum(c) + sum(z is not None for z in g) == d
+               for c, g, d in zip(p.band_counts, p.gap_zeros, degrees))
+    assert p.checks["count_rounding"] < 1e-6 and p.checks["gap_realness"] < 1e-12

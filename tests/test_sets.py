@@ -32,7 +32,7 @@ def test_parse_forms():
         ("0:1:2", "a:b"),
         ("x:1", "not a number"),
         ("0:1e999", "not finite"),
-        ("0:,2:3", "outer ends"),
+        ("0:,2:3", "overlap"),
         ("nan:1", "not a number"),
     ],
 )

@@ -204,3 +204,39 @@ def test_bad_input_is_refused():
         riemann_theta(0.0, -1j)
     with pytest.raises(NumericalFailure, match="budget"):
         riemann_theta(np.zeros(3), 0.05j * np.eye(3), max_points=1000)
+
+
+# --- fixed arguments, many real shifts (ThetaShiftTable) ------------------------------------
+
+def test_shift_table_matches_mpmath_and_brute_force():
+    from gfunction.theta import theta_lattice, theta_shift_table
+    rng = np.random.default_rng(7)
+    # genus 1 against mpmath.jtheta: θ(u + s|τ) = ϑ_3(π(u + s), e^{πiτ}) (DLMF 21.2.1, 20.2.3)
+    tau = 0.3 + 0.8j
+    u = rng.uniform(-1, 1, 5) + 1j * rng.uniform(-1, 1, 5)
+    s = rng.uniform(-2, 2, 4)
+    tab = theta_shift_table(u[:, None], tau)
+    got = tab.oscillatory(s[:, None]) * np.exp(tab.exponent)[None, :]
+    mpmath.mp.dps = 30
+    q = mpmath.exp(1j * mpmath.pi * tau)
+    ref = np.array([[complex(mpmath.jtheta(3, mpmath.pi * mpmath.mpc(x + y), q)) for x in u] for y in s])
+    assert np.max(np.abs(got - ref) / np.exp(tab.exponent)[None, :]) < 1e-13
+    # genus 3 against the brute-force box sum (outer table, paired shifts, shift 0)
+    tau3 = random_riemann_matrix(3, rng)
+    u3 = rng.normal(size=(6, 3)) + 0.4j * rng.normal(size=(6, 3))
+    s3 = rng.normal(size=(3, 3))
+    tab3 = theta_shift_table(u3, tau3)
+    scale = np.exp(tab3.exponent)
+    for i, sh in enumerate(s3):
+        ref3, _ = brute_force(u3 + sh, tau3, 9)
+        assert np.max(np.abs(tab3.oscillatory(s3)[i] * scale - ref3) / scale) < 1e-12
+    ref_p, _ = brute_force(u3 + s3[[0, 1, 2, 0, 1, 2]], tau3, 9)
+    assert np.max(np.abs(tab3.paired(s3[[0, 1, 2, 0, 1, 2]]) * scale - ref_p) / scale) < 1e-12
+    assert np.max(np.abs(tab3.unshifted() * scale - brute_force(u3, tau3, 9)[0]) / scale) < 1e-12
+    # a reused lattice gives the same values as a fresh one (it covers every shift of the cube)
+    lat = theta_lattice(tau3)
+    a, _ = riemann_theta_scaled(u3, tau3, lattice=lat)
+    b, _ = riemann_theta_scaled(u3, tau3)
+    assert np.max(np.abs(a - b)) < 1e-14
+    assert lat.covers(np.full((1, 3), 0.5)) and not theta_lattice(tau3, shifts=np.zeros((1, 3))).covers(
+        np.full((1, 3), 0.5))

@@ -18,7 +18,10 @@ from __future__ import annotations
 import argparse
 import importlib
 import sys
+import warnings
 from typing import Sequence
+
+import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
 
@@ -65,16 +68,32 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _one_line(exc: BaseException) -> str:
+    """The message of ``exc`` on one line (the promise of exit codes 2 and 3)."""
+    return " ".join(str(exc).split())
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     try:
-        return int(args.handler(args) or 0)
+        with warnings.catch_warnings():
+            # numpy reports floating-point overflow/invalid values as RuntimeWarnings on
+            # stderr; every result carries its own verification figures (and is marked
+            # unverified when they fail), so these reports would only break the
+            # one-line contract of the exit codes
+            warnings.filterwarnings("ignore", message=r".* encountered in ", category=RuntimeWarning)
+            return int(args.handler(args) or 0)
     except InputError as exc:
-        print(f"workbench {args.command}: error: {exc}", file=sys.stderr)
+        print(f"workbench {args.command}: error: {_one_line(exc)}", file=sys.stderr)
         return 2
     except NumericalFailure as exc:
-        print(f"workbench {args.command}: numerical failure: {exc}", file=sys.stderr)
+        print(f"workbench {args.command}: numerical failure: {_one_line(exc)}", file=sys.stderr)
+        return 3
+    except np.linalg.LinAlgError as exc:
+        # a singular or non-convergent linear-algebra kernel: the answer cannot be certified
+        print(f"workbench {args.command}: numerical failure: linear algebra failed "
+              f"({_one_line(exc)}); the system is singular or too ill-conditioned", file=sys.stderr)
         return 3
     except KeyboardInterrupt:
         print(f"workbench {args.command}: interrupted", file=sys.stderr)

@@ -59,6 +59,56 @@ def _json_default(value: Any) -> Any:
     return str(value)
 
 
+def _nearest_existing(path: Path) -> Path:
+    probe = path
+    while not probe.exists() and probe != probe.parent:
+        probe = probe.parent
+    return probe
+
+
+def check_output_file(path: str | os.PathLike[str]) -> Path:
+    """Refuse, before any computation, an output file that could not be written.
+
+    The path must not be a folder, and its nearest existing ancestor must be a
+    writable folder (the missing folders between are created at the end).
+    Raises :class:`~equilibrium.errors.InputError`.
+    """
+    from equilibrium.errors import InputError
+
+    target = Path(path)
+    if target.is_dir():
+        raise InputError(f"--out {target} is a folder; give a file name such as {target / 'result.h5'}")
+    check_output_directory(target.parent, what=f"the folder of --out {target}")
+    return target
+
+
+def check_output_directory(path: str | os.PathLike[str], what: str | None = None) -> Path:
+    """Refuse, before any computation, an output folder that could not be created or written."""
+    from equilibrium.errors import InputError
+
+    target = Path(path)
+    what = what or f"output folder {target}"
+    existing = _nearest_existing(target.absolute())
+    if not existing.is_dir():
+        raise InputError(f"{what} cannot be created: {existing} is a file, not a folder; choose another path")
+    if not os.access(existing, os.W_OK | os.X_OK):
+        raise InputError(f"{what} cannot be written: no write permission in {existing}; choose another path")
+    return target
+
+
+def make_output_directory(path: str | os.PathLike[str]) -> Path:
+    """``mkdir -p`` with the failure reported as one line (InputError)."""
+    from equilibrium.errors import InputError
+
+    target = Path(path)
+    try:
+        target.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"cannot create the output folder {target}: {exc.strerror or exc}; "
+                         "choose another path") from None
+    return target
+
+
 def set_attributes(node: h5py.HLObject, attributes: Mapping[str, Any]) -> None:
     """Write every entry of ``attributes`` on an h5py group or dataset."""
     for key, value in attributes.items():
@@ -74,9 +124,17 @@ def atomic_file(path: str | os.PathLike[str]) -> Iterator[h5py.File]:
     exception (including ``KeyboardInterrupt``) the temporary file is removed
     and ``path`` is left as it was.
     """
+    from equilibrium.errors import InputError
+
     target = Path(path)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp_name = tempfile.mkstemp(prefix=target.name + ".", suffix=".tmp", dir=target.parent)
+    if target.is_dir():
+        raise InputError(f"cannot write {target}: it is a folder; give a file name")
+    make_output_directory(target.parent)
+    try:
+        fd, tmp_name = tempfile.mkstemp(prefix=target.name + ".", suffix=".tmp", dir=target.parent)
+    except OSError as exc:
+        raise InputError(f"cannot write in {target.parent}: {exc.strerror or exc}; "
+                         "choose another path") from None
     os.close(fd)
     handle = None
     try:

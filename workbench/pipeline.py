@@ -38,8 +38,9 @@ from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
 
-from equilibrium.errors import NumericalFailure
+from equilibrium.errors import InputError, NumericalFailure
 from workbench.case import Case
+from workbench.hdf5 import check_output_directory, make_output_directory
 from workbench.results import (
     Group,
     load_partials,
@@ -119,44 +120,21 @@ def solve_case(case: Case):
 
     field_ = case.build_field()
     on = case.build_set()
-    mu = (solve_signed if case.set.signed else solve)(field_, on=on)
+    try:
+        mu = (solve_signed if case.set.signed else solve)(field_, on=on)
+    except InputError as exc:
+        # name the file and the tables the refused field and set come from
+        raise InputError(f"{case.source} [field] on [set]: {exc}") from None
     return field_, on, mu
 
 
 # ----------------------------------------------------------------------- stages
 def equilibrium_group(mu, case: Case) -> Group:
-    node = Group()
-    support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
-    node.attrs.update({
-        "description": "equilibrium measure mu_V of the field on the set",
-        "kind": mu.kind,
-        "bands": int(support.shape[0]),
-        "lagrange": float(mu.lagrange),
-        "energy": float(mu.energy),
-        "verified": bool(mu.verified),
-        "checks": {k: float(v) for k, v in dict(mu.checks).items()},
-        "regular": bool(getattr(mu.classification, "regular", True)),
-        "singularities": [list(map(str, s)) for s in getattr(mu.classification, "singularities", ())],
-        "field": case.field.describe(),
-        "set": case.set.text(),
-        "message": str(getattr(mu, "message", "") or ""),
-    })
-    node.add("support", support, "bands [a_j, b_j], ascending (rows j = 1..k)")
-    node.add("edges", np.asarray(mu.edges, dtype=object).reshape(-1, 2),
-             "kind of each band end: 'soft' (density ~ sqrt) or 'hard' (density ~ 1/sqrt)")
-    node.add("masses", np.asarray(mu.masses, dtype=float), "band masses mu([a_j, b_j]), sum 1")
-    node.add("omega", np.asarray(mu.omega, dtype=float).reshape(-1),
-             "filling phases Omega_j = mu([a_{j+1}, b_k]), mass right of gap j")
-    lo, hi = support[0, 0], support[-1, 1]
-    pad = 0.08 * (hi - lo)
-    x = np.linspace(lo - pad, hi + pad, 801)
-    on = case.build_set()
-    x = x[on.contains(x)] if hasattr(on, "contains") else x
-    node.add("x", x, "grid for the density and the effective potential")
-    node.add("density", np.asarray(mu.density(x), dtype=float), "density psi(x) of mu_V on the grid x")
-    node.add("distribution", np.asarray(mu.distribution(x), dtype=float), "F(x) = mu((-inf, x])")
-    node.add("effective_potential", np.asarray(mu.effective_potential(x), dtype=float),
-             "2 U^mu(x) + V(x) - ell: 0 on S, >= 0 off S for the minimiser")
+    """The /equilibrium group (see :func:`workbench.equilibrium_io.measure_group`), labelled with the case."""
+    from workbench.equilibrium_io import measure_group
+
+    node = measure_group(mu)
+    node.attrs.update({"field": case.field.describe(), "set": case.set.text()})
     return node
 
 
@@ -369,15 +347,18 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
     from tqdm import tqdm
 
     directory = case.output_directory(out)
-    directory.mkdir(parents=True, exist_ok=True)
-    remove_stale_temporaries(directory)
+    check_output_directory(directory)
     timings: dict[str, float] = {}
     start = time.perf_counter()
     messages: list[str] = []
 
+    # the field is checked (confining, real and finite on the set) before anything is
+    # written, so a refused case leaves no trace on disk
     t = time.perf_counter()
     field_, on, mu = solve_case(case)
     timings["equilibrium"] = time.perf_counter() - t
+    make_output_directory(directory)
+    remove_stale_temporaries(directory)
     if not mu.verified:
         messages.append(f"equilibrium measure not verified: {getattr(mu, 'message', '')}")
 

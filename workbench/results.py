@@ -183,6 +183,8 @@ def read_run(path: str | os.PathLike[str]) -> Group:
     """Read a run file back into a :class:`Group` tree (plain h5py; no computation)."""
     from equilibrium.errors import InputError
 
+    if os.path.isdir(path):
+        raise InputError(f"{path} is a folder; give a file written by 'workbench run' or 'sweep'")
     try:
         with h5py.File(path, "r") as handle:
             if handle.attrs.get("format") not in (FORMAT, "workbench-sweep"):
@@ -190,7 +192,10 @@ def read_run(path: str | os.PathLike[str]) -> Group:
                                  f"'{FORMAT}'); give a file written by 'workbench run' or 'sweep'")
             return _load_group(handle)
     except (OSError, KeyError) as exc:
-        raise InputError(f"cannot read {path} as HDF5: {exc}") from None
+        # h5py's messages run over several lines; the command line promises one
+        reason = " ".join(str(exc).split())
+        raise InputError(f"cannot read {path} as HDF5 ({reason}); give a file written by "
+                         "'workbench run' or 'sweep'") from None
 
 
 def read_group_file(path: str | os.PathLike[str]) -> Group:

@@ -513,6 +513,34 @@ class CaseSweep:
     shape: tuple[int, ...]
 
 
+def _refuse_field_refused_at_every_corner(case, axes) -> None:
+    """InputError when the field is refused at every corner of the grid (a wrong case).
+
+    A field refused at only some points (a non-confining corner of a phase
+    diagram) is not an error of the case: those points are recorded as failed.
+    The check costs a few thousand evaluations of V per corner.
+    """
+    import itertools
+
+    from equilibrium.search import check_field
+
+    on = case.build_set()
+    names = [name for name, _ in axes]
+    first = None
+    for corner in dict.fromkeys(itertools.product(*[(v[0], v[-1]) for _, v in axes])):
+        values = {name: float(v) for name, v in zip(names, corner)}
+        try:
+            check_field(case.build_field(values), on)
+            return
+        except InputError as exc:
+            first = first or (values, exc)
+    if first is not None:
+        values, exc = first
+        where = ", ".join(f"{k} = {v:g}" for k, v in values.items())
+        raise InputError(f"{case.source} [field] on [set]: refused at every corner of the [sweep] grid "
+                         f"(e.g. {where}): {exc}")
+
+
 def sweep_case(case, out: str | os.PathLike[str] | None = None, *, workers: int | None = None,
                scheduler: str | None = None, budget: int | None = None, retries: int = 2,
                progress: bool = True, draw: bool | None = None,
@@ -521,15 +549,19 @@ def sweep_case(case, out: str | os.PathLike[str] | None = None, *, workers: int 
 
     The HDF5 file is written (atomically) only when every point has a result.
     """
+    from workbench.hdf5 import check_output_directory, make_output_directory
     from workbench.results import Group, provenance, remove_stale_temporaries, write_group_file
 
     if case.sweep is None:
         raise InputError(f"{case.source} has no [sweep] table; add one with [[sweep.axis]] "
                          f"tables (name, start, stop, num) or use 'workbench run'")
     directory = Path(case.output_directory(out))
-    directory.mkdir(parents=True, exist_ok=True)
-    remove_stale_temporaries(directory)
+    check_output_directory(directory)
     axes = [(axis.name, axis.values()) for axis in case.sweep.axes]
+    if function is None:
+        _refuse_field_refused_at_every_corner(case, axes)
+    make_output_directory(directory)
+    remove_stale_temporaries(directory)
     points = grid_points(axes)
     if function is None:
         function = functools.partial(equilibrium_point_fast, field_payload(case))

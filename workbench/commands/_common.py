@@ -70,13 +70,23 @@ def parse_parameters(items: Sequence[str]) -> dict[str, float]:
 def field_and_set_from_args(args: argparse.Namespace) -> tuple[Field, IntervalSet]:
     """The field and the set named on the command line."""
     parameters = parse_parameters(getattr(args, "param", []))
-    on = IntervalSet.real_line() if not getattr(args, "on", None) else IntervalSet.parse(args.on)
+    text_on = getattr(args, "on", None)
+    # an empty --on= is a mistake, not a request for the real line (IntervalSet.parse refuses it)
+    on = IntervalSet.real_line() if text_on is None else IntervalSet.parse(text_on)
     text = getattr(args, "potential", None)
     if text is None or not text.strip():
         if not on.is_compact:
             raise InputError("--potential is required unless --on names a compact set (then V = 0)")
         return Field.zero(), on
     return Field.from_expression(text, parameters=parameters), on
+
+
+def check_output(args: argparse.Namespace) -> None:
+    """Refuse an unwritable --out FILE.h5 before anything is computed (InputError)."""
+    if getattr(args, "out", None):
+        from workbench.hdf5 import check_output_file
+
+        check_output_file(args.out)
 
 
 def positive_integer(text, name: str, minimum: int = 1) -> int:

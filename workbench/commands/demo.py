@@ -47,7 +47,10 @@ def run(args: argparse.Namespace) -> int:
     from workbench.commands.show import summary_lines
     from workbench.pipeline import run_case
 
+    from workbench.hdf5 import check_output_directory
+
     start = time.perf_counter()
+    check_output_directory(Path(args.out) / SHOWCASE)  # refuse before printing or computing
     case = load_case(shipped_case(SHOWCASE))
     print(f"demo: running the showcase {shipped_case(SHOWCASE)}")
     print(f"      {case.title}: {case.field.describe()}")

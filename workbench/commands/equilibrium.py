@@ -6,7 +6,7 @@ import argparse
 import sys
 
 from equilibrium import solve, solve_signed
-from workbench.commands._common import add_field_options, add_output_options, field_and_set_from_args
+from workbench.commands._common import add_field_options, add_output_options, check_output, field_and_set_from_args
 from workbench.equilibrium_io import measure_group, measure_json, measure_table
 
 
@@ -24,6 +24,7 @@ def register(subparsers) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    check_output(args)
     field, on = field_and_set_from_args(args)
     mu = solve_signed(field, on) if args.signed else solve(field, on)
     if args.out:

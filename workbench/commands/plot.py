@@ -22,6 +22,7 @@ def register(subparsers) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from workbench.figures import draw_all
+    from workbench.hdf5 import check_output_directory
     from workbench.results import read_run
 
     path = Path(args.file)
@@ -35,6 +36,7 @@ def run(args: argparse.Namespace) -> int:
         raise InputError(f"--dpi {args.dpi} must lie in 50..1200")
     tree = read_run(path)
     out = Path(args.out) if args.out else path.parent / "figures"
+    check_output_directory(out, what=f"figure folder {out}")
     written = draw_all(tree, out, formats=formats, dpi=args.dpi)
     if not written:
         print(f"{path}: no figure has its data in this file")

@@ -8,7 +8,7 @@ import sys
 
 import numpy as np
 
-from ._common import add_field_options, field_and_set_from_args, parse_parameters, positive_integer
+from ._common import add_field_options, check_output, field_and_set_from_args, parse_parameters, positive_integer
 
 
 def register(subparsers) -> None:
@@ -58,6 +58,7 @@ def _tolerance(text: str) -> float:
 def run(args: argparse.Namespace) -> int:
     from workbench.polynomials.recurrence import check_memory, recurrence_coefficients
 
+    check_output(args)
     count = positive_integer(args.count, "--count", minimum=0)
     weight, field, on, n = build_weight(args)
     tolerance = _tolerance(args.tolerance)

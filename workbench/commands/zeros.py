@@ -7,7 +7,7 @@ import json
 import sys
 
 
-from ._common import add_field_options, positive_integer
+from ._common import add_field_options, check_output, positive_integer
 from .recurrence import _attributes, _tolerance, build_weight
 
 
@@ -30,6 +30,7 @@ def run(args: argparse.Namespace) -> int:
     from workbench.polynomials.recurrence import check_memory, recurrence_coefficients
     from workbench.polynomials.zeros import gauss_rule
 
+    check_output(args)
     weight, field, on, n = build_weight(args)
     degree = n if args.degree is None else positive_integer(args.degree, "--degree")
     tolerance = _tolerance(args.tolerance)

@@ -322,6 +322,187 @@ def _exterior_breaks(measure, piece: tuple[float, float], support, degree: int, 
     return out
 
 
+# --------------------------------------------------------------------------- growth off the axis
+#: ρ of the Bernstein ellipses tried (ρ ≤ 4 keeps the ellipse of an Airy-refined edge piece
+#: [e + d, e + 2d] away from the edge e, where the local model of Φ' below would not hold)
+_RHO = np.array([1.1, 1.25, 1.5, 1.75, 2.0, 2.5, 3.0, 3.5, 4.0])
+#: angles on the upper half of each ellipse (the lower half is the mirror image)
+_THETA = math.pi * (np.arange(12) + 0.5) / 12
+#: Gauss–Legendre points on the segment from the panel centre to an ellipse point
+_PATH_POINTS = 8
+#: a panel is split when its growth bound exceeds the nominal bulk bound by this (natural log)
+_GROWTH_SLACK = 3.0
+#: at most this many halvings of one panel
+_MAX_HALVINGS = 8
+
+
+def nominal_exponent(zeros_per_panel: float, points: int) -> float:
+    """``min_ρ [π ζ (ρ - 1/ρ)/2 - 2 m log ρ]``: the log error bound of a bulk panel (module docstring)."""
+    rho = np.linspace(1.01, 12.0, 2000)
+    return float(np.min(0.5 * math.pi * zeros_per_panel * (rho - 1 / rho) - 2 * points * np.log(rho)))
+
+
+def _edge_kinds(support, edges) -> dict[float, tuple[float, float]]:
+    """Edge e -> (orientation σ, power p): Φ'(z) ∝ (σ (z - e))^p near e.
+
+    σ = +1 at a right end (band to the left), -1 at a left end; p = 1/2 at a
+    soft edge, -1/2 at a hard edge (ψ ~ |x - e|^{∓1/2}).
+    """
+    out: dict[float, tuple[float, float]] = {}
+    for (a, b), (left, right) in zip(support, edges):
+        out[float(a)] = (-1.0, 0.5 if left == "soft" else -0.5)
+        out[float(b)] = (1.0, 0.5 if right == "soft" else -0.5)
+    return out
+
+
+def _phi_prime_on_axis(measure, x: np.ndarray) -> np.ndarray:
+    """Boundary value from above of ``Φ'(z) = 2G(z) - V_t'(z)`` at real x.
+
+    ``Φ = 2g - V_t - ℓ_t`` (g of μ_t); on a band ``Φ'_+ = -2πi ψ_t``, off the
+    support ``Φ' = -eff_t'`` (real).
+    """
+    x = np.asarray(x, dtype=float)
+    psi = np.asarray(measure.density(x), dtype=float)
+    on_band = np.zeros(x.shape, dtype=bool)
+    for a, b in measure.support:
+        on_band |= (x > a) & (x < b)
+    out = (-2j * math.pi) * psi
+    off = ~on_band
+    if np.any(off):
+        z = x[off].astype(complex)
+        with np.errstate(all="ignore"):
+            value = 2.0 * np.asarray(measure.stieltjes(z)) - np.asarray(measure.field.dV(z))
+        out[off] = np.real(value)
+    return out
+
+
+def growth_bound(panels: np.ndarray, points: np.ndarray, measure, support, edges, degree: int) -> np.ndarray:
+    """Log of the Bernstein-ellipse error bound of each panel's Gauss rule for ``p_K² w_n``.
+
+    Why.  Off the real axis, outside the lenses, ``|π_K(z)|² |e^{-nV(z)}| ≈
+    e^{K Re(2g_t - V_t)(z)}`` (the leading order of the Deift–Kriecherbauer–
+    McLaughlin–Venakides–Zhou steepest descent, Comm. Pure Appl. Math. 52
+    (1999) 1335–1425); with ``Φ = 2g_t - V_t - ℓ_t`` the integrand ``p_K² w_n``
+    is of size ``exp(K Re Φ(z))`` (``Re Φ = 0`` on S, ``-eff_t`` on the real axis
+    off S).  By the Buyarov–Rakhmanov identity (module docstring)
+    ``k Re Φ_{(n/k)V}(z)`` increases with k for every z (its k-derivative is
+    ``2 log|φ(z)| ≥ 0``, φ the exterior conformal map of the support), so the
+    degree K bounds all ``p_j p_k w``, j, k ≤ K.  The m-point Gauss error on a
+    panel is then at most ``exp(K max_{E_ρ} Re Φ - 2 m log ρ)`` for every ρ
+    (Bernstein-ellipse bound, Trefethen, *Approximation Theory and
+    Approximation Practice*, SIAM 2013, Thm 19.3, constants dropped).
+
+    In the bulk ``K max_{E_ρ} Re Φ ≈ π ζ (ρ - 1/ρ)/2`` (ζ zeros in the panel).
+    Where ψ_t has a deep minimum (a band about to split, ψ_t ≈ c (x² + ε)) the
+    zero count says nothing: ``Φ' ≈ -2πi c ((z - x_0)² + ε)`` makes
+    ``K Re Φ ≈ 2π K c H³ ρ³/24`` on an ellipse of half-length H, so the panels
+    must shrink to the critical (Painlevé) scale ``(K c)^{-1/3}``, not to the
+    zero spacing ``1/(K ε c)``.  The same holds in a short gap that is about to
+    close.  Hence the bound is computed from a local model of Φ'.
+
+    Model.  On each panel ``Φ'(z) ≈ s(z) q(z)``: ``q`` the quadratic through the
+    values of ``Φ'_+/s`` at three interior points (ψ_t on bands, ``2G - V_t'``
+    off S), ``s = ∏ (σ (z - e))^p`` over the edges e at the panel ends
+    (:func:`_edge_kinds`), principal powers, analytic in the upper half-plane.
+    ``Φ(z) - Φ(x_c) = ∫_{x_c}^{z} Φ'`` on the straight segment from the panel
+    centre (Gauss–Legendre), ``Re Φ(x_c) = -eff_t(x_c)``.  Only the upper half
+    of the ellipse is needed: the lower half carries the mirror image (the
+    other exponential ``e^{-KΦ}`` of the band).
+
+    Returns
+    -------
+    ndarray : ``min_ρ [ (K+1) max_{E_ρ} Re Φ - 2 m log ρ ]`` per panel.
+    """
+    lo = panels[:, 0]
+    hi = panels[:, 1]
+    half = 0.5 * (hi - lo)
+    centre = 0.5 * (lo + hi)
+    kinds = _edge_kinds(support, edges)
+    scale = max(1.0, max(abs(e) for e in kinds))
+    # the edge factor s at each panel: at most one edge per panel end
+    sigma = np.zeros((panels.shape[0], 2))
+    power = np.zeros((panels.shape[0], 2))
+    where = np.zeros((panels.shape[0], 2))
+    for e, (sg, p) in kinds.items():
+        for side, end in ((0, lo), (1, hi)):
+            hit = np.abs(end - e) <= 1e-12 * scale
+            sigma[hit, side], power[hit, side], where[hit, side] = sg, p, e
+
+    def s_of(z):  # z: (P, ...) complex, broadcasting over trailing axes
+        out = np.ones(z.shape, dtype=complex)
+        for side in (0, 1):
+            sg = sigma[:, side].reshape((-1,) + (1,) * (z.ndim - 1))
+            p = power[:, side].reshape(sg.shape)
+            e = where[:, side].reshape(sg.shape)
+            active = sg != 0
+            with np.errstate(all="ignore"):
+                factor = np.where(active, (np.where(active, sg, 1.0) * (z - e)) ** p, 1.0)
+            out = out * factor
+        return out
+
+    # three interior sample points, values from above (Im z = +tiny keeps the branches of s right)
+    u = np.array([-2.0 / 3.0, 0.0, 2.0 / 3.0])
+    xs = centre[:, None] + half[:, None] * u[None, :]
+    above = xs + 1j * 1e-300
+    q_values = _phi_prime_on_axis(measure, xs.ravel()).reshape(xs.shape) / s_of(above)
+    # Lagrange form of the quadratic in the local variable v = (z - centre)/half
+    def q_of(v):
+        l0 = v * (v - u[2]) / (u[0] * (u[0] - u[2]))
+        l1 = (v - u[0]) * (v - u[2]) / ((u[1] - u[0]) * (u[1] - u[2]))
+        l2 = v * (v - u[0]) / (u[2] * (u[2] - u[0]))
+        shape = (-1,) + (1,) * (v.ndim - 1)
+        return (q_values[:, 0].reshape(shape) * l0 + q_values[:, 1].reshape(shape) * l1
+                + q_values[:, 2].reshape(shape) * l2)
+
+    with np.errstate(all="ignore"):
+        eff_centre = np.asarray(measure.effective_potential(centre), dtype=float)
+    re_phi_centre = -np.where(np.isfinite(eff_centre), np.maximum(eff_centre, 0.0), 0.0)
+    # ellipse points in the local variable, shape (R, T)
+    ring = 0.5 * (_RHO[:, None] * np.exp(1j * _THETA)[None, :] + np.exp(-1j * _THETA)[None, :] / _RHO[:, None])
+    t, wt = gauss_legendre(_PATH_POINTS)
+    t = 0.5 * (t + 1.0)
+    wt = 0.5 * wt
+    v = ring[None, :, :, None] * t[None, None, None, :]            # (1, R, T, G) path points
+    v = np.broadcast_to(v, (panels.shape[0],) + v.shape[1:])
+    z = centre[:, None, None, None] + half[:, None, None, None] * v
+    integrand = s_of(z) * q_of(v)
+    increment = half[:, None, None] * ring[None, :, :] * np.einsum("prtg,g->prt", integrand, wt)
+    re_phi = re_phi_centre[:, None, None] + increment.real
+    growth = (degree + 1) * np.max(re_phi, axis=2)                 # (P, R)
+    bound = growth - 2.0 * points[:, None] * np.log(_RHO)[None, :]
+    bound = np.where(np.isfinite(bound), bound, np.inf)
+    return np.min(bound, axis=1)
+
+
+def refine_by_growth(table: np.ndarray, measure, support, edges, degree: int, layout: PanelLayout) -> np.ndarray:
+    """Halve every panel whose :func:`growth_bound` exceeds the bulk bound of the layout.
+
+    ``table`` has rows ``(lo, hi, m)``.  The target is the bound of a bulk panel
+    with ζ zeros and m points (:func:`nominal_exponent`) plus a slack of
+    ``e^3``, so ordinary bulk panels are left alone and only panels where the
+    density is far from locally constant (deep minima of ψ_t, short gaps) are
+    split.  Without the analytic structure of the measure (a foreign solver)
+    the table is returned unchanged.
+    """
+    if not all(hasattr(measure, name) for name in ("stieltjes", "effective_potential", "field")):
+        return table
+    target = nominal_exponent(layout.zeros_per_panel, layout.points) + _GROWTH_SLACK
+    done = []
+    todo = table
+    for _ in range(_MAX_HALVINGS):
+        if todo.shape[0] == 0:
+            break
+        bound = growth_bound(todo[:, :2], todo[:, 2], measure, support, edges, degree)
+        ok = bound <= target
+        done.append(todo[ok])
+        bad = todo[~ok]
+        mid = 0.5 * (bad[:, 0] + bad[:, 1])
+        todo = np.concatenate([np.column_stack([bad[:, 0], mid, bad[:, 2]]),
+                               np.column_stack([mid, bad[:, 1], bad[:, 2]])])
+    done.append(todo)
+    return np.concatenate(done)
+
+
 def _panel_rule(weight: Weight, lo: float, hi: float, m: int, singular: dict[float, float]):
     """Nodes and log weights on [lo, hi], Gauss–Jacobi for singular ends."""
     p_lo = _lookup(singular, lo)
@@ -382,7 +563,7 @@ def discretise(weight: Weight, degree: int, layout: PanelLayout = PRIMARY, measu
             if seg[0] < c < seg[-1] and not np.any(np.abs(seg - c) <= 1e-14 * max(1.0, abs(c))):
                 segments[k] = (np.sort(np.concatenate([seg, [c]])), m)
     rows = [(lo, hi, m) for seg, m in segments for lo, hi in zip(seg[:-1], seg[1:]) if hi > lo]
-    table = np.array(rows)
+    table = refine_by_growth(np.array(rows), measure, support, edges, degree, layout)
     table = table[np.argsort(table[:, 0])]
     panels = table[:, :2]
     # the nodes: regular panels at once (grouped by point count), singular panels one by one
