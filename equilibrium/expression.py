@@ -738,6 +738,11 @@ def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
             if base.is_number and exponent.is_number and _exact_power_too_large(base, n.exponent):
                 with np.errstate(all="ignore"):
                     return _sympy_number(float(_evaluate(n, None)))
+            if base.is_number and not exponent.is_number:
+                # c^f(x): a float base keeps sympy from splitting off c^k exactly for a large
+                # constant part k of f (0.001^(x - 1e10) would build a 3e10-digit rational)
+                with np.errstate(all="ignore"):
+                    base = sympy.Float(float(_evaluate(n.base, None)))
             return sympy.Pow(base, exponent)
         if calculus and n.function in ("abs", "sign"):
             return (_RealAbs if n.function == "abs" else _RealSign)(walk(n.argument))
@@ -770,8 +775,9 @@ def _from_sympy(expr: sympy.Expr, variable: str) -> Node:
             return Variable(variable)
         if e.is_Rational:
             return number(Fraction(int(e.p), int(e.q)))
-        if e.is_Float and math.isfinite(float(e)):
-            return number(Fraction(repr(float(e))))
+        if e.is_Float and math.isfinite(float(e)):     # from a float base: one number, its repr
+            value = float(e)
+            return Negate(Number(-value)) if value < 0 else Number(value)
         if e is sympy.pi:
             return Pi()
         if e is sympy.E:

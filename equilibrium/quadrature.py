@@ -116,6 +116,7 @@ def distances_beyond(lo, hi, from_lo, to_hi, e):
     raise ValueError("distances_beyond: the point lies inside the interval")
 
 
+@functools.lru_cache(maxsize=512)
 def angular_rule(
     lo: float,
     hi: float,
@@ -123,7 +124,7 @@ def angular_rule(
     near_hi: float | None = None,
     points: int = PANEL_POINTS,
 ) -> AngularRule:
-    """Graded Gauss–Legendre rule in the angle (1) on [lo, hi]."""
+    """Graded Gauss–Legendre rule in the angle (1) on [lo, hi] (cached: arguments are plain floats)."""
     length = hi - lo
     breaks = angular_breaks(length, near_lo, near_hi)
     t, w = gauss_legendre(points)
@@ -132,9 +133,7 @@ def angular_rule(
     theta = (left + half * (t + 1)).ravel()
     weights = (half * w).ravel()
     s, c = np.sin(theta / 2), np.cos(theta / 2)
-    return AngularRule(
-        lo=lo,
-        hi=hi,
+    arrays = dict(
         theta=theta,
         weights=weights,
         x=lo + length * s * s,
@@ -143,6 +142,9 @@ def angular_rule(
         dx_dtheta=length * s * c,
         breaks=breaks,
     )
+    for array in arrays.values():
+        array.setflags(write=False)  # rules are cached and shared
+    return AngularRule(lo=lo, hi=hi, **arrays)
 
 
 @dataclass(frozen=True)

@@ -31,10 +31,10 @@ def _parse_end(text: str, default: float, where: str) -> float:
     if lowered in ("-inf", "-infinity"):
         return -math.inf
     if not _NUMBER.match(token):
-        raise InputError(f"set {where}: '{token}' is not a number; write intervals as a:b,c:d (e.g. -1:1,2:3)")
+        raise InputError(f"set {where}: {token!r} is not a number; write intervals as a:b,c:d (e.g. -1:1,2:3)")
     value = float(token)
     if not math.isfinite(value):
-        raise InputError(f"set {where}: '{token}' is not finite; use an empty end or inf for an unbounded side")
+        raise InputError(f"set {where}: {token!r} is not finite; use an empty end or inf for an unbounded side")
     return value
 
 
@@ -94,7 +94,7 @@ class IntervalSet:
         for k, piece in enumerate(pieces, start=1):
             if piece.count(":") != 1:
                 raise InputError(
-                    f"set piece {k} '{piece.strip()}' must look like a:b (an empty end means infinity, e.g. 0:)"
+                    f"set piece {k} {piece.strip()!r} must look like a:b (an empty end means infinity, e.g. 0:)"
                 )
             left, right = piece.split(":")
             a = _parse_end(left, -math.inf, f"piece {k}")
