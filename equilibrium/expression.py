@@ -735,10 +735,11 @@ def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
             return sympy.Mul(*[sympy.Pow(walk(f), -1) if d else walk(f) for f, d in zip(n.factors, n.divided)])
         if isinstance(n, Power):
             base, exponent = walk(n.base), walk(n.exponent)
-            if base.is_number and exponent.is_number and _exact_power_too_large(base, n.exponent):
+            constant_base, constant_exponent = (_facts(c).value is not None for c in (n.base, n.exponent))
+            if constant_base and constant_exponent and _exact_power_too_large(base, n.exponent):
                 with np.errstate(all="ignore"):
                     return _sympy_number(float(_evaluate(n, None)))
-            if base.is_number and not exponent.is_number:
+            if constant_base and not constant_exponent:
                 # c^f(x): a float base keeps sympy from splitting off c^k exactly for a large
                 # constant part k of f (0.001^(x - 1e10) would build a 3e10-digit rational)
                 with np.errstate(all="ignore"):
@@ -825,6 +826,9 @@ def _from_sympy(expr: sympy.Expr, variable: str) -> Node:
             return Power(walk(base), walk(exponent))
         if e.func in _FROM_SYMPY and len(e.args) == 1:
             return Call(_FROM_SYMPY[e.func], walk(e.args[0]))
+        if e in (sympy.nan, sympy.zoo, sympy.oo, -sympy.oo):
+            raise ExpressionError("the symbolic form is undefined or infinite (e.g. log(0) from 0^x), which "
+                                  "cannot be evaluated here; rewrite the expression")
         if e is sympy.I:
             raise ExpressionError("the symbolic form is complex-valued (e.g. a negative constant raised to a "
                                   "power that depends on x), which cannot be evaluated here; use a positive base")

@@ -373,6 +373,12 @@ def solve(
         so a guess never changes the answer, only the time to it.
     """
     on = IntervalSet.real_line() if on is None else on
+    # intermediate structures may overflow; every figure of the answer is checked for finiteness
+    with np.errstate(all="ignore"):
+        return _solve(field, on, guess)
+
+
+def _solve(field: Field, on: IntervalSet, guess) -> EquilibriumMeasure:
     _check_field_on(field, on)
     bounds = _initial_window(field, on)
     _check_values_on(field, on, *bounds)
