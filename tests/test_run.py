@@ -110,6 +110,9 @@ def test_interrupted_run_resumes_without_recomputing(tmp_path):
 def _block_numerics(monkeypatch):
     """Make the numerical packages unusable: plot/show must work from the file alone."""
     import equilibrium
+    from workbench.cli import build_parser
+
+    build_parser()  # import every command module first, so teardown restores the unblocked ones
 
     def boom(*args, **kwargs):
         raise AssertionError("a numerical package was called")
@@ -118,7 +121,8 @@ def _block_numerics(monkeypatch):
     monkeypatch.setattr(equilibrium, "solve_signed", boom)
     for name in list(sys.modules):
         if name == "gfunction" or name.startswith("gfunction.") or name.startswith(
-                "workbench.polynomials") or name == "workbench.pipeline":
+                "workbench.polynomials") or name == "workbench.pipeline" or name.startswith("workbench.commands."):
+            # command modules are dropped too, so none keeps the blocked `solve` after this test
             monkeypatch.delitem(sys.modules, name)
     for name in ("gfunction", "gfunction.predict", "workbench.polynomials", "workbench.pipeline"):
         monkeypatch.setitem(sys.modules, name, None)  # import raises ImportError

@@ -52,15 +52,15 @@ def parse_parameters(items: Sequence[str]) -> dict[str, float]:
     values: dict[str, float] = {}
     for item in items or ():
         if item.count("=") != 1:
-            raise InputError(f"--param '{item}' must look like NAME=VALUE (e.g. --param t=3)")
+            raise InputError(f"--param {item!r} must look like NAME=VALUE (e.g. --param t=3)")
         name, text = (s.strip() for s in item.split("="))
         if not _NAME.match(name):
-            raise InputError(f"--param name '{name}' must be a name (letters, digits, _), e.g. t")
+            raise InputError(f"--param name {name!r} must be a name (letters, digits, _), e.g. t")
         if not _NUMBER.match(text):
-            raise InputError(f"--param {name}: '{text}' is not a number")
+            raise InputError(f"--param {name}: {text!r} is not a number")
         value = float(text)
         if not math.isfinite(value):
-            raise InputError(f"--param {name}: '{text}' is not finite")
+            raise InputError(f"--param {name}: {text!r} is not finite")
         if name in values:
             raise InputError(f"--param {name} is given twice")
         values[name] = value
@@ -95,7 +95,7 @@ def positive_integer(text, name: str, minimum: int = 1) -> int:
         raise InputError(f"{name} is required")
     token = str(text).strip()
     if not _INTEGER.match(token):
-        raise InputError(f"{name} must be an integer, got '{token}'")
+        raise InputError(f"{name} must be an integer, got {token!r}")
     value = int(token)
     if value < minimum:
         raise InputError(f"{name} = {value} must be >= {minimum}")

@@ -327,18 +327,21 @@ def _exterior_breaks(measure, piece: tuple[float, float], support, degree: int, 
 #: [e + d, e + 2d] away from the edge e, where the local model of Φ' below would not hold)
 _RHO = np.array([1.1, 1.25, 1.5, 1.75, 2.0, 2.5, 3.0, 3.5, 4.0])
 #: angles on the upper half of each ellipse (the lower half is the mirror image)
-_THETA = math.pi * (np.arange(12) + 0.5) / 12
+_THETA = math.pi * (np.arange(13) + 0.5) / 13  # odd count: contains π/2, where the bulk growth peaks
 #: Gauss–Legendre points on the segment from the panel centre to an ellipse point
 _PATH_POINTS = 8
 #: a panel is split when its growth bound exceeds the nominal bulk bound by this (natural log)
 _GROWTH_SLACK = 3.0
 #: at most this many halvings of one panel
 _MAX_HALVINGS = 8
+#: panels per call of growth_bound (bounds the temporary memory to a few MB)
+_CHUNK = 128
 
 
 def nominal_exponent(zeros_per_panel: float, points: int) -> float:
-    """``min_ρ [π ζ (ρ - 1/ρ)/2 - 2 m log ρ]``: the log error bound of a bulk panel (module docstring)."""
-    rho = np.linspace(1.01, 12.0, 2000)
+    """``min_ρ [π ζ (ρ - 1/ρ)/2 - 2 m log ρ]`` over the ρ of :data:`_RHO`: the log error
+    bound of a bulk panel (module docstring), on the same ellipses as :func:`growth_bound`."""
+    rho = _RHO
     return float(np.min(0.5 * math.pi * zeros_per_panel * (rho - 1 / rho) - 2 * points * np.log(rho)))
 
 
@@ -478,21 +481,26 @@ def refine_by_growth(table: np.ndarray, measure, support, edges, degree: int, la
     """Halve every panel whose :func:`growth_bound` exceeds the bulk bound of the layout.
 
     ``table`` has rows ``(lo, hi, m)``.  The target is the bound of a bulk panel
-    with ζ zeros and m points (:func:`nominal_exponent`) plus a slack of
-    ``e^3``, so ordinary bulk panels are left alone and only panels where the
+    with ζ zeros and m points (:func:`nominal_exponent`; not below the rounding
+    level 2^-56) plus a slack of ``e^3``, so ordinary bulk panels are left alone and only panels where the
     density is far from locally constant (deep minima of ψ_t, short gaps) are
     split.  Without the analytic structure of the measure (a foreign solver)
     the table is returned unchanged.
     """
     if not all(hasattr(measure, name) for name in ("stieltjes", "effective_potential", "field")):
         return table
-    target = nominal_exponent(layout.zeros_per_panel, layout.points) + _GROWTH_SLACK
+    # a layout finer than rounding needs is refined only down to rounding (2^-56)
+    target = max(nominal_exponent(layout.zeros_per_panel, layout.points), -_LOG_EPS) + _GROWTH_SLACK
     done = []
     todo = table
     for _ in range(_MAX_HALVINGS):
         if todo.shape[0] == 0:
             break
-        bound = growth_bound(todo[:, :2], todo[:, 2], measure, support, edges, degree)
+        # in chunks: the ellipse-path arrays hold ~900 complex numbers per panel
+        bound = np.concatenate([
+            growth_bound(chunk[:, :2], chunk[:, 2], measure, support, edges, degree)
+            for chunk in np.array_split(todo, max(1, -(-todo.shape[0] // _CHUNK)))
+        ])
         ok = bound <= target
         done.append(todo[ok])
         bad = todo[~ok]
