@@ -739,6 +739,10 @@ def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
             if constant_base and constant_exponent and _exact_power_too_large(base, n.exponent):
                 with np.errstate(all="ignore"):
                     return _sympy_number(float(_evaluate(n, None)))
+            if constant_exponent and not constant_base and exponent.is_Rational and exponent.q > 1000:
+                # x^24.754423046738832 = x^(1547151440421177/62500000000000): sympy's assumption
+                # queries would build polynomials of that degree; a float exponent avoids them
+                exponent = sympy.Float(float(_evaluate(n.exponent, None)))
             if constant_base and not constant_exponent:
                 # c^f(x): a float base keeps sympy from splitting off c^k exactly for a large
                 # constant part k of f (0.001^(x - 1e10) would build a 3e10-digit rational)
@@ -907,7 +911,15 @@ class Expression:
                                   "manipulation; simplify it") from None
 
     def to_sympy(self) -> sympy.Expr:
-        """The expression as a sympy object (variable real; parameters substituted as exact rationals)."""
+        """The expression as a sympy object, built node by node (never from a string).
+
+        The variable is a real symbol; literals and parameter values are exact
+        rationals (``0.3`` -> 3/10).  Three exceptions keep sympy from building
+        huge exact numbers: a constant base under a power that depends on the
+        variable (``2^x`` -> ``2.0**x``), an exponent rational with denominator
+        above 1000 on a variable base, and a constant power whose exact value
+        would exceed 2**16 bits are sympy Floats (double precision).
+        """
         return self._sympy
 
     def derivative(self, order: int = 1) -> "Expression":

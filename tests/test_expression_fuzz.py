@@ -254,6 +254,22 @@ def test_random_trees_round_trip(tree):
         _same_values(again(REAL_POINTS), expression(REAL_POINTS), rtol=0)
 
 
+@settings(max_examples=60, deadline=None)
+@given(TREES)
+def test_symbolic_operations_on_random_trees_refuse_or_succeed(tree):
+    """Derivatives, polynomial detection and sympy conversion: a result or ExpressionError, nothing else."""
+    try:
+        expression = parse_expression(_show(tree), PARAMETERS)
+    except ExpressionError:
+        return
+    for operation in (lambda: expression.derivative()(REAL_POINTS), lambda: expression.derivative(2)(REAL_POINTS),
+                      expression.polynomial_coefficients, expression.is_constant, expression.to_sympy):
+        try:
+            operation()
+        except ExpressionError as error:
+            assert "\n" not in str(error)
+
+
 # ----------------------------------------------------------------------------- 4. derivatives
 SMOOTH_LEAVES = st.one_of(st.just(("x",)), st.just(("x",)), st.integers(1, 3).map(lambda k: ("num", float(k))),
                           st.sampled_from([("num", 0.5), ("pi",), ("param", "s")]))

@@ -53,6 +53,21 @@ Panels
   variation of ``σ = (K eff_t)^{2/3}``, which is the Airy variable near a soft
   edge and keeps the change of ``log(p_k² w)`` per panel below a few units
   further out.
+* **Growth off the axis** (:func:`growth_bound`, :func:`refine_by_growth`).
+  The zero count is a proxy for the size of ``p_K² w_n`` on the Bernstein
+  ellipses of a panel that holds only while ψ_t is nearly constant on the
+  panel.  Near a transition (a band about to split, ψ_t ≈ c (x² + ε) with ε
+  small; or a short gap about to close) a panel of ζ zeros is
+  ``~ (ζ / (K c))^{1/3}``-long or longer and the integrand grows like
+  ``exp(2π K c H³ ρ³/24)`` on its ellipses, not like ``exp(π ζ ρ/2)``: the
+  panels must be of the critical (Painlevé II) length ``(K c)^{-1/3}``.
+  Rather than special-casing minima, every panel (bands, gaps, tails) is
+  tested with the growth ``K max_{E_ρ} Re Φ`` of a local model of
+  ``Φ = 2g_t - V_t - ℓ_t`` and halved until its bound is within ``e^3`` of
+  the bulk bound of the layout.  This is the node-density floor near density
+  minima; in the bulk and at Airy-refined edges it changes nothing.
+  (Before it, V = x⁴/4 - 1.96 x²/2 at n = K = 320 gave two discretisations
+  differing by 1.9e-5; after it, 1.4e-14.)
 * **Singular points** of ``h`` inside Σ are panel breaks; adjacent panels use
   Gauss–Jacobi rules with that exponent (scipy.special.roots_jacobi), so
   ``(x - c)^p`` is integrated exactly.
