@@ -36,6 +36,12 @@ Evaluation semantics.  Real input is evaluated in real double arithmetic
 principal branches.  ``abs`` is not analytic: on complex input it returns
 the modulus.  :attr:`Expression.analytic` says whether the principal-branch
 formula is analytic near the real line (see :func:`_facts`).
+
+Derivatives are sympy.diff of the tree's sympy form, walked back into a
+tree (only the node types listed in :func:`_from_sympy` are accepted).
+They are pointwise derivatives: ``d|u|/dx = sign(u) u'`` with
+``sign(0) = 0``, Dirac masses dropped.  Their text may contain ``sign``,
+which is not accepted as input.
 """
 
 from __future__ import annotations

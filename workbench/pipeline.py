@@ -472,7 +472,9 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     node = Group(attrs={"description": "predictions of the model problem (leading order, "
                                        "error O(1/n)); degree = scaling = n",
                         "available": True})
-    pred = predictor(mu)
+    # the factor h enters through its Szegő function (the same factor objects as the direct side)
+    factors = build_weight(case, mu.field, mu.on, 1.0).factors if case.factor.kind != "none" else None
+    pred = predictor(mu, factor=factors)
     prediction = pred.predict(ns_arr)
     node.attrs["checks"] = {k: float(v) for k, v in prediction.checks.items()}
     node.attrs["g_function_checks"] = {k: float(v) for k, v in dict(pred.g.checks).items()}
@@ -481,7 +483,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     node.attrs["h_factor"] = case.factor.describe()
     if case.factor.kind != "none":
         node.attrs["caution"] = ("the factor h enters the outer parametrix through its Szego function; "
-                                 "these predictions use h = 1 (exact at leading order for one band)")
+                                 "no local parametrix at an interior Fisher-Hartwig point")
     node.add("n", ns_arr, "values of n")
     node.add("a", prediction.a, "predicted a_n^{(n)} (outer parametrix expansion, a^2 = (M1)12 (M1)21)")
     node.add("b", prediction.b, "predicted b_n^{(n)} = (M2)12/(M1)12 - (M1)22")
