@@ -89,8 +89,10 @@ def summary_lines(tree, name: str = "") -> list[str]:
             for key, fit in rates.groups.items():
                 s, se = fit.attrs.get("slope"), fit.attrs.get("stderr")
                 note = f"  ({fit.attrs['note']})" if "note" in fit.attrs else ""
+                bound = fit.attrs.get("max_n_times_error")
+                bound_text = f"  max n*err {_fmt(bound, 8)}" if bound is not None else ""
                 lines.append(f"    {key:<16} slope {_fmt(s, 8)} +- {_fmt(se, 8)}  "
-                             f"({fit.attrs.get('points')} points){note}")
+                             f"({fit.attrs.get('points')} points){bound_text}{note}")
     messages = attrs.get("messages", "none")
     if messages not in ("none", None, []):
         lines.append(f"  not verified: {messages}")
