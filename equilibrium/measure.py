@@ -525,25 +525,8 @@ def build_measure(
             f"{name} = {checks[name]:.3g}" for name in failed
         )
     classification = Classification(not singularities, tuple(singularities))
-    return EquilibriumMeasure(
-        support=support,
-        edges=edges,
-        masses=masses,
-        omega=omega,
-        lagrange=float(lagrange),
-        energy=float(energy),
-        capacity=capacity,
-        kind=kind,
-        verified=verified,
-        checks=checks,
-        classification=classification,
-        message=message,
-        field=field,
-        on=on,
-        _window=window,
-        _state=state,
-        _g_scaled=g_scaled,
-        _pieces=pieces,
+    return replace(
+        provisional, verified=verified, checks=checks, classification=classification, message=message
     )
 
 
