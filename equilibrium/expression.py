@@ -709,17 +709,22 @@ def _sympy_number(value: float | Fraction) -> sympy.Rational:
     return sympy.Rational(exact.numerator, exact.denominator)
 
 
-def _exact_power_too_large(base: sympy.Expr, exponent: Node) -> bool:
-    """Would sympy build a huge exact number for this constant power (``0.001^1e10``)?
+def _exact_power_too_large(base: sympy.Expr, exponent: sympy.Expr, p: float) -> bool:
+    """Would sympy build huge exact numbers for this constant power ``base^p``?
 
-    sympy raises rationals to integer (parts of) powers exactly, so the size of
-    the result is about (bits of the base's rationals) * |p|; beyond 2**16 bits
-    the constant is taken at its double-precision value instead.
+    sympy raises rationals to integer (parts of) powers exactly and factors
+    the results, so ``0.001^1e10`` or ``(19.768^19.768)^-18.356`` would never
+    finish.  Exact forms are kept only for integer ``|p| <= 64`` with a result
+    below 2**16 bits, and for ``r^(a/b)`` with small rational ``r`` (below
+    2**32), ``b <= 1000``, ``|p| <= 64`` (``2^0.5`` -> sqrt(2)); other constant
+    powers are taken at their double-precision value.
     """
-    with np.errstate(all="ignore"):
-        p = abs(float(_evaluate(exponent, None)))
-    bits = sum(r.p.bit_length() + r.q.bit_length() for r in base.atoms(sympy.Rational))
-    return p > MAX_EXPONENT or bits * p > 2**16
+    if abs(p) > MAX_EXPONENT:
+        return True
+    if p.is_integer():
+        return sum(r.p.bit_length() + r.q.bit_length() for r in base.atoms(sympy.Rational)) * abs(p) > 2**16
+    small = base.is_Rational and max(abs(base.p), base.q) < 2**32
+    return not (small and exponent.is_Rational and exponent.q <= 1000)
 
 
 def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
@@ -742,9 +747,11 @@ def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
         if isinstance(n, Power):
             base, exponent = walk(n.base), walk(n.exponent)
             constant_base, constant_exponent = (_facts(c).value is not None for c in (n.base, n.exponent))
-            if constant_base and constant_exponent and _exact_power_too_large(base, n.exponent):
+            if constant_base and constant_exponent:
                 with np.errstate(all="ignore"):
-                    return _sympy_number(float(_evaluate(n, None)))
+                    p = float(_evaluate(n.exponent, None))
+                    if _exact_power_too_large(base, exponent, p):
+                        return _sympy_number(float(_evaluate(n, None)))
             if constant_exponent and not constant_base and exponent.is_Rational and exponent.q > 1000:
                 # x^24.754423046738832 = x^(1547151440421177/62500000000000): sympy's assumption
                 # queries would build polynomials of that degree; a float exponent avoids them

@@ -356,7 +356,7 @@ def _constant(expression_text: str, parameters: Mapping[str, float], what: str) 
     with np.errstate(all="ignore"):
         values = np.asarray(expression(probe), dtype=float) + np.zeros(2)
     if not np.all(np.isfinite(values)) or abs(values[0] - values[1]) > 1e-14 * max(1.0, abs(values[0])):
-        raise InputError(f"the {what} '{expression_text}' must be a finite constant (no x)")
+        raise InputError(f"the {what} {expression_text!r} must be a finite constant (no x)")
     return float(values[0])
 
 
@@ -437,7 +437,7 @@ def _root_factors(coefficients: np.ndarray, exponent: float, absolute: bool, tex
             inside = any(a < r < b for a, b in on.intervals)
             if inside:
                 raise InputError(
-                    f"the base of '{text}' changes sign at x = {r:g} inside the set; "
+                    f"the base of {text!r} changes sign at x = {r:g} inside the set; "
                     f"write abs(...)^p for a root inside the set"
                 )
             lo, hi = on.hull
@@ -452,7 +452,7 @@ def _root_factors(coefficients: np.ndarray, exponent: float, absolute: bool, tex
         probe = _interior_probe(on)
         sign = np.polynomial.polynomial.polyval(probe, coefficients)
         if sign <= 0:
-            raise InputError(f"the base of '{text}' is negative on the set; a factor must be positive")
+            raise InputError(f"the base of {text!r} is negative on the set; a factor must be positive")
     return factors
 
 
@@ -494,7 +494,7 @@ def parse_factor(text: str, parameters: Mapping[str, float] | None = None,
     smooth_parts: list[tuple[str, int]] = []  # (text, +1 multiply / -1 divide)
     for separator, piece in _split_top(tokens, {"*", "/"}):
         if not piece:
-            raise InputError(f"the factor '{text}' has an empty product term")
+            raise InputError(f"the factor {text!r} has an empty product term")
         sign = -1.0 if separator == "/" else 1.0
         recognised = _recognise_power(piece, parameters, on, sign)
         if recognised is None:
