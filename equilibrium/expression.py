@@ -752,6 +752,11 @@ def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
                     p = float(_evaluate(n.exponent, None))
                     if _exact_power_too_large(base, exponent, p):
                         return _sympy_number(float(_evaluate(n, None)))
+            if constant_exponent and not constant_base:
+                with np.errstate(all="ignore"):
+                    p = float(_evaluate(n.exponent, None))
+                if p.is_integer():      # x^tanh(19): numpy's power is x^1.0; sympy must agree
+                    exponent = sympy.Integer(int(p))
             if constant_exponent and not constant_base and exponent.is_Rational and exponent.q > 1000:
                 # x^24.754423046738832 = x^(1547151440421177/62500000000000): sympy's assumption
                 # queries would build polynomials of that degree; a float exponent avoids them
@@ -978,8 +983,18 @@ class Expression:
         if degree > MAX_POLYNOMIAL_DEGREE:
             raise ExpressionError(f"polynomial degree {degree} of '{self.text[:40]}' exceeds "
                                   f"{MAX_POLYNOMIAL_DEGREE}; use a lower degree")
-        poly = self._sympy_call(sympy.Poly, self.to_sympy(), self._symbol)
-        coefficients = np.array([float(c) for c in reversed(poly.all_coeffs())], dtype=float)
+        try:
+            poly = self._sympy_call(sympy.Poly, self.to_sympy(), self._symbol)
+        except sympy.PolynomialError:
+            raise ExpressionError(f"'{self.text[:40]}' is not a polynomial in exact arithmetic; "
+                                  "rewrite its constants") from None
+        exact = reversed(poly.all_coeffs())
+        values = [complex(c) if c.is_number and c.is_finite is not False else complex("nan") for c in exact]
+        if not all(math.isfinite(v.real) and v.imag == 0 for v in values):
+            raise ExpressionError(f"a polynomial coefficient of '{self.text[:40]}' is not a finite real "
+                                  "double (it overflows, or is undefined in exact arithmetic such as "
+                                  "log(sin(pi)) = log(0)); rewrite the constants")
+        coefficients = np.array([v.real for v in values], dtype=float)
         nonzero = np.flatnonzero(coefficients)
         return coefficients[:nonzero[-1] + 1] if nonzero.size else np.zeros(1)
 

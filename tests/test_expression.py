@@ -303,6 +303,16 @@ def test_polynomial_coefficients_are_exact_before_rounding():
         parse_expression("((x+1)^64)^64").polynomial_coefficients()
 
 
+def test_polynomial_float_exact_mismatches_are_refused_or_reconciled():
+    # float and exact arithmetic disagree here; the answer must be a refusal or agree with __call__
+    with pytest.raises(ExpressionError, match="not a finite real double"):
+        parse_expression("log(sin(pi))*x").polynomial_coefficients()     # exact: log(0)
+    with pytest.raises(ExpressionError, match="overflows"):
+        parse_expression("(x + 1e300)^2").polynomial_coefficients()      # 1e600 is not a double
+    e = parse_expression("x^tanh(19)")                                   # tanh(19) == 1.0 in doubles
+    assert e.polynomial_coefficients().tolist() == [0.0, 1.0] and e(2.5) == 2.5
+
+
 def test_is_constant():
     for text in ("pi*2", "exp(1)", "0*x", "x - x", "sin(2)^2"):
         assert parse_expression(text).is_constant(), text
