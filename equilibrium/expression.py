@@ -729,6 +729,26 @@ def _exact_power_too_large(base: sympy.Expr, exponent: sympy.Expr, p: float) -> 
 
 def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
     """Build sympy objects node by node (``calculus`` swaps in the real-argument |u| for differentiation)."""
+    def power(n: Power, base: sympy.Expr, exponent: sympy.Expr) -> sympy.Expr:
+        """base^exponent, with floats where sympy would build huge exact numbers."""
+        base_value, p = _facts(n.base).value, _facts(n.exponent).value
+        if base_value is not None and p is not None:
+            if _exact_power_too_large(base, exponent, p):
+                with np.errstate(all="ignore"):
+                    return _sympy_number(float(_evaluate(n, None)))
+        elif p is not None:
+            if p.is_integer():      # x^tanh(19): numpy computes x^1.0, so sympy must see x^1
+                exponent = sympy.Integer(int(p))
+            elif exponent.is_Rational and exponent.q > 1000:
+                # x^24.754423046738832 = x^(1547151440421177/62500000000000): sympy's assumption
+                # queries would build polynomials of that degree; a float exponent avoids them
+                exponent = sympy.Float(p)
+        elif base_value is not None:
+            # c^f(x): a float base keeps sympy from splitting off c^k exactly for a large
+            # constant part k of f (0.001^(x - 1e10) would build a 3e10-digit rational)
+            base = sympy.Float(base_value)
+        return sympy.Pow(base, exponent)
+
     def walk(n: Node) -> sympy.Expr:
         if isinstance(n, Number):
             return _sympy_number(n.exact if n.exact is not None else n.value)
@@ -745,28 +765,7 @@ def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
         if isinstance(n, Product):
             return sympy.Mul(*[sympy.Pow(walk(f), -1) if d else walk(f) for f, d in zip(n.factors, n.divided)])
         if isinstance(n, Power):
-            base, exponent = walk(n.base), walk(n.exponent)
-            constant_base, constant_exponent = (_facts(c).value is not None for c in (n.base, n.exponent))
-            if constant_base and constant_exponent:
-                with np.errstate(all="ignore"):
-                    p = float(_evaluate(n.exponent, None))
-                    if _exact_power_too_large(base, exponent, p):
-                        return _sympy_number(float(_evaluate(n, None)))
-            if constant_exponent and not constant_base:
-                with np.errstate(all="ignore"):
-                    p = float(_evaluate(n.exponent, None))
-                if p.is_integer():      # x^tanh(19): numpy's power is x^1.0; sympy must agree
-                    exponent = sympy.Integer(int(p))
-            if constant_exponent and not constant_base and exponent.is_Rational and exponent.q > 1000:
-                # x^24.754423046738832 = x^(1547151440421177/62500000000000): sympy's assumption
-                # queries would build polynomials of that degree; a float exponent avoids them
-                exponent = sympy.Float(float(_evaluate(n.exponent, None)))
-            if constant_base and not constant_exponent:
-                # c^f(x): a float base keeps sympy from splitting off c^k exactly for a large
-                # constant part k of f (0.001^(x - 1e10) would build a 3e10-digit rational)
-                with np.errstate(all="ignore"):
-                    base = sympy.Float(float(_evaluate(n.base, None)))
-            return sympy.Pow(base, exponent)
+            return power(n, walk(n.base), walk(n.exponent))
         if calculus and n.function in ("abs", "sign"):
             return (_RealAbs if n.function == "abs" else _RealSign)(walk(n.argument))
         return _SYMPY_FUNCTIONS[n.function](walk(n.argument))
