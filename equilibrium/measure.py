@@ -293,17 +293,18 @@ def _band_rule_distances(structure: BandStructure, j: int) -> tuple[float | None
     return near_lo, near_hi
 
 
-def _band_integrand(measure_like, j: int, extra=None):
-    """θ ↦ ψ(x(θ)) dx/dθ (times extra(x)) on band j."""
+def _density_dx_dtheta(structure: BandStructure, h_of, j: int, rule) -> np.ndarray:
+    """ψ(x) dx/dθ at the nodes of an angular rule on band j (ψ = s_j h ∏|x-e|^{σ_e}/(2π))."""
+    return band_sign(structure, j) * h_of(rule.x) * distance_product(structure, 2 * j, 2 * j + 1, rule) / (2 * math.pi)
+
+
+def _band_integrand(measure_like, j: int):
+    """θ ↦ ψ(x(θ)) dx/dθ on band j."""
     structure, h_of = measure_like
 
     def integrand(theta):
         a, b = structure.ends[2 * j], structure.ends[2 * j + 1]
-        rule = _rule_at(a, b, theta)
-        value = band_sign(structure, j) * h_of(rule.x) * distance_product(structure, 2 * j, 2 * j + 1, rule) / (2 * math.pi)
-        if extra is not None:
-            value = value * extra(rule)
-        return value
+        return _density_dx_dtheta(structure, h_of, j, _rule_at(a, b, theta))
 
     return integrand
 
@@ -434,8 +435,8 @@ def build_measure(
         a, b = support[j]
         near_lo, near_hi = _band_rule_distances(structure, j)
         rule = angular_rule(a, b, near_lo, near_hi, points=24)
-        values = band_sign(structure, j) * h_of(rule.x) * distance_product(structure, 2 * j, 2 * j + 1, rule)
-        V_mean += np.dot(rule.weights, values * np.real(field.V(rule.x))) / (2 * math.pi)
+        values = _density_dx_dtheta(structure, h_of, j, rule)
+        V_mean += np.dot(rule.weights, values * np.real(field.V(rule.x)))
     energy = 0.5 * (lagrange + V_mean)
     capacity = math.exp(-lagrange / 2) if field.is_zero else None
 
@@ -654,8 +655,7 @@ def _log_potentials(measure: EquilibriumMeasure, xs: np.ndarray) -> np.ndarray:
         far = distance > 0.25 * (b - a)
         if np.any(far):
             rule = angular_rule(a, b, *_band_rule_distances(structure, j), points=20)
-            values = band_sign(structure, j) * measure.h(rule.x) * distance_product(structure, 2 * j, 2 * j + 1, rule)
-            weights = rule.weights * values / (2 * math.pi)
+            weights = rule.weights * _density_dx_dtheta(structure, measure.h, j, rule)
             total[far] += -np.log(np.abs(xs[far, None] - rule.x[None, :])) @ weights
         near_points.append(~far)
     for i, x in enumerate(xs):
