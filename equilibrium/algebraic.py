@@ -37,7 +37,7 @@ V on the window and only logarithmically on the width of the gaps.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field as dataclass_field
 
 import numpy as np
 from numpy.polynomial import chebyshev as C
@@ -159,27 +159,39 @@ def gap_rule(structure: BandStructure, gap: int) -> AngularRule:
 
 
 def distance_product(
-    structure: BandStructure, lo_index: int, hi_index: int, rule: AngularRule, include_jacobian: bool = True
+    structure: BandStructure, lo_index: int, hi_index: int, rule, include_jacobian: bool = True
 ) -> np.ndarray:
     """∏_e |x - e|^{σ_e} (· dx/dθ) at the nodes of a rule on [e_lo, e_hi].
 
     σ_e = +1/2 for soft ends and -1/2 for hard ends, so the product is
     |R(x)|^{1/2} / |Q_h(x)|.  The rule's interval runs between two
-    consecutive ends (a band or a gap) or from the last end outward
-    (``hi_index = None`` style: pass ``hi_index = len(ends)``); distances to
-    its own ends come from the angle and distances to the others are formed
-    beyond the interval, so nothing cancels.
+    consecutive ends (a band or a gap), or from the last end outward
+    (``hi_index = len(ends)``) or inward to the first (``lo_index = -1``).
+    Distances to its own ends come from the angle (``rule.from_lo``,
+    ``rule.to_hi``) and distances to the others are formed beyond the
+    interval as (x - lo) + (lo - e) or (hi - x) + (e - hi), so nothing
+    cancels however small the neighbouring gaps and bands are.
     """
     e, hard = structure.ends, structure.hard
     weight = rule.dx_dtheta.copy() if include_jacobian else np.ones_like(rule.x)
-    for index, point in enumerate(e):
-        if index == lo_index:
-            distance = rule.from_lo
-        elif index == hi_index:
-            distance = rule.to_hi
-        else:
-            distance = rule.distance_to(point)
-        weight *= distance ** (-0.5 if hard[index] else 0.5)
+    columns = [rule.from_lo[:, None] + (rule.lo - e[: max(lo_index, 0)])[None, :]]
+    kinds = [hard[: max(lo_index, 0)]]
+    if 0 <= lo_index < e.size:
+        columns.append(rule.from_lo[:, None])
+        kinds.append(hard[lo_index : lo_index + 1])
+    if 0 <= hi_index < e.size:
+        columns.append(rule.to_hi[:, None])
+        kinds.append(hard[hi_index : hi_index + 1])
+    right = min(hi_index + 1, e.size)
+    columns.append(rule.to_hi[:, None] + (e[right:] - rule.hi)[None, :])
+    kinds.append(hard[right:])
+    # one square root per factor (no overflow however many ends), then soft over hard
+    roots = np.sqrt(np.hstack(columns))
+    is_hard = np.concatenate(kinds)
+    if np.any(~is_hard):
+        weight *= np.prod(roots[:, ~is_hard], axis=1)
+    if np.any(is_hard):
+        weight /= np.prod(roots[:, is_hard], axis=1)
     return weight
 
 
@@ -210,6 +222,21 @@ def gap_weight(rule: AngularRule, structure: BandStructure, gap: int) -> np.ndar
 
 
 @dataclass(frozen=True)
+class FieldSplit:
+    """What (2)–(3) give for given ends, before P enters: the inner part K of
+    f = V' Q_h / R^{1/2} and the moment residuals, with their derivatives with
+    respect to the soft ends when asked for."""
+
+    inner: np.ndarray  # row 0: Chebyshev coefficients of K; rows 1..: ∂K/∂e for the soft ends
+    moments: np.ndarray
+    moment_jacobian: np.ndarray  # shape (N, #soft), empty without derivatives
+
+    @property
+    def has_derivatives(self) -> bool:
+        return self.inner.shape[0] > 1
+
+
+@dataclass(frozen=True)
 class AlgebraicState:
     """Everything (2)–(4) give for one band structure and one P."""
 
@@ -219,56 +246,86 @@ class AlgebraicState:
     moment_residuals: np.ndarray
     gap_residuals: np.ndarray
     jacobian: np.ndarray | None = None  # d(residual)/d(soft ends, free P coefficients)
+    split: FieldSplit | None = dataclass_field(default=None, repr=False)
 
     @property
     def residual(self) -> np.ndarray:
         return np.concatenate([self.moment_residuals, self.gap_residuals])
 
 
-def algebraic_state(
-    window: Window, structure: BandStructure, p_free: np.ndarray, with_jacobian: bool = False
-) -> AlgebraicState:
-    """Evaluate (2)–(4) for the given ends and free coefficients of P.
+def field_split(window: Window, structure: BandStructure, with_derivatives: bool = False) -> FieldSplit:
+    """K and the moment residuals (3) for the given ends, by one (batched) FFT.
 
-    With ``with_jacobian`` the derivatives with respect to the soft ends and
-    the free coefficients are computed too: since ∂f/∂e = f/(2(z - e)) for a
-    soft end e, all of them come from one batched FFT, and the derivative of
-    the gap weight is -w/(2(x - e)).
+    Since ∂f/∂e = f/(2(z - e)) for a soft end e, the derivatives come from
+    the same FFT as f itself.
     """
     ellipse = window.ellipse
     z = ellipse.z
     f = window.dV_on_ellipse * q_hard(z, structure) / sqrt_R(z, structure.ends)
-    soft = np.nonzero(~structure.hard)[0] if with_jacobian else np.zeros(0, dtype=int)
+    soft = np.nonzero(~structure.hard)[0] if with_derivatives else np.zeros(0, dtype=int)
     if soft.size:
         samples = np.vstack([f] + [f / (2.0 * (z - structure.ends[i])) for i in soft])
     else:
         samples = f[None, :]
     scaled = ellipse.laurent(samples)
-    k, nh = structure.bands, structure.hard_count
-    count = min(window.dV.degree + nh + 3, ellipse.size // 2 - 1)
+    count = inner_count(window, structure)
     inner = ellipse.chebyshev_part(scaled, count)
-    h = inner[0].copy()
-    degree_P = nh - k - 1
-    q = max(degree_P, 0)
-    polynomial = np.zeros(max(degree_P + 1, 0))
-    if degree_P >= 0:
-        polynomial[:degree_P] = p_free
-        polynomial[degree_P] = monic_leading(ellipse.half_width, degree_P)
-        h[: degree_P + 1] -= 2.0 * polynomial
     N = structure.moment_conditions
-    columns = soft.size + q
-    jacobian = np.zeros((N + k - 1, columns)) if with_jacobian else None
     if N:
         r = ellipse.outer_part(scaled, N)
         m = np.arange(1, N + 1)
         normal = (ellipse.half_width / 2.0) ** m / 2.0
         moments = r[0] * normal
         moments[-1] -= 1.0
-        if with_jacobian:
-            jacobian[:N, : soft.size] = (r[1:] * normal).T
+        moment_jacobian = (r[1:] * normal).T
     else:
         moments = np.zeros(0)
+        moment_jacobian = np.zeros((0, soft.size))
+    return FieldSplit(inner, moments, moment_jacobian)
+
+
+def inner_count(window: Window, structure: BandStructure) -> int:
+    """Number of Chebyshev coefficients kept for K (and h)."""
+    return min(window.dV.degree + structure.hard_count + 3, window.ellipse.size // 2 - 1)
+
+
+def algebraic_state(
+    window: Window,
+    structure: BandStructure,
+    p_free: np.ndarray,
+    with_jacobian: bool = False,
+    split: FieldSplit | None = None,
+) -> AlgebraicState:
+    """Evaluate (2)–(4) for the given ends and free coefficients of P.
+
+    With ``with_jacobian`` the derivatives with respect to the soft ends and
+    the free coefficients are computed too (the derivative of the gap weight
+    is -w/(2(x - e))).  ``split`` may pass the :class:`FieldSplit` of the same
+    ends, e.g. when only P changes: (3) does not depend on P and (4) is
+    linear in it.
+    """
+    soft = np.nonzero(~structure.hard)[0] if with_jacobian else np.zeros(0, dtype=int)
+    if split is None or (soft.size and not split.has_derivatives):
+        split = field_split(window, structure, with_derivatives=with_jacobian)
+    inner = split.inner
+    k, nh = structure.bands, structure.hard_count
+    count = inner.shape[1]
+    h = inner[0].copy()
+    degree_P = nh - k - 1
+    q = max(degree_P, 0)
+    polynomial = np.zeros(max(degree_P + 1, 0))
+    if degree_P >= 0:
+        polynomial[:degree_P] = p_free
+        polynomial[degree_P] = monic_leading(window.ellipse.half_width, degree_P)
+        h[: degree_P + 1] -= 2.0 * polynomial
+    N = structure.moment_conditions
+    columns = soft.size + q
+    jacobian = np.zeros((N + k - 1, columns)) if with_jacobian else None
+    moments = split.moments
+    if with_jacobian and N:
+        jacobian[:N, : soft.size] = split.moment_jacobian
     gaps = np.empty(k - 1)
+    soft_ends = structure.ends[soft]
     for j in range(k - 1):
         rule = gap_rule(structure, j)
         weight = gap_weight(rule, structure, j) * rule.weights
@@ -277,18 +334,16 @@ def algebraic_state(
         h_nodes = basis[:, : len(h)] @ h
         gaps[j] = np.dot(weight, h_nodes) / norm
         if with_jacobian:
+            # d/de of ∫ h w over the gap: ∫ (∂h/∂e) w - ∫ h w / (2(x - e)), x - e signed;
+            # distances to the gap's own ends come from the rule (no cancellation)
+            signed = rule.x[:, None] - soft_ends[None, :]
+            signed[:, soft == 2 * j + 1] = rule.from_lo[:, None]
+            signed[:, soft == 2 * j + 2] = -rule.to_hi[:, None]
+            dh = basis @ inner[1:].T
             row = N + j
-            for column, i in enumerate(soft):
-                dh = basis @ inner[1 + column]
-                signed = rule.x - structure.ends[i]
-                if i == 2 * j + 1:
-                    signed = rule.from_lo
-                elif i == 2 * j + 2:
-                    signed = -rule.to_hi
-                jacobian[row, column] = (np.dot(weight, dh) - np.dot(weight, h_nodes / (2.0 * signed))) / norm
-            for l in range(q):
-                jacobian[row, soft.size + l] = -2.0 * np.dot(weight, basis[:, l]) / norm
-    return AlgebraicState(structure, h, polynomial, moments, gaps, jacobian)
+            jacobian[row, : soft.size] = (weight @ dh - (weight * h_nodes) @ (0.5 / signed)) / norm
+            jacobian[row, soft.size :] = -2.0 * (weight @ basis[:, :q]) / norm
+    return AlgebraicState(structure, h, polynomial, moments, gaps, jacobian, split)
 
 
 @dataclass(frozen=True)
@@ -325,15 +380,19 @@ def solve_structure(
     state = algebraic_state(window, structure, p, with_jacobian=True)
     norm = float(np.max(np.abs(state.residual))) if state.residual.size else 0.0
     if len(soft) == 0:
-        # linear in p: one solve and one step of iterative refinement
-        for iteration in range(2):
-            if q == 0 or norm < tolerance:
-                break
-            trial_p = p - np.linalg.solve(state.jacobian, state.residual)
-            trial = algebraic_state(window, structure, trial_p, with_jacobian=iteration == 0)
-            trial_norm = float(np.max(np.abs(trial.residual)))
-            if trial_norm < norm:
-                p, state, norm = trial_p, trial, trial_norm
+        # linear in p: the residual is r0 + J p exactly, so one solve, one step of
+        # iterative refinement on that affine residual, and one evaluation to confirm
+        if q == 0 or norm < tolerance:
+            return AlgebraicSolution(state, 0, norm, norm < 1e-11)
+        try:
+            step = np.linalg.solve(state.jacobian, state.residual)
+            step += np.linalg.solve(state.jacobian, state.residual - state.jacobian @ step)
+        except np.linalg.LinAlgError:
+            step = np.linalg.lstsq(state.jacobian, state.residual, rcond=None)[0]
+        trial = algebraic_state(window, structure, p - step, split=state.split)
+        trial_norm = float(np.max(np.abs(trial.residual)))
+        if trial_norm < norm:
+            state, norm = trial, trial_norm
         return AlgebraicSolution(state, 1, norm, norm < 1e-11)
     iterations = 0
     for iterations in range(1, max_iterations + 1):

@@ -58,7 +58,7 @@ from .algebraic import (
     sqrt_R,
 )
 from .field import Field
-from .quadrature import CumulativeIntegral, angular_breaks, angular_rule, cumulative_integral, theta_of_x
+from .quadrature import PANEL_POINTS, AngularRule, CumulativeIntegral, angular_breaks, angular_rule, cumulative_integral, theta_of_x
 from .sets import IntervalSet
 
 #: figures above these thresholds make a result unverified
@@ -293,9 +293,28 @@ def _band_rule_distances(structure: BandStructure, j: int) -> tuple[float | None
     return near_lo, near_hi
 
 
-def _density_dx_dtheta(structure: BandStructure, h_of, j: int, rule) -> np.ndarray:
-    """ψ(x) dx/dθ at the nodes of an angular rule on band j (ψ = s_j h ∏|x-e|^{σ_e}/(2π))."""
-    return band_sign(structure, j) * h_of(rule.x) * distance_product(structure, 2 * j, 2 * j + 1, rule) / (2 * math.pi)
+def _density_dx_dtheta(structure: BandStructure, h_of, j: int, rule, h_values=None) -> np.ndarray:
+    """ψ(x) dx/dθ at the nodes of an angular rule on band j (ψ = s_j h ∏|x-e|^{σ_e}/(2π)).
+
+    ``h_values`` may pass h at the nodes when the caller has evaluated it already.
+    """
+    h_values = h_of(rule.x) if h_values is None else h_values
+    return band_sign(structure, j) * h_values * distance_product(structure, 2 * j, 2 * j + 1, rule) / (2 * math.pi)
+
+
+def _band_quadratures(structure: BandStructure, h_of, points: int = PANEL_POINTS) -> list[tuple[AngularRule, np.ndarray]]:
+    """Angular rule on every band and ψ dx/dθ times the weights at its nodes (h evaluated once for all bands)."""
+    rules = [
+        angular_rule(structure.ends[2 * j], structure.ends[2 * j + 1], *_band_rule_distances(structure, j), points=points)
+        for j in range(structure.bands)
+    ]
+    h_all = h_of(np.concatenate([rule.x for rule in rules]))
+    out, start = [], 0
+    for j, rule in enumerate(rules):
+        stop = start + rule.x.size
+        out.append((rule, rule.weights * _density_dx_dtheta(structure, h_of, j, rule, h_all[start:stop])))
+        start = stop
+    return out
 
 
 def _band_integrand(measure_like, j: int):
@@ -319,11 +338,6 @@ class _PointRule:
     from_lo: np.ndarray
     to_hi: np.ndarray
     dx_dtheta: np.ndarray
-
-    def distance_to(self, e: float) -> np.ndarray:
-        if e <= self.lo:
-            return self.from_lo + (self.lo - e)
-        return self.to_hi + (e - self.hi)
 
 
 def _rule_at(lo: float, hi: float, theta: np.ndarray) -> _PointRule:
@@ -349,12 +363,7 @@ def band_masses(window: Window, state: AlgebraicState) -> np.ndarray:
     def h_of(x):
         return C.chebval(window.t(x), state.h)
 
-    masses = []
-    for j in range(structure.bands):
-        a, b = structure.ends[2 * j], structure.ends[2 * j + 1]
-        rule = angular_rule(a, b, *_band_rule_distances(structure, j))
-        masses.append(float(np.dot(rule.weights, _band_integrand((structure, h_of), j)(rule.theta))))
-    return np.array(masses)
+    return np.array([float(np.sum(weighted)) for _, weighted in _band_quadratures(structure, h_of)])
 
 
 def build_measure(
@@ -366,11 +375,14 @@ def build_measure(
     extra_checks: dict[str, float] | None = None,
     message: str = "",
     light: bool = False,
+    masses: np.ndarray | None = None,
 ) -> EquilibriumMeasure:
     """Assemble the result object and compute all verification figures.
 
     ``light=True`` skips the expensive figures (direct log potential,
     sampling of the effective potential): used for intermediate results.
+    ``masses`` may pass the :func:`band_masses` of this state when the
+    caller has them already.
     """
     structure = state.structure
     k = structure.bands
@@ -387,7 +399,7 @@ def build_measure(
     )
 
     # band masses (angular rule); cumulative pieces are built lazily when asked for
-    masses = band_masses(window, state)
+    masses = band_masses(window, state) if masses is None else np.asarray(masses, dtype=float)
     omega = np.array([masses[j + 1:].sum() for j in range(k - 1)])
     pieces = _Pieces(structure, h_of, on, ellipse)
 
@@ -430,13 +442,9 @@ def build_measure(
     lagrange_spread = float(np.max(np.abs(np.array(lagranges) - lagrange)))
 
     # energy: I = (ℓ + ∫ V dμ)/2 with ∫ V dμ by angular quadrature of the exact V
-    V_mean = 0.0
-    for j in range(k):
-        a, b = support[j]
-        near_lo, near_hi = _band_rule_distances(structure, j)
-        rule = angular_rule(a, b, near_lo, near_hi, points=24)
-        values = _density_dx_dtheta(structure, h_of, j, rule)
-        V_mean += np.dot(rule.weights, values * np.real(field.V(rule.x)))
+    band_rules = _band_quadratures(structure, h_of, points=24)
+    V_all = np.real(field.V(np.concatenate([rule.x for rule, _ in band_rules])))
+    V_mean = float(np.dot(np.concatenate([weighted for _, weighted in band_rules]), V_all))
     energy = 0.5 * (lagrange + V_mean)
     capacity = math.exp(-lagrange / 2) if field.is_zero else None
 
@@ -478,42 +486,34 @@ def build_measure(
     checks["euler_lagrange_residual"] = float(np.max(np.abs(2 * U + V_mid - lagrange)) / max(1.0, abs(lagrange)))
 
     singularities: list[Singularity] = []
-    # positivity of the density
-    margins, places = [], []
-    peak = 0.0
-    for j, (a, b) in enumerate(support):
-        theta = np.linspace(0, math.pi, 257)
-        xs = a + (b - a) * np.sin(theta / 2) ** 2
-        eta = provisional._regular_part(j, xs)
-        peak = max(peak, float(np.max(np.abs(eta))))
-        i = int(np.argmin(eta))
-        margins.append(float(eta[i]))
-        places.append(float(xs[i]))
-    peak = peak or 1.0
-    density_margin = min(margins) / peak
+    # positivity of the density: η = s_j h on an angular grid of each band (ends included)
+    theta = np.linspace(0, math.pi, 257)
+    grids = [a + (b - a) * np.sin(theta / 2) ** 2 for a, b in support]
+    etas = [provisional._regular_part(j, xs) for j, xs in enumerate(grids)]
+    peak = max(float(np.max(np.abs(eta))) for eta in etas) or 1.0
+    density_margin = min(float(np.min(eta)) for eta in etas) / peak
     if kind == "positive":
         checks["density_margin"] = float(density_margin)
-        for j, (a, b) in enumerate(support):
-            theta = np.linspace(0, math.pi, 257)[1:-1]
-            xs = a + (b - a) * np.sin(theta / 2) ** 2
-            eta = provisional._regular_part(j, xs) / peak
-            i = int(np.argmin(eta))
-            if eta[i] < SINGULAR_THRESHOLD and 0 < i < len(eta) - 1:
-                singularities.append(Singularity("interior zero of the density", float(xs[i])))
-            for side, x_edge in ((0, a), (1, b)):
-                value = float(provisional._regular_part(j, np.array([x_edge]))[0]) / peak
+        for j, (xs, eta) in enumerate(zip(grids, etas)):
+            interior = eta[1:-1] / peak
+            i = int(np.argmin(interior))
+            if interior[i] < SINGULAR_THRESHOLD and 0 < i < len(interior) - 1:
+                singularities.append(Singularity("interior zero of the density", float(xs[1 + i])))
+            for side, value in ((0, eta[0] / peak), (1, eta[-1] / peak)):
                 if abs(value) < SINGULAR_THRESHOLD:
                     label = (
                         "density vanishes faster than a square root at a soft edge"
                         if edges[j][side] == "soft"
                         else "density vanishes at a hard edge (soft-to-hard transition)"
                     )
-                    singularities.append(Singularity(label, float(x_edge)))
+                    singularities.append(Singularity(label, float(support[j][side])))
         # effective potential off the support: critical points and samples
-        off_min, off_place = _effective_potential_minimum(provisional)
+        regions = _off_support_regions(provisional)
+        critical = _real_zeros_of_h(provisional)
+        off_min, off_place = _effective_potential_minimum(provisional, regions, critical)
         scale = max(1.0, abs(lagrange))
         checks["min_effective_potential"] = float(off_min / scale)
-        for x_touch, value in _effective_potential_touches(provisional):
+        for x_touch, value in _effective_potential_touches(provisional, regions, critical):
             if abs(value) / scale < SINGULAR_THRESHOLD:
                 singularities.append(Singularity("effective potential touches zero off the support", x_touch))
     if extra_checks:
@@ -646,90 +646,88 @@ def _g_series(ellipse, g_scaled, u):
 
 
 def _log_potentials(measure: EquilibriumMeasure, xs: np.ndarray) -> np.ndarray:
-    """U^μ at many points: one shared rule per band for the points far from it, graded splits otherwise."""
+    """U^μ(x) = ∫ log 1/|x - y| dμ(y) at many real points, by direct quadrature.
+
+    Band j is integrated with one shared angular rule for the points farther
+    than a quarter of its length; for the points in or near it the band is
+    split at the point (or graded toward it) so the logarithm sits at the end
+    of a panel sequence.  All pieces of one band are evaluated together.
+    """
     structure = measure.structure
     total = np.zeros(xs.shape)
-    near_points = []
     for j, (a, b) in enumerate(measure.support):
+        near_lo, near_hi = _band_rule_distances(structure, j)
         distance = np.maximum(a - xs, xs - b)
         far = distance > 0.25 * (b - a)
+        pieces = []  # (point index or None, rule on the band, kernel distance or None)
         if np.any(far):
-            rule = angular_rule(a, b, *_band_rule_distances(structure, j), points=20)
-            weights = rule.weights * _density_dx_dtheta(structure, measure.h, j, rule)
-            total[far] += -np.log(np.abs(xs[far, None] - rule.x[None, :])) @ weights
-        near_points.append(~far)
-    for i, x in enumerate(xs):
-        total[i] += sum(
-            _log_potential_at(measure, float(x), bands=[j]) for j in range(measure.bands) if near_points[j][i]
+            pieces.append((None, angular_rule(a, b, near_lo, near_hi, points=20), None))
+        for i in np.nonzero(~far)[0]:
+            pieces.extend(_singular_pieces(a, b, near_lo, near_hi, float(xs[i]), i))
+        # ψ dx/dθ at the nodes of all pieces at once (distances to the band's own ends from each piece)
+        on_band = _PointRule(
+            a,
+            b,
+            np.concatenate([rule.x for _, rule, _ in pieces]),
+            np.concatenate([rule.from_lo if rule.lo == a else rule.x - a for _, rule, _ in pieces]),
+            np.concatenate([rule.to_hi if rule.hi == b else b - rule.x for _, rule, _ in pieces]),
+            np.concatenate([rule.dx_dtheta for _, rule, _ in pieces]),
         )
-    return total
-
-
-def _log_potential_at(measure: EquilibriumMeasure, x: float, bands=None) -> float:
-    """∫ log 1/|x - y| ψ(y) dy with panels graded toward x when x lies in or near a band."""
-    structure = measure.structure
-    total = 0.0
-    for j, (a, b) in enumerate(measure.support):
-        if bands is not None and j not in bands:
-            continue
-        near_lo, near_hi = _band_rule_distances(structure, j)
-        if a < x < b:
-            pieces = [(a, x, "hi"), (x, b, "lo")]
-        else:
-            pieces = [(a, b, None)]
-        for lo, hi, singular_end in pieces:
-            n_lo = near_lo if lo == a else 1e-15 * (b - a)
-            n_hi = near_hi if hi == b else 1e-15 * (b - a)
-            if singular_end is None:
-                d = (a - x) if x <= a else (x - b)
-                if x <= a:
-                    n_lo = d if n_lo is None else min(n_lo, d)
-                else:
-                    n_hi = d if n_hi is None else min(n_hi, d)
-                if d == 0:
-                    n_lo, n_hi = (1e-15 * (b - a), n_hi) if x <= a else (n_lo, 1e-15 * (b - a))
-            rule = angular_rule(lo, hi, n_lo, n_hi, points=20)
-            # ψ on the sub-interval: distances to the band's own ends recomputed from the sub-rule
-            xs = rule.x
-            value = band_sign(structure, j) * measure.h(xs) / (2 * math.pi)
-            for index, point in enumerate(structure.ends):
-                if index == 2 * j:
-                    d_e = rule.from_lo if lo == a else (xs - a)
-                elif index == 2 * j + 1:
-                    d_e = rule.to_hi if hi == b else (b - xs)
-                else:
-                    d_e = np.abs(xs - point)
-                value = value * d_e ** (-0.5 if structure.hard[index] else 0.5)
-            if singular_end == "hi":
-                kernel_distance = rule.to_hi
-            elif singular_end == "lo":
-                kernel_distance = rule.from_lo
+        weighted = _density_dx_dtheta(structure, measure.h, j, on_band) * np.concatenate(
+            [rule.weights for _, rule, _ in pieces]
+        )
+        start = 0
+        for i, rule, kernel_distance in pieces:
+            stop = start + rule.x.size
+            if i is None:
+                total[far] += -np.log(np.abs(xs[far, None] - rule.x[None, :])) @ weighted[start:stop]
             else:
-                kernel_distance = np.abs(xs - x)
-            with np.errstate(divide="ignore"):
-                logs = -np.log(kernel_distance)
-            total += float(np.dot(rule.weights, value * logs * rule.dx_dtheta))
+                with np.errstate(divide="ignore"):
+                    total[i] += float(np.dot(weighted[start:stop], -np.log(kernel_distance)))
+            start = stop
     return total
 
 
-def _critical_points(measure: EquilibriumMeasure, lo: float, hi: float) -> np.ndarray:
-    """Real zeros of h in (lo, hi): the critical points of the effective potential there."""
+def _singular_pieces(a: float, b: float, near_lo, near_hi, x: float, i: int) -> list:
+    """Angular rules on band [a, b] for a point x in or near it, with the distance |x - y| at their nodes.
+
+    Inside the band: the two pieces [a, x] and [x, b], graded toward x, where
+    |x - y| comes from the angle.  Outside: the whole band graded toward the
+    side of x.
+    """
+    tiny = 1e-12 * (b - a)  # grading this deep keeps the logarithm's quadrature error near rounding
+    if a < x < b:
+        left = angular_rule(a, x, near_lo, tiny, points=20)
+        right = angular_rule(x, b, tiny, near_hi, points=20)
+        return [(i, left, left.to_hi), (i, right, right.from_lo)]
+    d = (a - x) if x <= a else (x - b)
+    if x <= a:
+        n_lo, n_hi = (tiny if d == 0 else (d if near_lo is None else min(near_lo, d))), near_hi
+    else:
+        n_lo, n_hi = near_lo, (tiny if d == 0 else (d if near_hi is None else min(near_hi, d)))
+    rule = angular_rule(a, b, n_lo, n_hi, points=20)
+    return [(i, rule, rule.from_lo + d if x <= a else rule.to_hi + d)]
+
+
+def _real_zeros_of_h(measure: EquilibriumMeasure) -> np.ndarray:
+    """Real zeros of h in t ∈ (-1.2, 1.2) (a Chebyshev series is only trusted a little
+    beyond its window), as points x: the critical points of the effective potential."""
     coefficients = measure._state.h
-    # a Chebyshev series is only trusted a little beyond its window
-    t_lo = max(float(measure._window.t(lo)), -1.2)
-    t_hi = min(float(measure._window.t(hi)), 1.2)
-    if t_lo >= t_hi:
-        return np.zeros(0)
     if len(coefficients) <= 80:
         roots = C.chebroots(coefficients)
         roots = roots[np.abs(roots.imag) < 1e-8].real
     else:
-        t = np.linspace(t_lo, t_hi, 2001)
+        t = np.linspace(-1.2, 1.2, 4001)
         values = C.chebval(t, coefficients)
         change = np.nonzero(np.sign(values[:-1]) != np.sign(values[1:]))[0]
         roots = 0.5 * (t[change] + t[change + 1])
-    roots = roots[(roots > min(t_lo, t_hi)) & (roots < max(t_lo, t_hi))]
+    roots = np.sort(roots[(roots > -1.2) & (roots < 1.2)])
     return measure._window.dV.center + measure._window.dV.half_width * roots
+
+
+def _critical_points(critical: np.ndarray, lo: float, hi: float) -> np.ndarray:
+    """The critical points strictly inside (lo, hi)."""
+    return critical[(critical > lo) & (critical < hi)]
 
 
 def _off_support_regions(measure: EquilibriumMeasure) -> list[tuple[float, float]]:
@@ -750,13 +748,15 @@ def _off_support_regions(measure: EquilibriumMeasure) -> list[tuple[float, float
     return out
 
 
-def _effective_potential_minimum(measure: EquilibriumMeasure) -> tuple[float, float]:
+def _effective_potential_minimum(measure: EquilibriumMeasure, regions=None, critical=None) -> tuple[float, float]:
     """Min of the effective potential over samples of Σ \\ S (denser toward the ends) and its critical points."""
+    regions = _off_support_regions(measure) if regions is None else regions
+    critical = _real_zeros_of_h(measure) if critical is None else critical
+    fraction = np.sin(np.linspace(0, math.pi / 2, 66)[1:-1]) ** 2
     samples = []
-    for lo, hi in _off_support_regions(measure):
-        fraction = np.sin(np.linspace(0, math.pi / 2, 66)[1:-1]) ** 2
+    for lo, hi in regions:
         samples.append(lo + (hi - lo) * fraction)
-        samples.append(_critical_points(measure, lo, hi))
+        samples.append(_critical_points(critical, lo, hi))
     if not samples:
         return 0.0, math.nan
     xs = np.concatenate(samples)
@@ -768,11 +768,13 @@ def _effective_potential_minimum(measure: EquilibriumMeasure) -> tuple[float, fl
     return float(values[i]), float(xs[i])
 
 
-def _effective_potential_touches(measure: EquilibriumMeasure) -> list[tuple[float, float]]:
+def _effective_potential_touches(measure: EquilibriumMeasure, regions=None, critical=None) -> list[tuple[float, float]]:
     """Values of the effective potential at its critical points strictly off the support."""
+    regions = _off_support_regions(measure) if regions is None else regions
+    critical = _real_zeros_of_h(measure) if critical is None else critical
     points = []
-    for lo, hi in _off_support_regions(measure):
-        for x in _critical_points(measure, lo, hi):
+    for lo, hi in regions:
+        for x in _critical_points(critical, lo, hi):
             if hi - lo > 0 and min(x - lo, hi - x) >= 1e-6 * (hi - lo):
                 points.append(float(x))
     if not points:

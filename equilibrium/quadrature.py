@@ -36,7 +36,7 @@ import numpy as np
 from numpy.polynomial import chebyshev as C
 from scipy.special import roots_legendre
 
-from .chebyshev import chebyshev_from_first_kind_values
+from .chebyshev import chebyshev_from_first_kind_values, chebyshev_points
 
 #: Gauss–Legendre points per angular panel
 PANEL_POINTS = 16
@@ -102,18 +102,6 @@ class AngularRule:
     dx_dtheta: np.ndarray
     breaks: np.ndarray
 
-    def distance_to(self, e: float) -> np.ndarray:
-        """|x - e| at the nodes for a point e outside (lo, hi), without cancellation."""
-        return distances_beyond(self.lo, self.hi, self.from_lo, self.to_hi, e)
-
-
-def distances_beyond(lo, hi, from_lo, to_hi, e):
-    """|x - e| for x in [lo, hi] and e outside it, from x - lo and hi - x."""
-    if e <= lo:
-        return from_lo + (lo - e)
-    if e >= hi:
-        return to_hi + (e - hi)
-    raise ValueError("distances_beyond: the point lies inside the interval")
 
 
 @functools.lru_cache(maxsize=512)
@@ -158,23 +146,37 @@ class CumulativeIntegral:
     lo: float
     hi: float
     breaks: np.ndarray
-    pieces: tuple[np.ndarray, ...]  # Chebyshev coefficients of Φ on each panel (panel mapped to [-1, 1])
+    pieces: np.ndarray  # row j: Chebyshev coefficients of Φ on panel j (panel mapped to [-1, 1])
     offsets: np.ndarray  # Φ at the left break of each panel
 
     @property
     def total(self) -> float:
-        return float(self.offsets[-1] + C.chebval(1.0, self.pieces[-1]))
+        return float(self.offsets[-1] + self.pieces[-1].sum())  # T_m(1) = 1
 
     def at_theta(self, theta: np.ndarray) -> np.ndarray:
+        """Φ(θ), all points at once: T_m(s) = cos(m arccos s) on each point's own panel."""
         theta = np.asarray(theta, dtype=float)
-        index = np.clip(np.searchsorted(self.breaks, theta, side="right") - 1, 0, len(self.pieces) - 1)
-        out = np.empty(theta.shape)
-        for j in np.unique(index):
-            mask = index == j
-            left, right = self.breaks[j], self.breaks[j + 1]
-            s = (2 * theta[mask] - left - right) / (right - left)
-            out[mask] = self.offsets[j] + C.chebval(s, self.pieces[j])
-        return out
+        flat = theta.ravel()
+        index = np.clip(np.searchsorted(self.breaks, flat, side="right") - 1, 0, len(self.pieces) - 1)
+        left, right = self.breaks[index], self.breaks[index + 1]
+        s = np.clip((2 * flat - left - right) / (right - left), -1.0, 1.0)
+        degrees = np.arange(self.pieces.shape[1])
+        T = np.cos(np.arccos(s)[:, None] * degrees[None, :])
+        values = self.offsets[index] + np.einsum("ij,ij->i", T, self.pieces[index])
+        return values.reshape(theta.shape)
+
+
+@functools.lru_cache(maxsize=8)
+def _cumulative_matrices(points: int) -> tuple[np.ndarray, np.ndarray]:
+    """Matrices taking values at first-kind Chebyshev points to the Chebyshev
+    coefficients of the interpolant (the DCT-II of :mod:`.chebyshev`) and then
+    to those of its antiderivative vanishing at -1 (``chebint`` with lbnd=-1)."""
+    identity = np.eye(points)
+    to_coefficients = chebyshev_from_first_kind_values(identity).T  # column j: coefficients of e_j
+    integrate = np.column_stack([C.chebint(identity[j], lbnd=-1) for j in range(points)])
+    for matrix in (to_coefficients, integrate):
+        matrix.setflags(write=False)
+    return to_coefficients, integrate
 
 
 def theta_of_x(lo: float, hi: float, x: np.ndarray) -> np.ndarray:
@@ -194,14 +196,18 @@ def cumulative_integral(integrand, lo: float, hi: float, breaks: np.ndarray, poi
 
     ``integrand(theta)`` must return the (smooth) integrand in θ, i.e. already
     multiplied by dx/dθ; it is called once with the nodes of all panels.
+    On each panel the integrand is interpolated at first-kind Chebyshev points
+    and the interpolant integrated exactly (the classical spectral
+    integration; Trefethen, Approximation Theory and Approximation Practice,
+    SIAM 2013, ch. 19).
     """
     breaks = np.asarray(breaks, dtype=float)
-    nodes = np.cos(np.pi * (np.arange(points) + 0.5) / points)  # first-kind Chebyshev points
+    nodes = chebyshev_points(points)
     left, right = breaks[:-1, None], breaks[1:, None]
     theta = (left + right) / 2 + (right - left) / 2 * nodes
     values = np.asarray(integrand(theta.ravel())).reshape(theta.shape)
-    coefficients = chebyshev_from_first_kind_values(values)
-    antiderivative = C.chebint(coefficients, lbnd=-1, axis=1) * (right - left) / 2
-    totals = C.chebval(1.0, antiderivative.T)
+    to_coefficients, integrate = _cumulative_matrices(points)
+    antiderivative = (values @ to_coefficients.T) @ integrate.T * (right - left) / 2
+    totals = antiderivative.sum(axis=1)  # Φ at the right end of each panel (T_m(1) = 1)
     offsets = np.concatenate([[0.0], np.cumsum(totals)[:-1]])
-    return CumulativeIntegral(lo=lo, hi=hi, breaks=breaks, pieces=tuple(antiderivative), offsets=offsets)
+    return CumulativeIntegral(lo=lo, hi=hi, breaks=breaks, pieces=antiderivative, offsets=offsets)

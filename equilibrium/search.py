@@ -182,8 +182,11 @@ def solve_signed(field: Field, on: IntervalSet) -> EquilibriumMeasure:
     solution = solve_structure(window, structure)
     second = _variant_window(field, lo, hi)
     solution2 = solve_structure(second, structure)
-    agreement = _ends_and_masses_agreement(window, solution.state, second, solution2.state)
-    return build_measure(window, solution.state, field, on, "signed", extra_checks={"discretisation_agreement": agreement})
+    masses = band_masses(window, solution.state)
+    agreement = _ends_and_masses_agreement(solution.state, masses, solution2.state, band_masses(second, solution2.state))
+    return build_measure(
+        window, solution.state, field, on, "signed", extra_checks={"discretisation_agreement": agreement}, masses=masses
+    )
 
 
 def _variant_window(field: Field, lo: float, hi: float) -> Window:
@@ -333,13 +336,12 @@ def _repair(window: Window, on: IntervalSet, solution: AlgebraicSolution, field:
     return None
 
 
-def _ends_and_masses_agreement(window_a, state_a, window_b, state_b) -> float:
+def _ends_and_masses_agreement(state_a, masses_a, state_b, masses_b) -> float:
     """Agreement of two discretisations: ends (relative to the hull) and band masses."""
     ends_a, ends_b = state_a.structure.ends, state_b.structure.ends
     if ends_a.size != ends_b.size:
         return math.inf
     scale = max(1.0, float(np.max(np.abs(ends_a))))
-    masses_a, masses_b = band_masses(window_a, state_a), band_masses(window_b, state_b)
     return float(max(np.max(np.abs(ends_a - ends_b)) / scale, np.max(np.abs(masses_a - masses_b))))
 
 
@@ -425,13 +427,23 @@ def _finish(field: Field, on: IntervalSet, window: Window, solution: AlgebraicSo
     hi2 = min(on.hull[1], ends[-1] + 0.15 * span)
     tight = field_window(field, lo2, hi2)
     second = solve_structure(tight, solution.state.structure, bounds=_sigma_piece_bounds(on, ends))
+    masses = band_masses(tight, second.state)
     agreement = (
-        _ends_and_masses_agreement(window, solution.state, tight, second.state) if second.converged else math.inf
+        _ends_and_masses_agreement(solution.state, band_masses(window, solution.state), second.state, masses)
+        if second.converged
+        else math.inf
     )
     if not second.converged:
         message = (message + "; " if message else "") + "the second discretisation did not converge"
     return build_measure(
-        tight, second.state, field, on, "positive", extra_checks={"discretisation_agreement": agreement}, message=message
+        tight,
+        second.state,
+        field,
+        on,
+        "positive",
+        extra_checks={"discretisation_agreement": agreement},
+        message=message,
+        masses=masses,
     )
 
 
