@@ -59,7 +59,7 @@ class Window:
     field: Field
     dV: ChebyshevApproximation
     ellipse: JoukowskiEllipse
-    dV_on_ellipse: np.ndarray
+    dV_upper: np.ndarray  # V' at the sample points ellipse.upper_half
 
     @property
     def lower(self) -> float:
@@ -84,7 +84,7 @@ def field_window(field: Field, lower: float, upper: float, variant: bool = False
     degree = None if field.polynomial is None else max(len(field.polynomial) - 2, 0)
     dV = chebyshev_fit(field.dV, lower, upper, degree=degree)
     ellipse = ellipse_for(lower, upper, dV.degree + (9 if variant else 0), 4 + (3 if variant else 0))
-    return Window(field, dV, ellipse, ellipse.on_ellipse(dV.coefficients))
+    return Window(field, dV, ellipse, ellipse.on_ellipse(dV.coefficients)[ellipse.upper_half])
 
 
 @dataclass(frozen=True)
@@ -260,14 +260,16 @@ def field_split(window: Window, structure: BandStructure, with_derivatives: bool
     the same FFT as f itself.
     """
     ellipse = window.ellipse
-    z = ellipse.z
-    f = window.dV_on_ellipse * q_hard(z, structure) / sqrt_R(z, structure.ends)
+    z = ellipse.z[ellipse.upper_half]  # f is real on the real axis: half the ellipse suffices
+    f = window.dV_upper * q_hard(z, structure) / sqrt_R(z, structure.ends)
     soft = np.nonzero(~structure.hard)[0] if with_derivatives else np.zeros(0, dtype=int)
     if soft.size:
-        samples = np.vstack([f] + [f / (2.0 * (z - structure.ends[i])) for i in soft])
+        samples = np.empty((1 + soft.size, z.size), dtype=complex)
+        samples[0] = f
+        samples[1:] = f[None, :] / (2.0 * (z[None, :] - structure.ends[soft][:, None]))
     else:
         samples = f[None, :]
-    scaled = ellipse.laurent(samples)
+    scaled = ellipse.laurent_real(samples)
     count = inner_count(window, structure)
     inner = ellipse.chebyshev_part(scaled, count)
     N = structure.moment_conditions

@@ -38,6 +38,30 @@ def chebyshev_from_first_kind_values(values: np.ndarray) -> np.ndarray:
     return coefficients
 
 
+#: longest series whose roots come from the colleague matrix; longer ones are sampled
+COLLEAGUE_MAX = 80
+
+
+def real_roots(coefficients: np.ndarray, t_lo: float, t_hi: float, imaginary_tolerance: float = 1e-10,
+               samples: int = 4001) -> np.ndarray:
+    """Real roots in (t_lo, t_hi) of Σ c_m T_m(t), ascending.
+
+    Short series: eigenvalues of the colleague matrix (numpy's ``chebroots``;
+    Good, Quart. J. Math. 12 (1961) 61–68) whose imaginary part is below
+    ``imaginary_tolerance``.  Long series: sign changes on a uniform grid of
+    ``samples`` points (a root of even multiplicity is then missed).
+    """
+    if len(coefficients) <= COLLEAGUE_MAX:
+        roots = C.chebroots(coefficients)
+        roots = np.sort(roots[np.abs(roots.imag) < imaginary_tolerance].real)
+    else:
+        t = np.linspace(t_lo, t_hi, samples)
+        values = C.chebval(t, coefficients)
+        change = np.nonzero(np.sign(values[:-1]) != np.sign(values[1:]))[0]
+        roots = 0.5 * (t[change] + t[change + 1])
+    return roots[(roots > t_lo) & (roots < t_hi)]
+
+
 @dataclass(frozen=True)
 class ChebyshevApproximation:
     """f(x) ≈ Σ c_m T_m(t(x)) on [lower, upper].

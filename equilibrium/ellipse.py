@@ -54,9 +54,25 @@ class JoukowskiEllipse:
         """The point where the ellipse crosses the real axis right of J."""
         return self.center + self.half_width * 0.5 * (self.rho + 1 / self.rho)
 
+    @property
+    def upper_half(self) -> slice:
+        """The sample points with Im u ≥ 0 (indices 0..size/2, both real crossings included)."""
+        return slice(0, self.size // 2 + 1)
+
     def laurent(self, samples: np.ndarray) -> np.ndarray:
         """Scaled Laurent coefficients f_m ρ^m along the last axis, index m mod size."""
         return np.fft.fft(samples, axis=-1) / self.size
+
+    def laurent_real(self, upper_samples: np.ndarray) -> np.ndarray:
+        """:meth:`laurent` of a function real on the real axis, f(z̄) = conj f(z), from
+        its samples at the points :attr:`upper_half` only.
+
+        Such an f has real Laurent coefficients, and the samples on the lower half
+        are the conjugates of those on the upper half, so one Hermitian FFT of half
+        the length gives them (half the evaluations of f, and the imaginary parts
+        that rounding would leave are never formed).
+        """
+        return np.fft.hfft(upper_samples, n=self.size, axis=-1) / self.size
 
     def chebyshev_part(self, scaled: np.ndarray, count: int) -> np.ndarray:
         """Chebyshev coefficients of the inner part K in (1), first ``count`` of them."""

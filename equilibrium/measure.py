@@ -57,8 +57,17 @@ from .algebraic import (
     q_hard,
     sqrt_R,
 )
+from .chebyshev import real_roots
 from .field import Field
-from .quadrature import PANEL_POINTS, AngularRule, CumulativeIntegral, angular_breaks, angular_rule, cumulative_integral, theta_of_x
+from .quadrature import (
+    PANEL_POINTS,
+    AngularRule,
+    CumulativeIntegral,
+    angular_breaks,
+    angular_rule,
+    cumulative_integral,
+    theta_of_x,
+)
 from .sets import IntervalSet
 
 #: figures above these thresholds make a result unverified
@@ -404,9 +413,10 @@ def build_measure(
     pieces = _Pieces(structure, h_of, on, ellipse)
 
     # G on the ellipse and the Laurent series of g
-    z = ellipse.z
-    G_ellipse = 0.5 * (window.dV_on_ellipse - h_of(z) * sqrt_R(z, e) / q_hard(z, structure))
-    scaled = ellipse.laurent(ellipse.u * G_ellipse * ellipse.dz_du)
+    upper = ellipse.upper_half
+    z = ellipse.z[upper]
+    G_ellipse = 0.5 * (window.dV_upper - h_of(z) * sqrt_R(z, e) / q_hard(z, structure))
+    scaled = ellipse.laurent_real(ellipse.u[upper] * G_ellipse * ellipse.dz_du[upper])
     total_mass = scaled[0].real
     size = ellipse.size
     m = np.arange(1, size // 2)
@@ -712,16 +722,7 @@ def _singular_pieces(a: float, b: float, near_lo, near_hi, x: float, i: int) -> 
 def _real_zeros_of_h(measure: EquilibriumMeasure) -> np.ndarray:
     """Real zeros of h in t ∈ (-1.2, 1.2) (a Chebyshev series is only trusted a little
     beyond its window), as points x: the critical points of the effective potential."""
-    coefficients = measure._state.h
-    if len(coefficients) <= 80:
-        roots = C.chebroots(coefficients)
-        roots = roots[np.abs(roots.imag) < 1e-8].real
-    else:
-        t = np.linspace(-1.2, 1.2, 4001)
-        values = C.chebval(t, coefficients)
-        change = np.nonzero(np.sign(values[:-1]) != np.sign(values[1:]))[0]
-        roots = 0.5 * (t[change] + t[change + 1])
-    roots = np.sort(roots[(roots > -1.2) & (roots < 1.2)])
+    roots = real_roots(measure._state.h, -1.2, 1.2, imaginary_tolerance=1e-8)
     return measure._window.dV.center + measure._window.dV.half_width * roots
 
 

@@ -44,6 +44,7 @@ from .algebraic import (
     field_window,
     solve_structure,
 )
+from .chebyshev import COLLEAGUE_MAX, real_roots
 from .errors import InputError, NumericalFailure
 from .field import Field
 from .measure import EquilibriumMeasure, band_masses, build_measure
@@ -202,11 +203,13 @@ def _positive_parts(window: Window, structure: BandStructure, h: np.ndarray, min
     (zeros of the density) rather than ends of the old interval.
     """
     pieces = []
+    # one root-finding for all bands when the series is short (the colleague matrix sees all roots)
+    candidates = real_roots(h, -np.inf, np.inf) if len(h) <= COLLEAGUE_MAX else None
     for j in range(structure.bands):
         a, b = structure.ends[2 * j], structure.ends[2 * j + 1]
         sign = band_sign(structure, j)
         t_a, t_b = window.t(a), window.t(b)
-        roots = window.t(_real_roots_in(window, h, a, b))
+        roots = window.t(_real_roots_in(window, h, a, b, candidates))
         points = np.concatenate([[t_a], roots, [t_b]])
         for left, right in zip(points[:-1], points[1:]):
             middle = 0.5 * (left + right)
@@ -447,18 +450,14 @@ def _finish(field: Field, on: IntervalSet, window: Window, solution: AlgebraicSo
     )
 
 
-def _real_roots_in(window: Window, h: np.ndarray, a: float, b: float) -> np.ndarray:
-    """Real zeros of the Chebyshev series h (on the window) inside (a, b), ascending."""
+def _real_roots_in(window: Window, h: np.ndarray, a: float, b: float, candidates: np.ndarray | None = None) -> np.ndarray:
+    """Real zeros of the Chebyshev series h (on the window) inside (a, b), ascending.
+
+    ``candidates`` may pass the real roots of h in t over a larger range when
+    several intervals are searched for the same h.
+    """
     t_a, t_b = window.t(a), window.t(b)
-    if len(h) <= 80:
-        roots = C.chebroots(h)
-        roots = np.sort(roots[np.abs(roots.imag) < 1e-10].real)
-    else:
-        t = np.linspace(t_a, t_b, 4001)
-        values = C.chebval(t, h)
-        change = np.nonzero(np.sign(values[:-1]) != np.sign(values[1:]))[0]
-        roots = 0.5 * (t[change] + t[change + 1])
-    roots = roots[(roots > t_a) & (roots < t_b)]
+    roots = real_roots(h, t_a, t_b) if candidates is None else candidates[(candidates > t_a) & (candidates < t_b)]
     return window.dV.center + window.dV.half_width * roots
 
 
