@@ -14,9 +14,12 @@ turns (x - lo)^{±1/2} (hi - x)^{±1/2} dx into a trigonometric polynomial in
 θ/2 times dθ, so the endpoint behaviour costs nothing.  A branch point at
 distance d beyond ``hi`` sits at distance 2 (d/(hi-lo))^{1/2} from θ = π in
 the θ-plane; the rule grades the θ-panels geometrically toward that end
-(ratio 2) until the first panel is as short as that distance, and uses
-Gauss–Legendre points on each panel.  The cost therefore grows with
-log(1/d), not with 1/d: a gap of 1e-8 of the hull adds about a dozen panels.
+(breaks at π - 2^{-j}, j = 0, 1, …) until the first panel is as short as
+that distance, and uses Gauss–Legendre points on each panel.  The cost
+therefore grows with log(1/d), not with 1/d: a gap of 1e-8 of the hull adds
+about a dozen panels.  Because the breaks are fixed angles, all intervals
+with the same grading share one θ-rule (cached); a rule on a new interval
+is a few vector operations.
 
 Geometric grading toward a near singularity is common practice (e.g.
 Schwab, p- and hp-Finite Element Methods, 1998, ch. 4).
@@ -51,6 +54,33 @@ def gauss_legendre(n: int) -> tuple[np.ndarray, np.ndarray]:
     return x, w
 
 
+def grading_levels(length: float, near: float | None) -> int:
+    """Number of geometrically graded θ-panels toward an end with a singular point
+    at distance ``near`` beyond it (``None``: none closer than the interval itself).
+
+    The branch point sits at distance 2 (near/length)^{1/2} from the end in the
+    θ-plane; the breaks 2^{-j}, j = 0..levels-1, reach down to a first panel
+    no longer than that distance, and every panel is at most as long as its
+    distance from the end (the last one, [1, π], about twice as long).
+    """
+    if near is None or not near < length:
+        return 0
+    distance = 2.0 * math.sqrt(near / length)
+    if distance >= 1.0:
+        return 0
+    return max(1, math.ceil(math.log2(1.0 / distance)))
+
+
+@functools.lru_cache(maxsize=256)
+def _breaks_of_levels(levels_lo: int, levels_hi: int) -> np.ndarray:
+    left = [2.0 ** -j for j in range(levels_lo)]
+    right = [math.pi - 2.0 ** -j for j in range(levels_hi)]
+    interior = [math.pi / 2] if not (left or right) else []  # two panels even for smooth integrands
+    breaks = np.array(sorted([0.0, math.pi] + left + interior + right))
+    breaks.setflags(write=False)
+    return breaks
+
+
 def angular_breaks(length: float, near_lo: float | None, near_hi: float | None) -> np.ndarray:
     """Panel breaks in θ ∈ [0, π] for an interval of the given length.
 
@@ -59,24 +89,28 @@ def angular_breaks(length: float, near_lo: float | None, near_hi: float | None) 
     length : hi - lo.
     near_lo, near_hi : distance of the nearest singular point beyond each
         end (``None`` when there is none closer than the interval itself).
+
+    The breaks sit at the fixed angles 2^{-j} (and π minus them), so they
+    depend on the distances only through :func:`grading_levels`: rules for
+    intervals of the same grading share their θ-nodes.
     """
-    left = [0.0]
-    right = [math.pi]
-    if near_lo is not None and near_lo < length:
-        step = 2.0 * math.sqrt(near_lo / length)
-        while step < 0.5:
-            left.append(step)
-            step *= 2.0
-    if near_hi is not None and near_hi < length:
-        step = 2.0 * math.sqrt(near_hi / length)
-        while step < 0.5:
-            right.append(math.pi - step)
-            step *= 2.0
-    interior = []
-    if len(left) == 1 and len(right) == 1:
-        interior = [math.pi / 2]  # two panels even for smooth integrands: cheap insurance
-    breaks = sorted(set(left + interior + right))
-    return np.array(breaks)
+    return _breaks_of_levels(grading_levels(length, near_lo), grading_levels(length, near_hi))
+
+
+@functools.lru_cache(maxsize=256)
+def _theta_rule(levels_lo: int, levels_hi: int, points: int) -> tuple[np.ndarray, ...]:
+    """θ-nodes and weights of the graded rule, and sin²(θ/2), cos²(θ/2), sin(θ/2)cos(θ/2) there."""
+    breaks = _breaks_of_levels(levels_lo, levels_hi)
+    t, w = gauss_legendre(points)
+    left, right = breaks[:-1, None], breaks[1:, None]
+    half = (right - left) / 2
+    theta = (left + half * (t + 1)).ravel()
+    weights = (half * w).ravel()
+    s, c = np.sin(theta / 2), np.cos(theta / 2)
+    arrays = (theta, weights, s * s, c * c, s * c)
+    for array in arrays:
+        array.setflags(write=False)
+    return arrays
 
 
 @dataclass(frozen=True)
@@ -104,7 +138,6 @@ class AngularRule:
 
 
 
-@functools.lru_cache(maxsize=512)
 def angular_rule(
     lo: float,
     hi: float,
@@ -112,27 +145,26 @@ def angular_rule(
     near_hi: float | None = None,
     points: int = PANEL_POINTS,
 ) -> AngularRule:
-    """Graded Gauss–Legendre rule in the angle (1) on [lo, hi] (cached: arguments are plain floats)."""
+    """Graded Gauss–Legendre rule in the angle (1) on [lo, hi].
+
+    The θ-part is shared by all intervals of the same grading (cached), so a
+    rule costs a few vector operations.
+    """
     length = hi - lo
-    breaks = angular_breaks(length, near_lo, near_hi)
-    t, w = gauss_legendre(points)
-    left, right = breaks[:-1, None], breaks[1:, None]
-    half = (right - left) / 2
-    theta = (left + half * (t + 1)).ravel()
-    weights = (half * w).ravel()
-    s, c = np.sin(theta / 2), np.cos(theta / 2)
-    arrays = dict(
+    levels_lo, levels_hi = grading_levels(length, near_lo), grading_levels(length, near_hi)
+    theta, weights, sin2, cos2, sincos = _theta_rule(levels_lo, levels_hi, points)
+    from_lo = length * sin2
+    return AngularRule(
+        lo=lo,
+        hi=hi,
         theta=theta,
         weights=weights,
-        x=lo + length * s * s,
-        from_lo=length * s * s,
-        to_hi=length * c * c,
-        dx_dtheta=length * s * c,
-        breaks=breaks,
+        x=lo + from_lo,
+        from_lo=from_lo,
+        to_hi=length * cos2,
+        dx_dtheta=length * sincos,
+        breaks=_breaks_of_levels(levels_lo, levels_hi),
     )
-    for array in arrays.values():
-        array.setflags(write=False)  # rules are cached and shared
-    return AngularRule(lo=lo, hi=hi, **arrays)
 
 
 @dataclass(frozen=True)
