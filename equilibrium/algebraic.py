@@ -173,26 +173,18 @@ def distance_product(
     cancels however small the neighbouring gaps and bands are.
     """
     e, hard = structure.ends, structure.hard
-    weight = rule.dx_dtheta.copy() if include_jacobian else np.ones_like(rule.x)
-    columns = [rule.from_lo[:, None] + (rule.lo - e[: max(lo_index, 0)])[None, :]]
-    kinds = [hard[: max(lo_index, 0)]]
+    n_left, right = max(lo_index, 0), min(hi_index + 1, e.size)
+    distances = np.empty((rule.x.size, e.size))
+    distances[:, :n_left] = rule.from_lo[:, None] + (rule.lo - e[:n_left])[None, :]
+    distances[:, right:] = rule.to_hi[:, None] + (e[right:] - rule.hi)[None, :]
     if 0 <= lo_index < e.size:
-        columns.append(rule.from_lo[:, None])
-        kinds.append(hard[lo_index : lo_index + 1])
+        distances[:, lo_index] = rule.from_lo
     if 0 <= hi_index < e.size:
-        columns.append(rule.to_hi[:, None])
-        kinds.append(hard[hi_index : hi_index + 1])
-    right = min(hi_index + 1, e.size)
-    columns.append(rule.to_hi[:, None] + (e[right:] - rule.hi)[None, :])
-    kinds.append(hard[right:])
+        distances[:, hi_index] = rule.to_hi
     # one square root per factor (no overflow however many ends), then soft over hard
-    roots = np.sqrt(np.hstack(columns))
-    is_hard = np.concatenate(kinds)
-    if np.any(~is_hard):
-        weight *= np.prod(roots[:, ~is_hard], axis=1)
-    if np.any(is_hard):
-        weight /= np.prod(roots[:, is_hard], axis=1)
-    return weight
+    roots = np.sqrt(distances)
+    weight = np.prod(roots, axis=1, where=~hard[None, :]) / np.prod(roots, axis=1, where=hard[None, :])
+    return weight * rule.dx_dtheta if include_jacobian else weight
 
 
 def gap_sign(structure: BandStructure, gap: int) -> int:
