@@ -58,6 +58,8 @@ def main() -> None:
         ("positive, 1 band  (x^4/4 - x^2/2 + x/5)", lambda i: solve(Field.from_coefficients([0, 0.2 + e * i, -0.5, 0, 0.25])), 20.0),
         ("positive, 2 bands (x^4/4 - 3x^2/2 + x/5)", lambda i: solve(Field.from_coefficients([0, 0.2 + e * i, -1.5, 0, 0.25])), 20.0),
         ("positive, 3 bands (sextic triple well)", lambda i: solve(Field.from_coefficients([0, 0.1 + e * i, 3.0, 0, -2.6, 0, 0.5])), 20.0),
+        ("positive, 3 bands (degree 10)", lambda i: solve(Field.from_coefficients([0, 0.2 + e * i, 6, 0, -6, 0, 1.5, 0, 0, 0, 0.01])), 20.0),
+        ("positive, hard edge (2x^2 on [-1/2, 3])", lambda i: solve(Field.from_coefficients([0, e * i, 2.0]), IntervalSet([(-0.5, 3.0)])), 20.0),
         ("positive, 1 band, cosh(x) + c x", lambda i: solve(Field.from_callables(lambda x: np.cosh(x) + e * i * x, lambda x: np.sinh(x) + e * i)), None),
         ("signed, 5 intervals, wide gaps", lambda i: solve_signed(field, IntervalSet(five(i))), 10.0),
         ("signed, 5 intervals, one gap 1e-8", lambda i: solve_signed(field, IntervalSet(tiny(i))), None),

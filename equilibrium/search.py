@@ -81,20 +81,22 @@ def _check_field_on(field: Field, on: IntervalSet) -> None:
 
 def _check_values_on(field: Field, on: IntervalSet, lower: float, upper: float) -> None:
     """V and V' must be real and finite on Σ ∩ [lower, upper] (sampled densely, ends included)."""
-    for a, b in on.clipped(lower, upper).intervals:
-        x = np.concatenate([[a, b], np.linspace(a, b, 2001)[1:-1]])
-        _sample_V(field, x)
-        with np.errstate(all="ignore"):
-            slopes = np.asarray(field.dV(x))
-        if np.iscomplexobj(slopes):
-            slopes = np.where(np.abs(slopes.imag) <= 1e-12 * (1 + np.abs(slopes.real)), slopes.real, np.nan)
-        slopes = np.broadcast_to(slopes, x.shape).astype(float)
-        bad = ~np.isfinite(slopes)
-        if np.any(bad):
-            raise InputError(
-                f"V' is not finite at x = {x[np.argmax(bad)]:.6g} in the set; the field must be differentiable there "
-                "(restrict the set with --on)"
-            )
+    intervals = on.clipped(lower, upper).intervals
+    if not intervals:
+        return
+    x = np.concatenate([np.concatenate([[a, b], np.linspace(a, b, 2001)[1:-1]]) for a, b in intervals])
+    _sample_V(field, x)
+    with np.errstate(all="ignore"):
+        slopes = np.asarray(field.dV(x))
+    if np.iscomplexobj(slopes):
+        slopes = np.where(np.abs(slopes.imag) <= 1e-12 * (1 + np.abs(slopes.real)), slopes.real, np.nan)
+    slopes = np.broadcast_to(slopes, x.shape).astype(float)
+    bad = ~np.isfinite(slopes)
+    if np.any(bad):
+        raise InputError(
+            f"V' is not finite at x = {x[np.argmax(bad)]:.6g} in the set; the field must be differentiable there "
+            "(restrict the set with --on)"
+        )
 
 
 def check_field(field: Field, on: IntervalSet | None = None) -> None:
