@@ -72,6 +72,17 @@ class Window:
     def t(self, x):
         return self.dV.to_t(x)
 
+    def ratio_on_ellipse(self, structure: "BandStructure") -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """ζ = z - c at the sample points ``ellipse.upper_half``, R^{1/2}/Q_h there, and the ends e - c.
+
+        Everything is formed from ζ and e - c (exact for ends near the centre,
+        by Sterbenz's lemma), so no digits are lost when the window is far
+        from the origin compared with its width: z - e = ζ - (e - c).
+        """
+        zeta = self.ellipse.zeta[self.ellipse.upper_half]
+        local = structure.ends - self.dV.center
+        return zeta, sqrt_R(zeta, local) / _product_of_differences(zeta, local[structure.hard]), local
+
 
 def field_window(field: Field, lower: float, upper: float, variant: bool = False) -> Window:
     """Approximate V' on [lower, upper] and lay the ellipse around it.
@@ -144,9 +155,14 @@ def sqrt_R(z: np.ndarray, ends: np.ndarray) -> np.ndarray:
 
 
 def q_hard(z: np.ndarray, structure: BandStructure) -> np.ndarray:
+    """Q_h(z) = ∏_{hard ends} (z - e)."""
+    return _product_of_differences(z, structure.ends[structure.hard])
+
+
+def _product_of_differences(z: np.ndarray, points: np.ndarray) -> np.ndarray:
     z = np.asarray(z)
     out = np.ones(z.shape, dtype=complex if np.iscomplexobj(z) else float)
-    for e in structure.ends[structure.hard]:
+    for e in points:
         out = out * (z - e)
     return out
 
@@ -252,13 +268,14 @@ def field_split(window: Window, structure: BandStructure, with_derivatives: bool
     the same FFT as f itself.
     """
     ellipse = window.ellipse
-    z = ellipse.z[ellipse.upper_half]  # f is real on the real axis: half the ellipse suffices
-    f = window.dV_upper * q_hard(z, structure) / sqrt_R(z, structure.ends)
+    # f is real on the real axis: half the ellipse suffices (ellipse.laurent_real)
+    zeta, ratio, local = window.ratio_on_ellipse(structure)
+    f = window.dV_upper / ratio
     soft = np.nonzero(~structure.hard)[0] if with_derivatives else np.zeros(0, dtype=int)
     if soft.size:
-        samples = np.empty((1 + soft.size, z.size), dtype=complex)
+        samples = np.empty((1 + soft.size, zeta.size), dtype=complex)
         samples[0] = f
-        samples[1:] = f[None, :] / (2.0 * (z[None, :] - structure.ends[soft][:, None]))
+        samples[1:] = f[None, :] / (2.0 * (zeta[None, :] - local[soft][:, None]))
     else:
         samples = f[None, :]
     scaled = ellipse.laurent_real(samples)
@@ -389,6 +406,7 @@ def solve_structure(
             state, norm = trial, trial_norm
         return AlgebraicSolution(state, 1, norm, norm < 1e-11)
     iterations = 0
+    floor = rounding_floor(state)
     for iterations in range(1, max_iterations + 1):
         if norm < tolerance:
             break
@@ -399,7 +417,7 @@ def solve_structure(
         scale = 1.0
         accepted = False
         # at the rounding floor a full step that does not help ends the iteration
-        halvings = 1 if norm < 1e-12 else 30
+        halvings = 1 if norm < max(1e-12, 4.0 * floor) else 30
         for _ in range(halvings):
             trial = ends.copy()
             trial[soft] += scale * delta[: len(soft)]
@@ -412,9 +430,26 @@ def solve_structure(
                 trial_norm = float(np.max(np.abs(trial_state.residual)))
                 if np.isfinite(trial_norm) and (trial_norm < norm or trial_norm < tolerance):
                     ends, p, state, norm = trial, trial_p, trial_state, trial_norm
+                    floor = rounding_floor(state)
                     accepted = True
                     break
             scale /= 2.0
         if not accepted:
             break
-    return AlgebraicSolution(state, iterations, norm, norm < 1e-11)
+    return AlgebraicSolution(state, iterations, norm, norm < max(1e-11, 4.0 * floor))
+
+
+def rounding_floor(state: AlgebraicState) -> float:
+    """The residual that rounding the soft ends to doubles leaves by itself:
+    max over the equations of Σ_e |∂r/∂e| ulp(e).
+
+    A support far from the origin compared with its width (a narrow well at
+    x = 17, say) cannot have its ends placed closer than ulp(17) ≈ 3.6e-15,
+    and the residual of such a problem stops there; Newton's iteration is
+    converged when its residual is at this floor (or below 1e-11).
+    """
+    soft = ~state.structure.hard
+    if state.jacobian is None or not np.any(soft):
+        return 0.0
+    spacing = np.spacing(np.abs(state.structure.ends[soft]))
+    return float(np.max(np.abs(state.jacobian[:, : spacing.size]) @ spacing))

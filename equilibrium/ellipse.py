@@ -40,6 +40,7 @@ class JoukowskiEllipse:
     u: np.ndarray
     z: np.ndarray
     dz_du: np.ndarray
+    zeta: np.ndarray  # z - centre, formed without cancellation (the window may lie far from 0)
 
     @property
     def center(self) -> float:
@@ -120,8 +121,9 @@ def ellipse_for(lower: float, upper: float, degree: int, bands: int) -> Joukowsk
     size = 1 << max(7, math.ceil(math.log2(max(36.0 / math.log(rho), 4.0 * spread))))
     u = rho * np.exp(2j * np.pi * np.arange(size) / size)
     center, half = 0.5 * (lower + upper), 0.5 * (upper - lower)
-    z = center + half * 0.5 * (u + 1 / u)
+    zeta = half * 0.5 * (u + 1 / u)
+    z = center + zeta
     dz_du = half * 0.5 * (1 - u ** -2)
-    for array in (u, z, dz_du):
+    for array in (u, z, dz_du, zeta):
         array.setflags(write=False)
-    return JoukowskiEllipse(lower, upper, rho, size, u, z, dz_du)
+    return JoukowskiEllipse(lower, upper, rho, size, u, z, dz_du, zeta)

@@ -414,8 +414,8 @@ def build_measure(
 
     # G on the ellipse and the Laurent series of g
     upper = ellipse.upper_half
-    z = ellipse.z[upper]
-    G_ellipse = 0.5 * (window.dV_upper - h_of(z) * sqrt_R(z, e) / q_hard(z, structure))
+    zeta, ratio, _ = window.ratio_on_ellipse(structure)
+    G_ellipse = 0.5 * (window.dV_upper - C.chebval(zeta / window.dV.half_width, h_coefficients) * ratio)
     scaled = ellipse.laurent_real(ellipse.u[upper] * G_ellipse * ellipse.dz_du[upper])
     total_mass = scaled[0].real
     size = ellipse.size

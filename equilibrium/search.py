@@ -258,9 +258,9 @@ def _shrink(field: Field, on: IntervalSet, window_bounds: tuple[float, float]):
         if not (grow_lo or grow_hi):
             break
         if grow_lo:
-            lo = max(on.hull[0], lo - span)
+            lo = max(on.hull[0], lo - 0.5 * span)
         if grow_hi:
-            hi = min(on.hull[1], hi + span)
+            hi = min(on.hull[1], hi + 0.5 * span)
     else:
         raise InputError("the support does not fit in any window up to the search limit; is V confining?")
 

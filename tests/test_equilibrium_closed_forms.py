@@ -59,6 +59,32 @@ class TestSemicircle:
         np.testing.assert_allclose(self.mu.effective_potential(x), exact_eff, rtol=1e-11)
 
 
+@pytest.mark.parametrize("stiffness, center", [(1e6, 17.0), (1e6, -40.0), (1e8, 5.0)])
+def test_narrow_well_far_from_the_origin(stiffness, center):
+    """V = K (x - x0)²/2 given by its monomial coefficients: the semicircle law
+    scaled by 1/√K about x0 (Deift 1999, §6.7, and the change of variables
+    y = √K (x - x0), which adds log K to ℓ). The support is a few thousandths
+    wide at |x0| up to 40, so its ends are resolved only to ulp(x0)/width
+    ≈ 1e-12 of the width; Newton's iteration stops at that rounding floor."""
+    mu = solve(Field.from_coefficients([stiffness * center**2 / 2, -stiffness * center, stiffness / 2]))
+    radius = 2 / math.sqrt(stiffness)
+    assert mu.verified, mu.message
+    np.testing.assert_allclose(np.array(mu.support), [[center - radius, center + radius]], atol=1e-10 * radius)
+    assert abs(mu.lagrange - 1 - math.log(stiffness)) < 1e-10 * (1 + math.log(stiffness))
+
+
+def test_two_deep_wells_where_the_first_window_cuts_both():
+    """A degree-8 field (found by the property search) with wells at x ≈ -1.6 and
+    x ≈ 2; the first window ends inside both, and growing it by a whole span at
+    a time used to oscillate until the search gave up. The support is the
+    deeper well alone (internal verification only: no closed form)."""
+    coefficients = [0.0, 2.0246746827899713, -0.906961461203013, 2.08164467124952, -2.697906444757731,
+                    0.13268721644085169, -1.455465502011924, -0.3655338677965121, 0.48220155217403005]
+    mu = solve(Field.from_coefficients(coefficients))
+    assert mu.verified, mu.message
+    assert mu.bands == 1 and 1.8 < mu.support[0][0] < mu.support[0][1] < 2.2
+
+
 class TestQuartic:
     """V = x⁴/4 - t x²/2.
 
