@@ -238,6 +238,26 @@ class FieldSplit:
     inner: np.ndarray  # row 0: Chebyshev coefficients of K; rows 1..: ∂K/∂e for the soft ends
     moments: np.ndarray
     moment_jacobian: np.ndarray  # shape (N, #soft), empty without derivatives
+    gaps: tuple["GapQuadrature", ...] = ()  # the rules for (4), which depend on the ends only
+
+
+@dataclass(frozen=True)
+class GapQuadrature:
+    """The angular rule of one gap with the signed weight w = R^{1/2}/Q_h dx/dθ × weights,
+    its norm Σ|w|, and T_m(t) at its nodes (m < number of coefficients of h)."""
+
+    rule: AngularRule
+    weight: np.ndarray
+    norm: float
+    basis: np.ndarray
+
+
+def gap_quadrature(window: Window, structure: BandStructure, gap: int, count: int) -> GapQuadrature:
+    rule = gap_rule(structure, gap)
+    weight = gap_weight(rule, structure, gap) * rule.weights
+    # t at the nodes from t(lo) and x - lo: no digits lost when the window is far from 0
+    t = (rule.lo - window.dV.center) / window.dV.half_width + rule.from_lo / window.dV.half_width
+    return GapQuadrature(rule, weight, float(np.sum(np.abs(weight))), C.chebvander(t, count - 1))
 
     @property
     def has_derivatives(self) -> bool:
@@ -292,7 +312,8 @@ def field_split(window: Window, structure: BandStructure, with_derivatives: bool
     else:
         moments = np.zeros(0)
         moment_jacobian = np.zeros((0, soft.size))
-    return FieldSplit(inner, moments, moment_jacobian)
+    gaps = tuple(gap_quadrature(window, structure, j, count) for j in range(structure.bands - 1))
+    return FieldSplit(inner, moments, moment_jacobian, gaps)
 
 
 def inner_count(window: Window, structure: BandStructure) -> int:
@@ -337,11 +358,8 @@ def algebraic_state(
         jacobian[:N, : soft.size] = split.moment_jacobian
     gaps = np.empty(k - 1)
     soft_ends = structure.ends[soft]
-    for j in range(k - 1):
-        rule = gap_rule(structure, j)
-        weight = gap_weight(rule, structure, j) * rule.weights
-        norm = np.sum(np.abs(weight))
-        basis = C.chebvander(window.t(rule.x), count - 1)
+    for j, quadrature in enumerate(split.gaps):
+        rule, weight, norm, basis = quadrature.rule, quadrature.weight, quadrature.norm, quadrature.basis
         h_nodes = basis[:, : len(h)] @ h
         gaps[j] = np.dot(weight, h_nodes) / norm
         if with_jacobian:

@@ -499,7 +499,8 @@ def build_measure(
     # positivity of the density: η = s_j h on an angular grid of each band (ends included)
     theta = np.linspace(0, math.pi, 257)
     grids = [a + (b - a) * np.sin(theta / 2) ** 2 for a, b in support]
-    etas = [provisional._regular_part(j, xs) for j, xs in enumerate(grids)]
+    h_grids = np.split(h_of(np.concatenate(grids)), k)
+    etas = [band_sign(structure, j) * values for j, values in enumerate(h_grids)]
     peak = max(float(np.max(np.abs(eta))) for eta in etas) or 1.0
     density_margin = min(float(np.min(eta)) for eta in etas) / peak
     if kind == "positive":
