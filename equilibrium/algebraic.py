@@ -186,7 +186,9 @@ def distance_product(
     Distances to its own ends come from the angle (``rule.from_lo``,
     ``rule.to_hi``) and distances to the others are formed beyond the
     interval as (x - lo) + (lo - e) or (hi - x) + (e - hi), so nothing
-    cancels however small the neighbouring gaps and bands are.
+    cancels however small the neighbouring gaps and bands are.  ``rule`` is an
+    :class:`AngularRule` or anything with its attributes lo, hi, x, from_lo,
+    to_hi and dx_dtheta.
     """
     e, hard = structure.ends, structure.hard
     n_left, right = max(lo_index, 0), min(hi_index + 1, e.size)
@@ -240,6 +242,10 @@ class FieldSplit:
     moment_jacobian: np.ndarray  # shape (N, #soft), empty without derivatives
     gaps: tuple["GapQuadrature", ...] = ()  # the rules for (4), which depend on the ends only
 
+    @property
+    def has_derivatives(self) -> bool:
+        return self.inner.shape[0] > 1
+
 
 @dataclass(frozen=True)
 class GapQuadrature:
@@ -258,10 +264,6 @@ def gap_quadrature(window: Window, structure: BandStructure, gap: int, count: in
     # t at the nodes from t(lo) and x - lo: no digits lost when the window is far from 0
     t = (rule.lo - window.dV.center) / window.dV.half_width + rule.from_lo / window.dV.half_width
     return GapQuadrature(rule, weight, float(np.sum(np.abs(weight))), C.chebvander(t, count - 1))
-
-    @property
-    def has_derivatives(self) -> bool:
-        return self.inner.shape[0] > 1
 
 
 @dataclass(frozen=True)

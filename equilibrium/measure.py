@@ -57,7 +57,7 @@ from .algebraic import (
     q_hard,
     sqrt_R,
 )
-from .chebyshev import real_roots
+from .chebyshev import COLLEAGUE_MAX, real_roots
 from .field import Field
 from .quadrature import (
     PANEL_POINTS,
@@ -720,16 +720,30 @@ def _singular_pieces(a: float, b: float, near_lo, near_hi, x: float, i: int) -> 
     return [(i, rule, rule.from_lo + d if x <= a else rule.to_hi + d)]
 
 
-def _real_zeros_of_h(measure: EquilibriumMeasure) -> np.ndarray:
-    """Real zeros of h in t ∈ (-1.2, 1.2) (a Chebyshev series is only trusted a little
-    beyond its window), as points x: the critical points of the effective potential."""
-    roots = real_roots(measure._state.h, -1.2, 1.2, imaginary_tolerance=1e-8)
+#: a Chebyshev series is only trusted a little beyond its window
+_TRUSTED_T = 1.2
+
+
+def _real_zeros_of_h(measure: EquilibriumMeasure) -> np.ndarray | None:
+    """All real zeros of h with |t| < 1.2, as points x, when h is short enough for the
+    colleague matrix; None otherwise (then each region is sampled on its own)."""
+    coefficients = measure._state.h
+    if len(coefficients) > COLLEAGUE_MAX:
+        return None
+    roots = real_roots(coefficients, -_TRUSTED_T, _TRUSTED_T, imaginary_tolerance=1e-8)
     return measure._window.dV.center + measure._window.dV.half_width * roots
 
 
-def _critical_points(critical: np.ndarray, lo: float, hi: float) -> np.ndarray:
-    """The critical points strictly inside (lo, hi)."""
-    return critical[(critical > lo) & (critical < hi)]
+def _critical_points(measure: EquilibriumMeasure, critical: np.ndarray | None, lo: float, hi: float) -> np.ndarray:
+    """Real zeros of h strictly inside (lo, hi): the critical points of the effective potential there."""
+    if critical is not None:
+        return critical[(critical > lo) & (critical < hi)]
+    window = measure._window
+    t_lo, t_hi = max(float(window.t(lo)), -_TRUSTED_T), min(float(window.t(hi)), _TRUSTED_T)
+    if t_lo >= t_hi:
+        return np.zeros(0)
+    roots = real_roots(measure._state.h, t_lo, t_hi, samples=2001)
+    return window.dV.center + window.dV.half_width * roots
 
 
 def _off_support_regions(measure: EquilibriumMeasure) -> list[tuple[float, float]]:
@@ -753,12 +767,12 @@ def _off_support_regions(measure: EquilibriumMeasure) -> list[tuple[float, float
 def _effective_potential_minimum(measure: EquilibriumMeasure, regions=None, critical=None) -> tuple[float, float]:
     """Min of the effective potential over samples of Σ \\ S (denser toward the ends) and its critical points."""
     regions = _off_support_regions(measure) if regions is None else regions
-    critical = _real_zeros_of_h(measure) if critical is None else critical
+    critical = _real_zeros_of_h(measure) if critical is None else critical  # None: sample each region
     fraction = np.sin(np.linspace(0, math.pi / 2, 66)[1:-1]) ** 2
     samples = []
     for lo, hi in regions:
         samples.append(lo + (hi - lo) * fraction)
-        samples.append(_critical_points(critical, lo, hi))
+        samples.append(_critical_points(measure, critical, lo, hi))
     if not samples:
         return 0.0, math.nan
     xs = np.concatenate(samples)
@@ -776,7 +790,7 @@ def _effective_potential_touches(measure: EquilibriumMeasure, regions=None, crit
     critical = _real_zeros_of_h(measure) if critical is None else critical
     points = []
     for lo, hi in regions:
-        for x in _critical_points(critical, lo, hi):
+        for x in _critical_points(measure, critical, lo, hi):
             if hi - lo > 0 and min(x - lo, hi - x) >= 1e-6 * (hi - lo):
                 points.append(float(x))
     if not points:

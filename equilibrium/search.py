@@ -257,6 +257,8 @@ def _shrink(field: Field, on: IntervalSet, window_bounds: tuple[float, float]):
             grow_hi = True
         if not (grow_lo or grow_hi):
             break
+        # half a span at a time: a whole span can overshoot into a region where V is huge,
+        # whose signed measure then points the other way (seen to oscillate with two deep wells)
         if grow_lo:
             lo = max(on.hull[0], lo - 0.5 * span)
         if grow_hi:
