@@ -137,7 +137,6 @@ class AngularRule:
     breaks: np.ndarray
 
 
-
 def angular_rule(
     lo: float,
     hi: float,
@@ -229,9 +228,9 @@ def cumulative_integral(integrand, lo: float, hi: float, breaks: np.ndarray, poi
     ``integrand(theta)`` must return the (smooth) integrand in θ, i.e. already
     multiplied by dx/dθ; it is called once with the nodes of all panels.
     On each panel the integrand is interpolated at first-kind Chebyshev points
-    and the interpolant integrated exactly (the classical spectral
-    integration; Trefethen, Approximation Theory and Approximation Practice,
-    SIAM 2013, ch. 19).
+    and the interpolant integrated exactly (common practice; the indefinite
+    form of Clenshaw–Curtis quadrature, cf. Trefethen, Approximation Theory
+    and Approximation Practice, SIAM 2013, ch. 19).
     """
     breaks = np.asarray(breaks, dtype=float)
     nodes = chebyshev_points(points)
