@@ -1,14 +1,143 @@
-"""Test configuration: reproducible property and fuzz tests.
+"""Test configuration: reproducible property and fuzz tests, and helpers shared by test files.
 
 Hypothesis draws the same examples on every run (``derandomize``), so a CI
 result can be reproduced exactly; run with ``--hypothesis-seed`` or set
 ``HYPOTHESIS_PROFILE=explore`` to search afresh.
+
+The helpers reach the tests as session-scoped fixtures that return a
+function (not by importing this file, which pytest does not promise to
+allow); each call builds its own state, so nothing is shared between tests.
+Session scope keeps hypothesis from warning about function-scoped fixtures
+in ``@given`` tests.
 """
 
-import os
+from __future__ import annotations
 
+import builtins
+import contextlib
+import os
+import sys
+import typing
+from collections.abc import Iterator, Sequence
+
+import pytest
 from hypothesis import settings
 
 settings.register_profile("ci", derandomize=True, print_blob=True)
 settings.register_profile("explore", derandomize=False, print_blob=True)
 settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "ci"))
+
+
+# ----------------------------------------------------------------------------- tripwires
+class Tripwire(AssertionError):
+    """Raised by a wired builtin: text was about to be run as code.
+
+    An AssertionError, so that a test fails with the message even where no
+    one expects the exception.
+    """
+
+
+def _library_call(frame) -> bool:
+    """A call made while a module is being imported (module code, code generated from fixed
+    templates as mpmath does) or by typing (annotations): source of installed code, not user text."""
+    if frame.f_code.co_filename == typing.__file__:
+        return True
+    while frame is not None:
+        if frame.f_code.co_filename.startswith("<frozen importlib._bootstrap"):
+            return True
+        frame = frame.f_back
+    return False
+
+
+@contextlib.contextmanager
+def _armed(*, also_import: bool = False, let_library_through: bool = False) -> Iterator[list[str]]:
+    calls: list[str] = []
+    names = ("eval", "exec", "compile") + (("__import__",) if also_import else ())
+    saved = {name: getattr(builtins, name) for name in names}
+
+    def wire(name):
+        def tripped(*args, **kwargs):
+            frame = sys._getframe(1)
+            if let_library_through and _library_call(frame):
+                return saved[name](*args, **kwargs)
+            calls.append(name)
+            raise Tripwire(f"{name} was called from {frame.f_code.co_filename}")
+        return tripped
+
+    for name in saved:
+        setattr(builtins, name, wire(name))
+    try:
+        yield calls
+    finally:
+        for name, original in saved.items():
+            setattr(builtins, name, original)
+    # reached only when the block ended normally: a tripwire whose exception the code
+    # under test caught and swallowed still fails the test here
+    assert calls == [], f"tripwires hit: {calls}"
+
+
+@pytest.fixture(scope="session")
+def tripwires():
+    """Context-manager factory: inside it, eval/exec/compile raise :class:`Tripwire` and record the call.
+
+    ``with tripwires(...) as calls:`` yields the list of wired names that were
+    called.  On leaving the block the builtins are restored, and, if the block
+    ended normally, ``calls`` must be empty (so a caught tripwire still fails).
+
+    Parameters
+    ----------
+    also_import : bool, default False
+        Wire ``__import__`` too.  For code that must not even import (the
+        expression parser); code that imports lazily, as the set, parameter
+        and weight parsers may, cannot be held to this.
+    let_library_through : bool, default False
+        Pass on calls made by the import machinery (any caller frame inside
+        ``importlib._bootstrap``) or by :mod:`typing` (annotations) to the real
+        builtin.  Those run the source of installed modules, not user text; a
+        parser that imports a module on first use (mpmath generates code from
+        fixed templates) would otherwise trip the wire.  Off, every call trips.
+
+    Returns
+    -------
+    callable
+        ``armed(*, also_import=False, let_library_through=False)``, a context
+        manager yielding the list of tripped names.
+    """
+    return _armed
+
+
+# ----------------------------------------------------------------------------- case files
+@pytest.fixture(scope="session")
+def case_text():
+    """Function returning the text of a minimal case file (TOML), by default V = x**2/2 on R.
+
+    The layout is fixed -- tests name line numbers of this text (``line 7``
+    is ``value_points``) and change it with ``str.replace``.
+
+    Parameters
+    ----------
+    expression : str, default "x**2/2"
+        The field V, the [field] expression.
+    n : sequence of int, default (10, 20)
+        The degrees of [polynomials].
+    comparisons : sequence of str, default ()
+        Lines of a [comparisons] table, written before [figures]; none, no table.
+    figures : sequence of str, default ('formats = ["png"]', "dpi = 100")
+        Lines of the [figures] table.
+
+    Returns
+    -------
+    callable
+        ``text(expression=..., n=..., comparisons=..., figures=...) -> str``.
+    """
+    return _case_text
+
+
+def _case_text(expression: str = "x**2/2", n: Sequence[int] = (10, 20), comparisons: Sequence[str] = (),
+               figures: Sequence[str] = ('formats = ["png"]', "dpi = 100")) -> str:
+    lines = ["[case]", 'name = "gauss"', "[field]", f'expression = "{expression}"',
+             "[polynomials]", f"n = [{', '.join(str(k) for k in n)}]", "value_points = 5"]
+    if comparisons:
+        lines += ["[comparisons]", *comparisons]
+    lines += ["[figures]", *figures]
+    return "\n".join(lines) + "\n"

@@ -24,24 +24,12 @@ from __future__ import annotations
 import os
 import subprocess
 import sys
+from collections.abc import Callable
 from pathlib import Path
 
 import pytest
 
 from workbench.cli import main
-
-GAUSS_CASE = """\
-[case]
-name = "gauss"
-[field]
-expression = "x**2/2"
-[polynomials]
-n = [10, 20]
-value_points = 5
-[figures]
-formats = ["png"]
-dpi = 100
-"""
 
 SWEEP_CASE = """\
 [case]
@@ -59,22 +47,27 @@ enabled = false
 """
 
 
-def _files(root: Path) -> dict[str, str]:
-    """The fixture files a row may name (placeholders {name} in the argv)."""
+def _files(root: Path, case_text: Callable[..., str]) -> dict[str, str]:
+    """The fixture files a row may name (placeholders {name} in the argv).
+
+    ``case_text`` is the fixture of tests/conftest.py; the rows name line
+    numbers of its default text.
+    """
+    gauss = case_text()
     files = {
-        "gauss": GAUSS_CASE,
+        "gauss": gauss,
         "malformed": "[case\nname = 'x'\n",
-        "unknown_key": GAUSS_CASE.replace("value_points = 5", "value_pints = 5"),
-        "wrong_type": GAUSS_CASE.replace("value_points = 5", 'value_points = "five"'),
-        "wrong_type_dpi": GAUSS_CASE.replace("dpi = 100", "dpi = 1.5"),
-        "unknown_table": GAUSS_CASE + "\n[bogus]\nx = 1\n",
-        "case_nonconfining": GAUSS_CASE.replace('"x**2/2"', '"x**3"'),
-        "case_slow_log": GAUSS_CASE.replace('"x**2/2"', '"0.9*log(1+x^2)"'),
-        "case_not_finite": GAUSS_CASE.replace('"x**2/2"', '"log(x)"') + '\n[set]\nintervals = "-1:1"\n',
-        "case_unknown_name": GAUSS_CASE.replace('"x**2/2"', '"y*x**2"'),
-        "case_reversed": GAUSS_CASE + '\n[set]\nintervals = "1:-1"\n',
-        "case_jacobi": GAUSS_CASE + '\n[set]\nintervals = "-1:1"\n[factor]\nkind = "jacobi"\nalpha = -1.0\n',
-        "case_n_zero": GAUSS_CASE.replace("n = [10, 20]", "n = [0, 10]"),
+        "unknown_key": gauss.replace("value_points = 5", "value_pints = 5"),
+        "wrong_type": gauss.replace("value_points = 5", 'value_points = "five"'),
+        "wrong_type_dpi": gauss.replace("dpi = 100", "dpi = 1.5"),
+        "unknown_table": gauss + "\n[bogus]\nx = 1\n",
+        "case_nonconfining": gauss.replace('"x**2/2"', '"x**3"'),
+        "case_slow_log": gauss.replace('"x**2/2"', '"0.9*log(1+x^2)"'),
+        "case_not_finite": gauss.replace('"x**2/2"', '"log(x)"') + '\n[set]\nintervals = "-1:1"\n',
+        "case_unknown_name": gauss.replace('"x**2/2"', '"y*x**2"'),
+        "case_reversed": gauss + '\n[set]\nintervals = "1:-1"\n',
+        "case_jacobi": gauss + '\n[set]\nintervals = "-1:1"\n[factor]\nkind = "jacobi"\nalpha = -1.0\n',
+        "case_n_zero": gauss.replace("n = [10, 20]", "n = [0, 10]"),
         "sweep": SWEEP_CASE,
         "sweep_nonconfining": SWEEP_CASE.replace('"x**4/4 - t*x**2/2"', '"x**3 + t*x**2"'),
         "sweep_bad_axis": SWEEP_CASE.replace('name = "t"', 'name = "q"'),
@@ -255,8 +248,8 @@ def _check(code, stdout, stderr, fragment, out: Path):
 
 
 @pytest.mark.parametrize("name,argv,fragment", BAD, ids=[row[0] for row in BAD])
-def test_bad_input_in_process(name, argv, fragment, tmp_path, capsys):
-    paths = _files(tmp_path)
+def test_bad_input_in_process(name, argv, fragment, tmp_path, capsys, case_text):
+    paths = _files(tmp_path, case_text)
     out = tmp_path / "out"
     before = sorted(p.name for p in tmp_path.iterdir())
     try:
@@ -268,7 +261,7 @@ def test_bad_input_in_process(name, argv, fragment, tmp_path, capsys):
     assert sorted(p.name for p in tmp_path.iterdir()) == before  # nothing beside the fixtures
 
 
-def test_bad_input_in_a_real_process(tmp_path):
+def test_bad_input_in_a_real_process(tmp_path, case_text):
     """The same rows as separate processes (started together: the cost is the interpreter start)."""
     rows = {row[0]: row for row in BAD}
     env = dict(os.environ, PYTHONUNBUFFERED="1")
@@ -277,7 +270,7 @@ def test_bad_input_in_a_real_process(tmp_path):
         _, argv, fragment = rows[name]
         root = tmp_path / name
         root.mkdir()
-        paths = _files(root)
+        paths = _files(root, case_text)
         out = root / "out"
         process = subprocess.Popen([sys.executable, "-m", "workbench", *_argv(argv, paths, str(out))],
                                    stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)

@@ -4,22 +4,19 @@ Random text is given to :meth:`IntervalSet.parse`, to
 :func:`workbench.commands._common.parse_parameters` and to
 :func:`workbench.polynomials.weight.parse_factor`; each must return a valid
 object or raise :class:`InputError` with a one-line message -- nothing else --
-and none of them may call eval/exec/compile (tripwires on the builtins, as
-in tests/test_expression_fuzz.py, which also wires ``__import__`` for the
-expression parser; calls made by the import machinery itself, which runs
-source files of installed modules, are let through).  A parsed object is then
-checked against its own invariants (ordered disjoint intervals; finite
-parameter values; a weight whose log is finite or refused on its set).
+and none of them may call eval/exec/compile (the ``tripwires`` on the builtins
+from tests/conftest.py, as in tests/test_expression_fuzz.py, which also wires
+``__import__`` for the expression parser; calls made by the import machinery
+itself, which runs source files of installed modules, are let through).  A
+parsed object is then checked against its own invariants (ordered disjoint
+intervals; finite parameter values; a weight whose log is finite or refused
+on its set).
 """
 
 from __future__ import annotations
 
-import builtins
-import contextlib
 import math
 import string
-import sys
-import typing
 
 import numpy as np
 from hypothesis import HealthCheck, given, settings
@@ -44,43 +41,6 @@ def _text(pieces):
     return st.one_of(st.text(max_size=40), st.lists(st.sampled_from(pieces), max_size=25).map("".join))
 
 
-def _library_call(frame) -> bool:
-    """A call made while a module is being imported (module code, code generated from fixed
-    templates as mpmath does) or by typing (annotations): source of installed code, not user text."""
-    if frame.f_code.co_filename == typing.__file__:
-        return True
-    while frame is not None:
-        if frame.f_code.co_filename.startswith("<frozen importlib._bootstrap"):
-            return True
-        frame = frame.f_back
-    return False
-
-
-@contextlib.contextmanager
-def _no_code_runs():
-    calls: list[str] = []
-    saved = {name: getattr(builtins, name) for name in ("eval", "exec", "compile")}
-
-    def wire(name):
-        def tripped(*args, **kwargs):
-            frame = sys._getframe(1)
-            if _library_call(frame):
-                return saved[name](*args, **kwargs)
-            caller = frame.f_code.co_filename
-            calls.append(name)
-            raise AssertionError(f"{name} was called from {caller}")
-        return tripped
-
-    for name in saved:
-        setattr(builtins, name, wire(name))
-    try:
-        yield calls
-    finally:
-        for name, original in saved.items():
-            setattr(builtins, name, original)
-    assert calls == []
-
-
 def _refused(error: InputError) -> None:
     message = str(error)
     assert message and "\n" not in message
@@ -91,8 +51,8 @@ SETTINGS = settings(max_examples=400, deadline=None, suppress_health_check=[Heal
 
 @SETTINGS
 @given(_text(SET_PIECES))
-def test_set_parser_returns_a_valid_set_or_refuses(text):
-    with _no_code_runs():
+def test_set_parser_returns_a_valid_set_or_refuses(tripwires, text):
+    with tripwires(let_library_through=True):
         try:
             on = IntervalSet.parse(text)
         except InputError as error:
@@ -107,8 +67,8 @@ def test_set_parser_returns_a_valid_set_or_refuses(text):
 
 @SETTINGS
 @given(st.lists(_text(PARAM_PIECES), max_size=4))
-def test_parameter_parser_returns_finite_numbers_or_refuses(items):
-    with _no_code_runs():
+def test_parameter_parser_returns_finite_numbers_or_refuses(tripwires, items):
+    with tripwires(let_library_through=True):
         try:
             values = parse_parameters(items)
         except InputError as error:
@@ -125,8 +85,8 @@ PROBE = np.linspace(-0.999, 0.999, 37)
 
 @SETTINGS
 @given(_text(FACTOR_PIECES), st.sampled_from([ON, IntervalSet.real_line(), None]))
-def test_factor_parser_returns_factors_or_refuses(text, on):
-    with _no_code_runs():
+def test_factor_parser_returns_factors_or_refuses(tripwires, text, on):
+    with tripwires(let_library_through=True):
         try:
             factors = parse_factor(text, {"t": 0.5}, on=on)
         except InputError as error:
@@ -148,9 +108,9 @@ def test_factor_parser_returns_factors_or_refuses(text, on):
     assert np.all(np.isfinite(log_w) | np.isin(PROBE, [c for c, _ in weight.singular_points]))
 
 
-def test_the_tripwire_catches_a_direct_call():
+def test_the_tripwire_catches_a_direct_call(tripwires):
     import pytest
 
     with pytest.raises(AssertionError, match="eval was called"):
-        with _no_code_runs():
+        with tripwires(let_library_through=True):
             eval("1")  # noqa: S307 - the point of the test

@@ -51,29 +51,18 @@ def test_disagreeing_discretisations_exit_3_and_write_nothing(command, tmp_path,
     assert not out.exists() and list(tmp_path.iterdir()) == []
 
 
-GAUSS = """\
-[case]
-name = "gauss"
-[field]
-expression = "x**2/2"
-[polynomials]
-n = [10, 20]
-value_points = 5
-[comparisons]
-small_norm = false
-[figures]
-enabled = false
-"""
+#: the tables the case files here add to the minimal case (``case_text`` of tests/conftest.py)
+NO_SMALL_NORM_NO_FIGURES = {"comparisons": ["small_norm = false"], "figures": ["enabled = false"]}
 
 
-def test_run_with_unverified_direct_coefficients_marks_the_file(tmp_path, capsys, monkeypatch):
+def test_run_with_unverified_direct_coefficients_marks_the_file(tmp_path, capsys, monkeypatch, case_text):
     """The pipeline keeps going, writes the file and marks it unverified, naming every failed n."""
     import workbench.polynomials as polynomials
 
     strict = functools.partial(polynomials.recurrence_coefficients, tolerance=1e-300)
     monkeypatch.setattr(polynomials, "recurrence_coefficients", strict)
     case = tmp_path / "gauss.toml"
-    case.write_text(GAUSS)
+    case.write_text(case_text(**NO_SMALL_NORM_NO_FIGURES))
     code, _, err = _run(["run", str(case), "--out", str(tmp_path / "o"), "--quiet"], capsys)
     assert code == 3
     assert len(err) == 1 and "results written but not verified" in err[0]
@@ -115,13 +104,10 @@ def test_predict_with_theta_over_budget_exits_3(capsys, monkeypatch):
     assert len(err) == 1 and "theta sum over its budget" in err[0]
 
 
-TWO_BAND_CASE = GAUSS.replace('"x**2/2"', f'"{TWO_BAND}"').replace("n = [10, 20]", "n = [12]")
-
-
-def test_run_with_theta_over_budget_marks_the_model_failed(tmp_path, capsys, monkeypatch):
+def test_run_with_theta_over_budget_marks_the_model_failed(tmp_path, capsys, monkeypatch, case_text):
     _small_theta_budget(monkeypatch)
     case = tmp_path / "two.toml"
-    case.write_text(TWO_BAND_CASE)
+    case.write_text(case_text(expression=TWO_BAND, n=[12], **NO_SMALL_NORM_NO_FIGURES))
     code, _, err = _run(["run", str(case), "--out", str(tmp_path / "o"), "--quiet"], capsys)
     assert code == 3
     assert len(err) == 1 and "model problem failed: theta sum over its budget" in err[0]

@@ -11,6 +11,7 @@ Thm IV.5.1; the CONVENTIONS check values).  The small-norm deviation
 
 from __future__ import annotations
 
+import functools
 import os
 import signal
 import subprocess
@@ -25,23 +26,18 @@ from workbench.case import parse_case
 from workbench.cli import main
 from workbench.pipeline import fit_rate, run_case
 
-GAUSS = """\
-[case]
-name = "gauss"
-[field]
-expression = "x**2/2"
-[polynomials]
-n = [10, 20, 40, 80]
-value_points = 5
-[comparisons]
-contour_points = 32
-[figures]
-formats = ["png"]
-dpi = 100
-"""
+
+@pytest.fixture
+def gauss_case(case_text):
+    """Function returning the case text of this file.
+
+    ``case_text`` of tests/conftest.py with n = 10, 20, 40, 80 (unless ``n`` is
+    given) and ``contour_points = 32`` in [comparisons].
+    """
+    return functools.partial(case_text, n=(10, 20, 40, 80), comparisons=["contour_points = 32"])
 
 
-def _case(tmp_path, text=GAUSS, name="gauss.toml"):
+def _case(tmp_path, text, name):
     path = tmp_path / name
     path.write_text(text)
     return path
@@ -61,8 +57,8 @@ def test_fit_rate_matches_scipy_linregress():
     assert np.isnan(fit_rate([10, 20], [1.0, 0.5]).stderr)  # two points: no standard error
 
 
-def test_gaussian_run_against_closed_forms(tmp_path):
-    case = parse_case(GAUSS, source="gauss.toml")
+def test_gaussian_run_against_closed_forms(tmp_path, gauss_case):
+    case = parse_case(gauss_case(), source="gauss.toml")
     outcome = run_case(case, tmp_path / "out", progress=False, draw=False)
     assert outcome.verified, outcome.messages
     with h5py.File(outcome.path, "r") as f:
@@ -86,8 +82,8 @@ def test_gaussian_run_against_closed_forms(tmp_path):
         assert np.all(np.diff(f["comparison/err_zeros_bulk"][()]) < 0)
 
 
-def test_interrupted_run_resumes_without_recomputing(tmp_path):
-    case = parse_case(GAUSS, source="gauss.toml")
+def test_interrupted_run_resumes_without_recomputing(tmp_path, gauss_case):
+    case = parse_case(gauss_case(), source="gauss.toml")
     out = tmp_path / "out"
 
     def stop_after_second(n):
@@ -103,7 +99,7 @@ def test_interrupted_run_resumes_without_recomputing(tmp_path):
     again = run_case(case, out, progress=False, draw=False)
     assert again.computed == () and again.reused == (10, 20, 40, 80)
     # a changed case does not reuse the partial results of another
-    changed = parse_case(GAUSS.replace("value_points = 5", "value_points = 6"), source="g.toml")
+    changed = parse_case(gauss_case().replace("value_points = 5", "value_points = 6"), source="g.toml")
     assert run_case(changed, out, progress=False, draw=False).reused == ()
 
 
@@ -128,8 +124,8 @@ def _block_numerics(monkeypatch):
         monkeypatch.setitem(sys.modules, name, None)  # import raises ImportError
 
 
-def test_plot_and_show_need_no_recomputation(tmp_path, monkeypatch, capsys):
-    case = parse_case(GAUSS.replace("n = [10, 20, 40, 80]", "n = [10, 20]"), source="g.toml")
+def test_plot_and_show_need_no_recomputation(tmp_path, monkeypatch, capsys, gauss_case):
+    case = parse_case(gauss_case(n=[10, 20]), source="g.toml")
     outcome = run_case(case, tmp_path / "out", progress=False, draw=True)
     drawn = {p.name for files in outcome.figures.values() for p in files}
     _block_numerics(monkeypatch)
@@ -144,8 +140,8 @@ def test_plot_and_show_need_no_recomputation(tmp_path, monkeypatch, capsys):
     assert "1 band(s) [-2.000000, 2.000000]" in text and "fitted rates" in text
 
 
-def test_cli_errors_name_the_line(tmp_path, capsys):
-    bad = _case(tmp_path, GAUSS.replace("value_points = 5", "value_pints = 5"), "bad.toml")
+def test_cli_errors_name_the_line(tmp_path, capsys, gauss_case):
+    bad = _case(tmp_path, gauss_case().replace("value_points = 5", "value_pints = 5"), "bad.toml")
     assert main(["run", str(bad), "--out", str(tmp_path / "o")]) == 2
     err = capsys.readouterr().err
     assert f"{bad} line 7: unknown key 'value_pints' in [polynomials]" in err
@@ -153,7 +149,7 @@ def test_cli_errors_name_the_line(tmp_path, capsys):
 
 
 # ------------------------------------------------------------ killing a real process
-SLOW = GAUSS.replace("n = [10, 20, 40, 80]", "n = [40, 60, 80, 100, 120, 140, 160, 180, 200, 220]")
+SLOW_DEGREES = [40, 60, 80, 100, 120, 140, 160, 180, 200, 220]
 
 
 def _start(case_path, out):
@@ -186,8 +182,8 @@ def _check_directory(out):
 
 
 @pytest.mark.parametrize("how", [signal.SIGKILL, signal.SIGINT])
-def test_killed_run_leaves_no_truncated_file_and_resumes(tmp_path, how):
-    case_path = _case(tmp_path, SLOW, "slow.toml")
+def test_killed_run_leaves_no_truncated_file_and_resumes(tmp_path, how, gauss_case):
+    case_path = _case(tmp_path, gauss_case(n=SLOW_DEGREES), "slow.toml")
     out = tmp_path / "out"
     process = _start(case_path, out)
     _wait_for_partials(out, 2, process)

@@ -6,7 +6,7 @@ Stages
    with its verification figures, and ψ, F on a grid for the figures.
 2. *model*: the predictions of the steepest-descent analysis at every n
    (``gfunction.predict``): ``a_n^{(n)}, b_n^{(n)}`` from the outer
-   parametrix, zeros by the quantile rule in the bulk, Airy zeros at soft
+   parametrix, zeros of the oscillatory bulk form on the bands, Airy zeros at soft
    edges, the zero in each gap and the count of zeros per band.
 3. *direct*: at every n the recurrence coefficients of ``exp(-nV) h`` on Σ
    up to degree ``n + extra`` (``workbench.polynomials``, with their error
@@ -296,12 +296,19 @@ def _zero_errors(node: Group, direct, model: Group, ns, support, gap_direct) -> 
     if model.has("bulk_zeros"):
         errs = []
         for d, predicted in zip(direct, model.get("bulk_zeros")):
-            x = np.asarray(d.get("zeros"))
-            predicted = np.asarray(predicted, dtype=float)[: x.size]
-            ok = np.isfinite(predicted)
-            errs.append(np.max(np.abs(x[ok] - predicted[ok])) if ok.any() else np.nan)
+            x = np.sort(np.asarray(d.get("zeros"), dtype=float))
+            predicted = np.asarray(predicted, dtype=float)
+            predicted = predicted[np.isfinite(predicted)]
+            if predicted.size and x.size:
+                # each predicted zero against the nearest zero of p_n (no index bookkeeping
+                # across bands, whose counts move with n Omega)
+                place = np.searchsorted(x, predicted)
+                below, above = x[np.clip(place - 1, 0, x.size - 1)], x[np.clip(place, 0, x.size - 1)]
+                errs.append(float(np.max(np.minimum(np.abs(below - predicted), np.abs(above - predicted)))))
+            else:
+                errs.append(np.nan)
         node.add("err_zeros_bulk", np.asarray(errs),
-                 "max |x_j - quantile-rule x_j| over bulk zeros (predicted NaN at edges excluded)")
+                 "max over the predicted bulk zeros of the distance to the nearest zero of p_n")
     if model.has("edge_zeros"):
         predicted = np.asarray(model.get("edge_zeros"), dtype=float)  # (N, m): from b_k inward
         m = predicted.shape[1]
@@ -468,7 +475,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     Stored in ``/model``: ``a``, ``b`` (outer parametrix), ``phases`` ``w = nΩ``
     (mod 1), ``gap_zeros`` and ``band_counts`` (argument principle on M_11),
     ``edge_zeros`` (Airy, at the rightmost edge when it is soft),
-    ``bulk_zeros`` (quantile rule, NaN near edges), ``values_shape`` (the
+    ``bulk_zeros`` (zeros of the bulk form, NaN-padded), ``values_shape`` (the
     oscillatory bulk form of p_n w^{1/2} up to the factor γ_n e^{-nℓ/2}),
     plus ``n_dense``/``a_dense``/``b_dense``/``gap_zeros_dense`` on every n of
     the range for the quasi-periodic pattern of the figures.
@@ -513,25 +520,19 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
                                      "counted from the right edge b_k inward")
         node.add("airy_zeros", ai_zeros(EDGE_ZEROS)[0], "zeros a_j of Ai (scipy.special.ai_zeros)")
 
-    bulk = []
-    for n in ns_arr:
-        x = np.asarray(pred.quantile_zeros(int(n)), dtype=float)
-        interior = np.zeros(x.shape, dtype=bool)
-        for a, b in support:  # the quantile rule is a bulk statement: keep 10% away from ends
-            margin = 0.1 * (b - a)
-            interior |= (x > a + margin) & (x < b - margin)
-        bulk.append(np.where(interior, x, np.nan))
-    width = max(b.size for b in bulk)
+    bulk = [np.asarray(pred.bulk_zeros(int(n)), dtype=float) for n in ns_arr]
+    width = max([b.size for b in bulk] + [1])
     padded = np.full((len(bulk), width), np.nan)
     for i, b in enumerate(bulk):
         padded[i, : b.size] = b
-    node.add("bulk_zeros", padded, "quantile-rule zeros F(x_j) = (j - 1/2)/n; NaN near an edge "
-                                   "(10% of the band width) and beyond n in row i")
+    node.add("bulk_zeros", padded, "zeros of the oscillatory bulk form (DKMVZ 1999, Thm 1.1, leading "
+                                   "order) away from the ends of each band and from singular points "
+                                   "of the factor (10% of the band width); NaN pads row i")
 
     if case.factor.kind == "none":
         points = _bulk_points(mu, case.polynomials.value_points)
         node.add("value_x", points, "bulk points (inner 70% of each band)")
-        node.add("values_shape", np.array([_band_form(pred, mu, points, int(n)) for n in ns_arr]),
+        node.add("values_shape", np.array([pred.band_form(points, int(n)) for n in ns_arr]),
                  "Re[M11+ e^{n(g+ - V/2 + ell/2)} + M11- e^{n(g- - V/2 + ell/2)}]: predicted "
                  "p_n w^{1/2} divided by gamma_n e^{-n ell/2}")
 
@@ -631,17 +632,3 @@ def _dense_range(ns: np.ndarray, limit: int = 400) -> np.ndarray:
     return np.unique(np.round(np.linspace(lo, hi, limit)).astype(np.int64))
 
 
-def _band_form(pred, mu, x: np.ndarray, n: int) -> np.ndarray:
-    """Oscillatory bulk form of π_n e^{-nV/2} e^{nℓ/2} (DKMVZ 1999, Theorem 1.1 at leading order).
-
-    On a band ``g_± - V/2 + ℓ/2 = ±iπ μ([x, b_k])`` is purely imaginary, so the
-    exponentials are of modulus one and nothing overflows at large n.
-    """
-    w = pred.phases([n])[0]
-    gp, gm = pred.g.boundary_values(x)
-    shift = 0.5 * np.asarray(mu.field.V(x), dtype=float) - 0.5 * float(mu.lagrange)
-    ep = n * (gp - shift)
-    em = n * (gm - shift)
-    Mp = pred.model.evaluate(x + 1e-300j, w)[..., 0, 0]
-    Mm = pred.model.evaluate(x - 1e-300j, w)[..., 0, 0]
-    return (Mp * np.exp(ep) + Mm * np.exp(em)).real
