@@ -44,7 +44,7 @@ from numpy.polynomial import chebyshev as C
 
 from .chebyshev import ChebyshevApproximation, chebyshev_fit
 from .ellipse import JoukowskiEllipse, ellipse_for
-from .errors import InputError, NumericalFailure
+from .errors import InputError
 from .field import Field
 from .quadrature import AngularRule, angular_rule
 

@@ -31,7 +31,6 @@
 from __future__ import annotations
 
 import math
-from dataclasses import replace
 
 import numpy as np
 from numpy.polynomial import chebyshev as C

@@ -30,14 +30,14 @@ from scipy.special import betaln
 
 from equilibrium.errors import InputError
 
-__all__ = ["graded_jacobi_rule", "GRADING_THRESHOLD"]
+__all__ = ["gauss_jacobi", "graded_jacobi_rule", "GRADING_THRESHOLD"]
 
 #: a singular point nearer than this fraction of b - a to an endpoint triggers grading
 GRADING_THRESHOLD = 0.25
 
 
 @lru_cache(maxsize=128)
-def _reference_rule(n: int, alpha: float, beta: float) -> tuple[np.ndarray, np.ndarray]:
+def gauss_jacobi(n: int, alpha: float, beta: float) -> tuple[np.ndarray, np.ndarray]:
     """Gauss–Jacobi nodes/weights on [-1, 1] for (1 - t)^α (1 + t)^β (read only).
 
     α = β = -1/2 is Gauss–Chebyshev (closed form).  Otherwise Golub–Welsch:
@@ -83,7 +83,7 @@ def _panel(a: float, L: float, c0: float, c1: float, n: int, wa: float, wb: floa
     exact fractions c0, c1 (never from rounded absolute end points, which
     would cost relative accuracy on panels of width 1e-9 away from 0).
     """
-    t, w = _reference_rule(n, float(wb), float(wa))
+    t, w = gauss_jacobi(n, float(wb), float(wa))
     half = 0.5 * L * (c1 - c0)
     da = L * c0 + half * (1.0 + t)
     db = L * (1.0 - c1) + half * (1.0 - t)

@@ -69,8 +69,8 @@ Panels
   (Before it, V = x⁴/4 - 1.96 x²/2 at n = K = 320 gave two discretisations
   differing by 1.9e-5; after it, 1.4e-14.)
 * **Singular points** of ``h`` inside Σ are panel breaks; adjacent panels use
-  Gauss–Jacobi rules with that exponent (scipy.special.roots_jacobi), so
-  ``(x - c)^p`` is integrated exactly.
+  Gauss–Jacobi rules with that exponent (``gfunction.quadrature.gauss_jacobi``,
+  Golub–Welsch), so ``(x - c)^p`` is integrated exactly.
 
 The second, independent discretisation uses other values of ``(ζ, m)``, a
 shifted set of quantile breaks and another exterior step; the difference of
@@ -79,16 +79,15 @@ the two coefficient lists is the error estimate.
 
 from __future__ import annotations
 
-import functools
 import math
 from dataclasses import dataclass
 from typing import Any, Callable
 
 import numpy as np
-from scipy.special import roots_jacobi
 
 from equilibrium.errors import NumericalFailure
 from equilibrium.quadrature import gauss_legendre
+from gfunction.quadrature import gauss_jacobi
 
 from .weight import Weight
 
@@ -158,16 +157,6 @@ class Discretisation:
         """log Σ λ_i = log ∫ w (log-sum-exp)."""
         top = float(np.max(self.log_weights))
         return top + math.log(float(np.sum(np.exp(self.log_weights - top))))
-
-
-# --------------------------------------------------------------------------- quadrature rules
-@functools.lru_cache(maxsize=64)
-def gauss_jacobi(m: int, alpha: float, beta: float) -> tuple[np.ndarray, np.ndarray]:
-    """Gauss–Jacobi rule for (1-u)^α (1+u)^β on [-1, 1] (scipy.special.roots_jacobi), cached."""
-    u, w = roots_jacobi(m, alpha, beta)
-    u.setflags(write=False)
-    w.setflags(write=False)
-    return u, w
 
 
 # --------------------------------------------------------------------------- the measure
