@@ -46,7 +46,7 @@ from .chebyshev import ChebyshevApproximation, chebyshev_fit
 from .ellipse import JoukowskiEllipse, ellipse_for
 from .errors import InputError
 from .field import Field
-from .quadrature import AngularRule, angular_rule
+from .quadrature import PANEL_POINTS, AngularRule, angular_rule, panel_points
 
 #: the largest number of bands the window's ellipse is sized for
 MAX_BANDS = 12
@@ -167,11 +167,11 @@ def _product_of_differences(z: np.ndarray, points: np.ndarray) -> np.ndarray:
     return out
 
 
-def gap_rule(structure: BandStructure, gap: int) -> AngularRule:
+def gap_rule(structure: BandStructure, gap: int, points: int = PANEL_POINTS) -> AngularRule:
     """Angular rule on gap ``gap`` (0-based: between bands gap and gap+1)."""
     e = structure.ends
     lo, hi = e[2 * gap + 1], e[2 * gap + 2]
-    return angular_rule(lo, hi, near_lo=lo - e[2 * gap], near_hi=e[2 * gap + 3] - hi)
+    return angular_rule(lo, hi, near_lo=lo - e[2 * gap], near_hi=e[2 * gap + 3] - hi, points=points)
 
 
 def distance_product(
@@ -259,7 +259,7 @@ class GapQuadrature:
 
 
 def gap_quadrature(window: Window, structure: BandStructure, gap: int, count: int) -> GapQuadrature:
-    rule = gap_rule(structure, gap)
+    rule = gap_rule(structure, gap, panel_points(count - 1))
     weight = gap_weight(rule, structure, gap) * rule.weights
     # t at the nodes from t(lo) and x - lo: no digits lost when the window is far from 0
     t = (rule.lo - window.dV.center) / window.dV.half_width + rule.from_lo / window.dV.half_width

@@ -66,6 +66,7 @@ from .quadrature import (
     angular_breaks,
     angular_rule,
     cumulative_integral,
+    panel_points,
     theta_of_x,
 )
 from .sets import IntervalSet
@@ -372,7 +373,8 @@ def band_masses(window: Window, state: AlgebraicState) -> np.ndarray:
     def h_of(x):
         return C.chebval(window.t(x), state.h)
 
-    return np.array([float(np.sum(weighted)) for _, weighted in _band_quadratures(structure, h_of)])
+    points = panel_points(len(state.h) - 1)
+    return np.array([float(np.sum(weighted)) for _, weighted in _band_quadratures(structure, h_of, points)])
 
 
 def build_measure(
@@ -410,7 +412,8 @@ def build_measure(
     # band masses (angular rule); cumulative pieces are built lazily when asked for
     masses = band_masses(window, state) if masses is None else np.asarray(masses, dtype=float)
     omega = np.array([masses[j + 1:].sum() for j in range(k - 1)])
-    pieces = _Pieces(structure, h_of, on, ellipse)
+    degree = len(h_coefficients) - 1  # of h: the quadratures below resolve it
+    pieces = _Pieces(structure, h_of, on, ellipse, degree)
 
     # G on the ellipse and the Laurent series of g
     upper = ellipse.upper_half
@@ -430,7 +433,7 @@ def build_measure(
     # ℓ from the right end: g(b_k) = g(X) - ∫_{b_k}^X G
     X = ellipse.real_crossing
     bk = e[-1]
-    rule = angular_rule(bk, X, near_lo=bk - e[-2])
+    rule = angular_rule(bk, X, near_lo=bk - e[-2], points=panel_points(degree))
     weight = distance_product(structure, len(e) - 1, len(e), rule)
     G_path = 0.5 * (window.dV(rule.x) * rule.dx_dtheta - h_of(rule.x) * weight)
     u_X = ellipse.u_of_z(np.array([X + 0j]))
@@ -452,7 +455,7 @@ def build_measure(
     lagrange_spread = float(np.max(np.abs(np.array(lagranges) - lagrange)))
 
     # energy: I = (ℓ + ∫ V dμ)/2 with ∫ V dμ by angular quadrature of the exact V
-    band_rules = _band_quadratures(structure, h_of, points=24)
+    band_rules = _band_quadratures(structure, h_of, points=panel_points(degree, 24))
     V_all = np.real(field.V(np.concatenate([rule.x for rule, _ in band_rules])))
     V_mean = float(np.dot(np.concatenate([weighted for _, weighted in band_rules]), V_all))
     energy = 0.5 * (lagrange + V_mean)
@@ -558,8 +561,10 @@ class _Pieces:
     expensive part of a result.
     """
 
-    def __init__(self, structure: BandStructure, h_of, on: IntervalSet, ellipse):
+    def __init__(self, structure: BandStructure, h_of, on: IntervalSet, ellipse, degree: int = 0):
         self.structure, self.h_of, self.on, self.ellipse = structure, h_of, on, ellipse
+        self.points = panel_points(degree, 24)  # Chebyshev points per panel of the cumulative pieces
+        self.rule_points = panel_points(degree)
         self._cache: dict = {}
 
     def band_cdf(self, j: int) -> CumulativeIntegral:
@@ -568,7 +573,9 @@ class _Pieces:
             structure = self.structure
             a, b = structure.ends[2 * j], structure.ends[2 * j + 1]
             breaks = angular_breaks(b - a, *_band_rule_distances(structure, j))
-            self._cache[key] = cumulative_integral(_band_integrand((structure, self.h_of), j), a, b, breaks)
+            self._cache[key] = cumulative_integral(
+                _band_integrand((structure, self.h_of), j), a, b, breaks, points=self.points
+            )
         return self._cache[key]
 
     def _gap_integrand(self, j: int):
@@ -582,14 +589,14 @@ class _Pieces:
             e = self.structure.ends
             lo, hi, integrand = self._gap_integrand(j)
             breaks = angular_breaks(hi - lo, lo - e[2 * j], e[2 * j + 3] - hi)
-            self._cache[key] = cumulative_integral(integrand, lo, hi, breaks)
+            self._cache[key] = cumulative_integral(integrand, lo, hi, breaks, points=self.points)
         return self._cache[key]
 
     def gap_total(self, j: int) -> float:
         """∫ over gap j of eff' (zero for the solution), by the angular rule."""
         e = self.structure.ends
         lo, hi, integrand = self._gap_integrand(j)
-        rule = angular_rule(lo, hi, lo - e[2 * j], e[2 * j + 3] - hi)
+        rule = angular_rule(lo, hi, lo - e[2 * j], e[2 * j + 3] - hi, points=self.rule_points)
         return float(np.dot(rule.weights, integrand(rule.theta)))
 
     def outer(self, side: str):
@@ -609,7 +616,11 @@ class _Pieces:
                 return None
             breaks = angular_breaks(right_end - bk, bk - e[-2], None)
             return cumulative_integral(
-                _outer_integrand(structure, self.h_of, len(e) - 1, len(e), bk, right_end, 1), bk, right_end, breaks
+                _outer_integrand(structure, self.h_of, len(e) - 1, len(e), bk, right_end, 1),
+                bk,
+                right_end,
+                breaks,
+                points=self.points,
             )
         a1 = e[0]
         X_left = ellipse.center - ellipse.half_width * 0.5 * (ellipse.rho + 1 / ellipse.rho)
@@ -619,7 +630,9 @@ class _Pieces:
         # on (-∞, a_1): R^{1/2}/Q_h has sign (-1)^k (-1)^{#hard}; eff(x) = -∫_x^{a_1} eff'
         sign = (-1) ** k * (-1) ** structure.hard_count
         breaks = angular_breaks(a1 - left_end, None, e[1] - a1)
-        piece = cumulative_integral(_outer_integrand(structure, self.h_of, -1, 0, left_end, a1, sign), left_end, a1, breaks)
+        piece = cumulative_integral(
+            _outer_integrand(structure, self.h_of, -1, 0, left_end, a1, sign), left_end, a1, breaks, points=self.points
+        )
         return _Reversed(piece)
 
 
@@ -665,6 +678,7 @@ def _log_potentials(measure: EquilibriumMeasure, xs: np.ndarray) -> np.ndarray:
     of a panel sequence.  All pieces of one band are evaluated together.
     """
     structure = measure.structure
+    points = panel_points(len(measure._state.h) - 1, 20)
     total = np.zeros(xs.shape)
     for j, (a, b) in enumerate(measure.support):
         near_lo, near_hi = _band_rule_distances(structure, j)
@@ -672,9 +686,9 @@ def _log_potentials(measure: EquilibriumMeasure, xs: np.ndarray) -> np.ndarray:
         far = distance > 0.25 * (b - a)
         pieces = []  # (point index or None, rule on the band, kernel distance or None)
         if np.any(far):
-            pieces.append((None, angular_rule(a, b, near_lo, near_hi, points=20), None))
+            pieces.append((None, angular_rule(a, b, near_lo, near_hi, points=points), None))
         for i in np.nonzero(~far)[0]:
-            pieces.extend(_singular_pieces(a, b, near_lo, near_hi, float(xs[i]), i))
+            pieces.extend(_singular_pieces(a, b, near_lo, near_hi, float(xs[i]), i, points))
         # ψ dx/dθ at the nodes of all pieces at once (distances to the band's own ends from each piece)
         on_band = _PointRule(
             a,
@@ -699,7 +713,7 @@ def _log_potentials(measure: EquilibriumMeasure, xs: np.ndarray) -> np.ndarray:
     return total
 
 
-def _singular_pieces(a: float, b: float, near_lo, near_hi, x: float, i: int) -> list:
+def _singular_pieces(a: float, b: float, near_lo, near_hi, x: float, i: int, points: int = 20) -> list:
     """Angular rules on band [a, b] for a point x in or near it, with the distance |x - y| at their nodes.
 
     Inside the band: the two pieces [a, x] and [x, b], graded toward x, where
@@ -708,15 +722,15 @@ def _singular_pieces(a: float, b: float, near_lo, near_hi, x: float, i: int) -> 
     """
     tiny = 1e-12 * (b - a)  # grading this deep keeps the logarithm's quadrature error near rounding
     if a < x < b:
-        left = angular_rule(a, x, near_lo, tiny, points=20)
-        right = angular_rule(x, b, tiny, near_hi, points=20)
+        left = angular_rule(a, x, near_lo, tiny, points=points)
+        right = angular_rule(x, b, tiny, near_hi, points=points)
         return [(i, left, left.to_hi), (i, right, right.from_lo)]
     d = (a - x) if x <= a else (x - b)
     if x <= a:
         n_lo, n_hi = (tiny if d == 0 else (d if near_lo is None else min(near_lo, d))), near_hi
     else:
         n_lo, n_hi = near_lo, (tiny if d == 0 else (d if near_hi is None else min(near_hi, d)))
-    rule = angular_rule(a, b, n_lo, n_hi, points=20)
+    rule = angular_rule(a, b, n_lo, n_hi, points=points)
     return [(i, rule, rule.from_lo + d if x <= a else rule.to_hi + d)]
 
 

@@ -45,6 +45,19 @@ from .chebyshev import chebyshev_from_first_kind_values, chebyshev_points
 PANEL_POINTS = 16
 
 
+def panel_points(degree: int, minimum: int = PANEL_POINTS) -> int:
+    """Gauss–Legendre points per angular panel for an integrand carrying a polynomial
+    of the given degree in x.
+
+    Under (1) such a polynomial is a cosine polynomial of the same degree in θ on
+    [0, π]; the two main panels of a rule then need about degree/2 points each
+    beyond what the endpoint factors need.  Polynomial fields keep the minimum;
+    a non-polynomial V, whose Chebyshev approximation on the window may have a
+    degree in the hundreds, gets rules that resolve it.
+    """
+    return max(int(minimum), int(degree) // 2 + 8)
+
+
 @functools.lru_cache(maxsize=32)
 def gauss_legendre(n: int) -> tuple[np.ndarray, np.ndarray]:
     """Gauss–Legendre nodes and weights on [-1, 1] (cached, read-only)."""
