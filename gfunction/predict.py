@@ -210,9 +210,14 @@ class Predictor:
         pieces = []
         for a, b in mu.support:
             cut = margin * (b - a)
-            ends = [a + cut] + [v for c in singular if a < c < b for v in (c - cut, c + cut)] + [b - cut]
-            ends = sorted(ends)
-            pieces.extend((lo, hi) for lo, hi in zip(ends[::2], ends[1::2]) if hi > lo)
+            # [a + cut, b - cut] without the windows (c - cut, c + cut) around singular points
+            lo = a + cut
+            for c in sorted(c for c in singular if a < c < b):
+                if c - cut > lo:
+                    pieces.append((lo, min(c - cut, b - cut)))
+                lo = max(lo, c + cut)
+            if b - cut > lo:
+                pieces.append((lo, b - cut))
         found = []
         for lo, hi in pieces:
             F_lo, F_hi = mu.distribution(np.array([lo, hi]))
