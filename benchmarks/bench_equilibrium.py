@@ -7,7 +7,10 @@ Targets (issue #2, medians after warm-up, one process):
 
 Usage::
 
-    python benchmarks/bench_equilibrium.py [--repeats 30]
+    python benchmarks/bench_equilibrium.py [--repeats 30] [--rounds 3]
+
+The median is over all repeats of all rounds; "round medians" shows how far
+the machine's speed drifted between rounds.
 """
 
 from __future__ import annotations
@@ -26,22 +29,23 @@ import numpy as np
 from equilibrium import Field, IntervalSet, solve, solve_signed
 
 
-def median_time(function, repeats: int) -> float:
-    """Median over repeats of function(i); each repeat perturbs the problem slightly
-    (i enters the coefficients or the set), so no cached quadrature rule is reused."""
-    for i in range(3):
-        function(-1 - i)
+def timings(function, repeats: int, offset: int = 0) -> list[float]:
+    """Times of function(i) for ``repeats`` values of i; each repeat perturbs the problem
+    slightly (i enters the coefficients or the set), so nothing computed for one repeat
+    serves the next."""
     times = []
-    for i in range(repeats):
+    for i in range(offset, offset + repeats):
         start = time.perf_counter()
         function(i)
         times.append(time.perf_counter() - start)
-    return statistics.median(times)
+    return times
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--repeats", type=int, default=30)
+    parser.add_argument("--repeats", type=int, default=30, help="repeats per round and case")
+    parser.add_argument("--rounds", type=int, default=3,
+                        help="rounds over all cases (the machine's speed drifts; rounds spread the cases over it)")
     args = parser.parse_args()
     field = Field.from_expression("x**2/2 + 0.1*x**3/3")
 
@@ -64,16 +68,27 @@ def main() -> None:
         ("signed, 5 intervals, wide gaps", lambda i: solve_signed(field, IntervalSet(five(i))), 10.0),
         ("signed, 5 intervals, one gap 1e-8", lambda i: solve_signed(field, IntervalSet(tiny(i))), None),
     ]
-    print(f"load average: {os.getloadavg()[0]:.2f}   repeats: {args.repeats}")
-    print(f"{'case':<44} {'median ms':>10} {'target ms':>10}  met")
+    for _, function, _ in rows:  # warm-up: imports, cached θ-rules
+        for i in range(3):
+            function(-1 - i)
+    samples = {name: [] for name, _, _ in rows}
+    round_medians = {name: [] for name, _, _ in rows}
+    for r in range(args.rounds):
+        for name, function, _ in rows:
+            times = timings(function, args.repeats, offset=r * args.repeats)
+            samples[name] += times
+            round_medians[name].append(statistics.median(times))
+    print(f"load average: {os.getloadavg()[0]:.2f}   {args.rounds} rounds of {args.repeats} repeats per case")
+    print(f"{'case':<44} {'median ms':>10} {'round medians':>15} {'target ms':>10}  met")
     results = {}
-    for name, function, target in rows:
-        seconds = median_time(function, args.repeats)
+    for name, _, target in rows:
+        seconds = statistics.median(samples[name])
         results[name] = seconds
+        spread = f"{1e3 * min(round_medians[name]):.1f}-{1e3 * max(round_medians[name]):.1f}"
         met = "" if target is None else ("yes" if seconds * 1e3 <= target else "NO")
-        print(f"{name:<44} {seconds * 1e3:10.2f} {'' if target is None else f'{target:10.0f}':>10}  {met}")
+        print(f"{name:<44} {seconds * 1e3:10.2f} {spread:>15} {'' if target is None else f'{target:10.0f}':>10}  {met}")
     ratio = results["signed, 5 intervals, one gap 1e-8"] / results["signed, 5 intervals, wide gaps"]
-    print(f"{'tiny gap / wide gap time ratio':<44} {ratio:10.2f} {'2':>10}  {'yes' if ratio <= 2 else 'NO'}")
+    print(f"{'tiny gap / wide gap time ratio':<44} {ratio:10.2f} {'':>15} {'2':>10}  {'yes' if ratio <= 2 else 'NO'}")
 
 
 if __name__ == "__main__":
