@@ -151,8 +151,25 @@ class EquilibriumMeasure:
         return (self._window.lower, self._window.upper)
 
     def h(self, z) -> np.ndarray:
-        """The analytic factor h of G - V'/2 = -(1/2) h R^{1/2}/Q_h."""
+        """The analytic factor h of G - V'/2 = -(1/2) h R^{1/2}/Q_h.
+
+        Off the real line, trust it only inside :attr:`h_ellipse`.
+        """
         return C.chebval(self._window.t(np.asarray(z)), self._state.h)
+
+    @property
+    def h_ellipse(self) -> float:
+        """Bernstein parameter ρ of the ellipse around :attr:`window` inside which :meth:`h` is
+        accurate off the real line (``inf`` when V is a polynomial, whose h is exact).
+
+        For other fields h is a Chebyshev series of N + 1 terms fitted on the window;
+        rounding in its coefficients grows like ρ^N on the ellipse of parameter ρ, and
+        ρ = 1000^{1/N} keeps that growth below a factor 1000.
+        """
+        if self._window.dV.exact:
+            return math.inf
+        degree = max(len(self._state.h) - 1, 1)
+        return 1000.0 ** (1.0 / degree)
 
     def sqrt_ratio(self, z) -> np.ndarray:
         """R(z)^{1/2}/Q_h(z) on the first sheet (boundary value from above on the bands)."""

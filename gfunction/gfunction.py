@@ -131,6 +131,7 @@ class GFunction:
     moments: np.ndarray
     edges: tuple
     checks: dict = field(default_factory=dict)
+    far_rho: float = _FAR_RHO  # Bernstein parameter (per band) beyond which the direct sum is used
     _nodes: np.ndarray = field(default=None, repr=False)
     _weights: np.ndarray = field(default=None, repr=False)
 
@@ -177,7 +178,7 @@ class GFunction:
     def _is_far(self, z: np.ndarray) -> np.ndarray:
         far = np.ones(z.shape, dtype=bool)
         for a, b in self.support:
-            far &= _bernstein_rho(z, a, b) >= _FAR_RHO
+            far &= _bernstein_rho(z, a, b) >= self.far_rho
         return far
 
     # -- public ----------------------------------------------------------
@@ -305,6 +306,9 @@ def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10) -
         raise InputError("the equilibrium measure has no bands; a g-function needs a support")
     kinds = tuple(kd for pair in measure.edges for kd in pair)
     pts = tuple(x for ab in support for x in ab)
+    far_rho = _switch_rho(support, measure.window, measure.h_ellipse)
+    # the direct sum must be accurate from the switch on: Gauss–Jacobi error ~ ρ^{-2n}
+    nodes = max(nodes, int(np.ceil(18.5 / np.log(far_rho))) + 8)
     x, w = _band_rule(measure, nodes)
     moments = np.array([np.sum(w * x ** j) for j in range(9)])
     k = len(support)
@@ -317,7 +321,7 @@ def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10) -
         edges.append(EdgeVariable(e, kinds[i], side, float(om), _edge_derivative(measure, pts, kinds, i)))
     gf = GFunction(measure=measure, support=support, edge_points=pts, edge_kinds=kinds,
                    omega=omega, lagrange=float(measure.lagrange), moments=moments,
-                   edges=tuple(edges), _nodes=x, _weights=w)
+                   edges=tuple(edges), far_rho=far_rho, _nodes=x, _weights=w)
     checks = _verify(gf)
     object.__setattr__(gf, "checks", checks)
     worst = max(checks.values())
@@ -328,13 +332,36 @@ def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10) -
     return gf
 
 
+def _switch_rho(support, window, h_rho: float) -> float:
+    """The largest Bernstein parameter ρ (per band; at most 1.6) such that the ellipses of
+    parameter 1.05 ρ around the bands lie inside the ellipse of parameter ``h_rho`` around
+    the window, where (★) may use h (1.05 ρ: the ring of the continuity check).
+
+    A polynomial V (``h_rho`` infinite) keeps 1.6.  For other fields h is a fitted series,
+    trusted only near the real line, so the direct sum takes over closer to the bands.
+    """
+    if not np.isfinite(h_rho):
+        return _FAR_RHO
+    lower, upper = window
+    th = np.linspace(0.0, 2.0 * np.pi, 65)[:-1]
+    for rho in (_FAR_RHO, 1.4, 1.3, 1.2, 1.15, 1.1, 1.07, 1.05, 1.03, 1.02, 1.01):
+        inside = True
+        for a, b in support:
+            wv = 0.5 * (1.05 * rho * np.exp(1j * th) + np.exp(-1j * th) / (1.05 * rho))
+            z = (a + b) / 2 + (b - a) / 2 * wv
+            inside &= bool(np.all(_bernstein_rho(z, lower, upper) <= h_rho))
+        if inside:
+            return rho
+    return 1.01
+
+
 def _verify(gf: GFunction) -> dict:
     checks = {"mass": abs(gf.moments[0] - 1.0)}
     # continuity: both evaluations on a ring (rho slightly beyond the switch)
     ring = []
     for a, b in gf.support:
         th = np.linspace(0.1, np.pi - 0.1, 7)
-        rho = _FAR_RHO * 1.05
+        rho = gf.far_rho * 1.05
         wv = 0.5 * (rho * np.exp(1j * th) + np.exp(-1j * th) / rho)
         ring.append((a + b) / 2 + (b - a) / 2 * wv)
     ring = np.concatenate(ring)
