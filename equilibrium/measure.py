@@ -158,6 +158,11 @@ class EquilibriumMeasure:
         return C.chebval(self._window.t(np.asarray(z)), self._state.h)
 
     @property
+    def h_degree(self) -> int:
+        """Degree of the Chebyshev series of :meth:`h` (a few for polynomial V)."""
+        return len(self._state.h) - 1
+
+    @property
     def h_ellipse(self) -> float:
         """Bernstein parameter ρ of the ellipse around :attr:`window` inside which :meth:`h` is
         accurate off the real line (``inf`` when V is a polynomial, whose h is exact).
@@ -168,8 +173,7 @@ class EquilibriumMeasure:
         """
         if self._window.dV.exact:
             return math.inf
-        degree = max(len(self._state.h) - 1, 1)
-        return 1000.0 ** (1.0 / degree)
+        return 1000.0 ** (1.0 / max(self.h_degree, 1))
 
     def sqrt_ratio(self, z) -> np.ndarray:
         """R(z)^{1/2}/Q_h(z) on the first sheet (boundary value from above on the bands)."""

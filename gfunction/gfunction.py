@@ -221,8 +221,8 @@ class GFunction:
         return (0.75 ** (2.0 / 3.0)) * (z - e) * np.cbrt(q0) * (q / q0) ** (1.0 / 3.0)
 
 
-@lru_cache(maxsize=8)
-def _graded_rule(beta: float):
+@lru_cache(maxsize=32)
+def _graded_rule(beta: float, nodes: int = _SEGMENT_NODES):
     """Composite rule on [0,1] for t^beta f(t), panels graded toward t = 0.
 
     Panels ``[0, 4^{-P+1}], …, [1/4, 1]``: Gauss–Jacobi on the first, with the
@@ -234,7 +234,7 @@ def _graded_rule(beta: float):
     edges = [0.0] + [4.0 ** (-p) for p in range(_SEGMENT_PANELS - 1, -1, -1)]
     ts, ws = [], []
     for i, (lo, hi) in enumerate(zip(edges[:-1], edges[1:])):
-        t, w = graded_jacobi_rule(lo, hi, 0.0, beta if i == 0 else 0.0, n=_SEGMENT_NODES)
+        t, w = graded_jacobi_rule(lo, hi, 0.0, beta if i == 0 else 0.0, n=nodes)
         ts.append(t)
         ws.append(w if i == 0 else w * t ** beta)
     t, w = np.concatenate(ts), np.concatenate(ws)
@@ -251,7 +251,9 @@ def _segment_integral(measure, e: float, beta: float, z: np.ndarray) -> np.ndarr
     ``z`` the nodes are lifted by a tiny positive imaginary part to select the
     + boundary value on a band.
     """
-    t, w = _graded_rule(beta)
+    # the last panel, [1/4, 1] of the segment, must resolve h: a polynomial of degree
+    # len(h) - 1 on the window (long for a non-polynomial V)
+    t, w = _graded_rule(beta, max(_SEGMENT_NODES, measure.h_degree // 2 + 8))
     dz = z - e
     lift = np.where(z.imag == 0.0, 1e-300j, 0.0)
     s = e + t[:, None] * dz[None, :] + lift[None, :]
