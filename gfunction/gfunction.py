@@ -36,7 +36,10 @@ Evaluation
 ----------
 * Far from the support (outside a Bernstein ellipse of parameter 1.6 around
   every band) ``g`` is the Gauss–Jacobi sum of ``log(z - s) ψ(s)`` over the
-  bands (geometric convergence, common practice).
+  bands (geometric convergence, common practice).  For a non-polynomial V,
+  whose h is a fitted series trusted only near the real line
+  (``EquilibriumMeasure.h_ellipse``), the switch moves closer to the bands
+  (``GFunction.far_rho``) and the sum takes enough nodes for ρ^{-2n} ≤ 1e-16.
 * Near the support (★) is used with the edge nearest to ``z``; the integral
   for ``φ_e`` is a Gauss–Jacobi rule on the straight segment with the endpoint
   exponent of ``r`` at ``e`` (+1/2 soft, −1/2 hard), graded toward ``e``.
@@ -299,7 +302,8 @@ def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10) -
     measure :
         An ``equilibrium.EquilibriumMeasure`` (positive, any number of bands).
     nodes :
-        Gauss–Jacobi nodes per band for the far-field sum.
+        Gauss–Jacobi nodes per band for the far-field sum (at least; more when the
+        switch to it is closer than ρ = 1.6, see :func:`_switch_rho`).
     tolerance :
         Largest accepted verification figure; beyond it ``NumericalFailure``.
     """
