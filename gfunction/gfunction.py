@@ -75,7 +75,7 @@ from equilibrium.errors import InputError, NumericalFailure
 
 from .quadrature import graded_jacobi_rule
 
-__all__ = ["GFunction", "g_function", "EdgeVariable"]
+__all__ = ["GFunction", "g_function", "EdgeVariable", "trusted_radius"]
 
 # Bernstein-ellipse parameter beyond which the direct sum is used.
 _FAR_RHO = 1.6
@@ -359,6 +359,27 @@ def _switch_rho(support, window, h_rho: float) -> float:
         if inside:
             return rho
     return 1.01
+
+
+def trusted_radius(measure, x: float) -> float:
+    """Largest r such that the disc |z - x| ≤ r lies where the measure's h may be used off the
+    real line (inside ``measure.h_ellipse`` around its window); ``inf`` for a polynomial V.
+
+    Discs used with (★) -- matching circles of the local parametrices -- must stay inside.
+    """
+    h_rho = measure.h_ellipse
+    if not np.isfinite(h_rho):
+        return np.inf
+    lower, upper = measure.window
+    th = np.linspace(0.0, 2.0 * np.pi, 65)[:-1]
+    lo, hi = 0.0, upper - lower
+    for _ in range(40):  # bisection on the radius
+        r = 0.5 * (lo + hi)
+        if np.all(_bernstein_rho(x + r * np.exp(1j * th), lower, upper) <= h_rho):
+            lo = r
+        else:
+            hi = r
+    return lo
 
 
 def _verify(gf: GFunction) -> dict:

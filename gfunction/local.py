@@ -86,6 +86,7 @@ import numpy as np
 from scipy.special import airye, ive, kve
 
 from equilibrium.errors import InputError
+from .gfunction import trusted_radius
 
 __all__ = ["airy_model", "bessel_model", "EdgeParametrix", "edge_parametrix", "matching_mismatch"]
 
@@ -274,7 +275,12 @@ def edge_parametrix(predictor, index: int, *, radius: float | None = None) -> Ed
     kind = gf.edge_kinds[index]
     side = gf.edges[index].side
     others = [abs(p - e) for j, p in enumerate(gf.edge_points) if j != index]
-    rad = (min(others) / 3.0 if others else 1.0) if radius is None else float(radius)
+    if radius is None:
+        # a third of the way to the next edge, and inside the region where h is trusted
+        # off the real line (a non-polynomial V: gfunction.trusted_radius)
+        rad = min(min(others) / 3.0 if others else 1.0, 0.9 * trusted_radius(gf.measure, e))
+    else:
+        rad = float(radius)
     alpha = 0.0
     D = predictor.szego
     if D is not None:
