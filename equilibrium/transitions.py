@@ -68,8 +68,12 @@ def structure_margin(field: Field, on: IntervalSet, structure: BandStructure) ->
         theta = np.linspace(0, math.pi, 401)
         xs = a + (b - a) * np.sin(theta / 2) ** 2
         eta = band_sign(state.structure, j) * measure.h(xs)
+        if not np.all(np.isfinite(eta)):
+            raise NumericalFailure("continuation of the band structure left the window (non-finite density)")
         values.append((eta, j))
         peak = max(peak, float(np.max(np.abs(eta))))
+    if peak == 0.0:
+        raise NumericalFailure("continuation of the band structure gave a vanishing density")
     kinds = []
     for eta, j in values:
         interior = float(np.min(eta[1:-1])) / peak
@@ -118,11 +122,18 @@ def locate_transition(
     structure = fewer.structure
     evaluations = [0]
     last = {"structure": structure, "kind": ""}
+    solved_at: dict[float, BandStructure] = {}  # parameter -> structure solved there
 
     def margin(t: float) -> float:
+        # continue from the structure solved at the nearest parameter (Brent's iterates jump
+        # about; continuing from the last one can leave the branch)
         evaluations[0] += 1
-        value, solved, kind = structure_margin(family(t), on, last["structure"])
+        start_structure = last["structure"]
+        if solved_at:
+            start_structure = solved_at[min(solved_at, key=lambda u: abs(u - t))]
+        value, solved, kind = structure_margin(family(t), on, start_structure)
         last["structure"], last["kind"] = solved, kind
+        solved_at[t] = solved
         return value
 
     m_start = margin(start)
@@ -142,9 +153,7 @@ def locate_transition(
     if found is None:
         raise NumericalFailure("the margin of the continued band structure did not change sign inside the bracket")
     a, b = sorted(found)
-    # restart the continuation from the near side for Brent (the structure must be continuous)
-    last["structure"] = structure
-    margin(a if start < other else b)
+    # Brent continues from the marched structures (nearest parameter first)
     t_star = brentq(margin, a, b, xtol=tolerance, rtol=4 * np.finfo(float).eps)
     kind = last["kind"]
     return Transition(

@@ -35,3 +35,26 @@ def test_birth_of_a_band_in_a_tilted_double_well():
 def test_bracket_without_transition_is_refused():
     with pytest.raises(InputError):
         locate_transition(lambda t: Field.from_coefficients([0, 0, -t / 2, 0, 0.25]), 0.0, 1.0)
+
+
+def test_cosh_family_splits_where_the_density_vanishes_at_zero():
+    """V_t = cosh(x) - t x²: one band [-b, b] while ψ(0) > 0. For a symmetric one-band
+    measure (Deift, Orthogonal Polynomials and Random Matrices, 1999, §6.7; x = b cos θ)
+        (1/2π) ∫ s V'(s) ds/√(b²-s²) = 1   ⇔   b I_1(b) - t b² = 2,
+        ψ(0) = 0  ⇔  ∫ V'(s)/s ds/√(b²-s²) = 0   ⇔   t = ½ Σ_k (b/2)^{2k}/((2k+1) k!²),
+    solved with mpmath (30 digits): t* = 0.954284437446448543, b = 2.836654065968526.
+    The continuation is started from both sides of the bracket's interior."""
+    import mpmath as mp
+
+    mp.mp.dps = 30
+
+    def t_of_b(b):
+        return mp.nsum(lambda k: (b / 2) ** (2 * k) / ((2 * k + 1) * mp.factorial(k) ** 2), [0, mp.inf]) / 2
+
+    b_star = mp.findroot(lambda b: b * mp.besseli(1, b) - t_of_b(b) * b ** 2 - 2, 2.0)
+    t_star = float(t_of_b(b_star))
+    for lower, upper in ((0.2, 2.0), (0.5, 1.0)):
+        transition = locate_transition(lambda t: Field.from_expression(f"cosh(x) - {t!r}*x**2"), lower, upper)
+        assert transition.bands_before == 1 and transition.bands_after == 2
+        assert transition.kind == "interior zero of the density"
+        assert abs(transition.parameter - t_star) < 1e-10, (transition.parameter, t_star)
