@@ -86,6 +86,7 @@ import numpy as np
 from scipy.special import airye, ive, kve
 
 from equilibrium.errors import InputError
+
 from .gfunction import trusted_radius
 
 __all__ = ["airy_model", "bessel_model", "EdgeParametrix", "edge_parametrix", "matching_mismatch"]
