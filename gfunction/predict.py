@@ -225,7 +225,7 @@ class Predictor:
             x = np.concatenate([[lo], mu.quantile(np.linspace(F_lo, F_hi, count)[1:-1]), [hi]])
             f = self.band_form(x, n)
             change = np.nonzero(np.sign(f[:-1]) * np.sign(f[1:]) < 0)[0]
-            found.append(_refine_sign_changes(lambda t: self.band_form(t, n), x[change], x[change + 1],
+            found.append(_refine_sign_changes(lambda t, _: self.band_form(t, n), x[change], x[change + 1],
                                               f[change], f[change + 1]))
         return np.sort(np.concatenate(found)) if found else np.zeros(0)
 
@@ -303,23 +303,12 @@ class Predictor:
             tt = np.linspace(0.0, np.pi, 1025)
             cc = (gap_abel(tt) + self.model.d).imag @ np.linalg.inv(self.model.tau.imag)
             lattice = theta_lattice(self.model.tau, shifts=1.01 * (cc - np.rint(cc)))
-            # vectorised Illinois (regula falsi) on the bracketing grid cell; a row stops once its
-            # step is below 1e-15 of the angle range or M_11 vanishes exactly (at most 10 steps)
-            active = np.arange(rows.size)
-            for _ in range(10):
-                a_ = active
-                tm = tr[a_] - fr[a_] * (tr[a_] - tl[a_]) / (fr[a_] - fl[a_])
-                tm = np.where(np.isfinite(tm), tm, 0.5 * (tl[a_] + tr[a_]))
-                fm = (self._m11_pointwise(gap_abel.x(tm), gap_abel(tm), Wr[a_], c1r[a_], lattice) * ph[a_]).real
-                same = np.sign(fm) == np.sign(fr[a_])
-                # Illinois: halve the retained end's value when the same end is kept
-                fl[a_] = np.where(same, fl[a_] * 0.5, fr[a_])
-                tl[a_] = np.where(same, tl[a_], tr[a_])
-                done = (fm == 0.0) | (np.abs(tm - tr[a_]) <= 1e-15 * np.pi)
-                tr[a_], fr[a_] = tm, fm
-                active = a_[~done]
-                if active.size == 0:
-                    break
+            # Illinois steps on the bracketing grid cell, each row with its own phases
+
+            def m11_on_gap(t, sel):
+                return (self._m11_pointwise(gap_abel.x(t), gap_abel(t), Wr[sel], c1r[sel], lattice) * ph[sel]).real
+
+            tr = _refine_sign_changes(m11_on_gap, tl, tr, fl, fr)
             out[rows, j] = gap_abel.x(tr)
         return out, {"gap_realness": worst_imag, "gap_abel_interpolation": abel_error}
 
@@ -415,11 +404,13 @@ class Predictor:
 
 
 def _refine_sign_changes(function, left, right, f_left, f_right, iterations: int = 60) -> np.ndarray:
-    """Roots of ``function`` in the brackets [left, right] (sign change), all at once.
+    """Roots in the brackets [left, right] (a sign change in each), all at once.
 
-    Illinois method (regula falsi with halving of the retained end's value;
-    Dowell and Jarratt, BIT 11 (1971) 168–174): the bracket always holds the
-    root and convergence is superlinear.
+    ``function(x, rows)`` gives the values at the points ``x`` of the brackets
+    numbered ``rows`` (the ones still active), so each bracket may carry its own
+    function (its own phases, say).  Illinois method (regula falsi with halving of
+    the retained end's value; Dowell and Jarratt, BIT 11 (1971) 168–174): the
+    bracket always holds the root and convergence is superlinear.
     """
     left, right = np.array(left, dtype=float), np.array(right, dtype=float)
     f_left, f_right = np.array(f_left, dtype=float), np.array(f_right, dtype=float)
@@ -440,7 +431,7 @@ def _refine_sign_changes(function, left, right, f_left, f_right, iterations: int
         previous = np.where(active, x, previous)
         active &= ~converged
         fx = np.zeros(x.shape)
-        fx[active] = function(x[active])
+        fx[active] = function(x[active], np.nonzero(active)[0])
         same_as_left = np.sign(fx) == np.sign(f_left)
         move_left = active & same_as_left
         move_right = active & ~same_as_left
