@@ -60,15 +60,12 @@ class JoukowskiEllipse:
         """The sample points with Im u ≥ 0 (indices 0..size/2, both real crossings included)."""
         return slice(0, self.size // 2 + 1)
 
-    def laurent(self, samples: np.ndarray) -> np.ndarray:
-        """Scaled Laurent coefficients f_m ρ^m along the last axis, index m mod size."""
-        return np.fft.fft(samples, axis=-1) / self.size
-
     def laurent_real(self, upper_samples: np.ndarray) -> np.ndarray:
-        """:meth:`laurent` of a function real on the real axis, f(z̄) = conj f(z), from
-        its samples at the points :attr:`upper_half` only.
+        """Scaled Laurent coefficients f_m ρ^m (last axis, index m mod size) of a function
+        real on the real axis, f(z̄) = conj f(z), from its samples at :attr:`upper_half`.
 
-        Such an f has real Laurent coefficients, and the samples on the lower half
+        The trapezoidal rule on |u| = ρ gives them as the FFT of the samples divided by
+        the size.  Such an f has real coefficients, and its samples on the lower half
         are the conjugates of those on the upper half, so one Hermitian FFT of half
         the length gives them (half the evaluations of f, and the imaginary parts
         that rounding would leave are never formed).

@@ -699,7 +699,7 @@ def _log_potentials(measure: EquilibriumMeasure, xs: np.ndarray) -> np.ndarray:
     of a panel sequence.  All pieces of one band are evaluated together.
     """
     structure = measure.structure
-    points = panel_points(len(measure._state.h) - 1, 20)
+    points = panel_points(measure.h_degree, 20)
     total = np.zeros(xs.shape)
     for j, (a, b) in enumerate(measure.support):
         near_lo, near_hi = _band_rule_distances(structure, j)

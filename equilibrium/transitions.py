@@ -121,18 +121,16 @@ def locate_transition(
     other = upper if fewer is mu_lo else lower
     structure = fewer.structure
     evaluations = [0]
-    last = {"structure": structure, "kind": ""}
-    solved_at: dict[float, BandStructure] = {}  # parameter -> structure solved there
+    last = {"kind": ""}
+    solved_at: dict[float, BandStructure] = {start: structure}  # parameter -> structure solved there
 
     def margin(t: float) -> float:
         # continue from the structure solved at the nearest parameter (Brent's iterates jump
         # about; continuing from the last one can leave the branch)
         evaluations[0] += 1
-        start_structure = last["structure"]
-        if solved_at:
-            start_structure = solved_at[min(solved_at, key=lambda u: abs(u - t))]
-        value, solved, kind = structure_margin(family(t), on, start_structure)
-        last["structure"], last["kind"] = solved, kind
+        nearest = solved_at[min(solved_at, key=lambda u: abs(u - t))]
+        value, solved, kind = structure_margin(family(t), on, nearest)
+        last["kind"] = kind
         solved_at[t] = solved
         return value
 
