@@ -348,17 +348,17 @@ def _switch_rho(support, window, h_rho: float) -> float:
     """
     if not np.isfinite(h_rho):
         return _FAR_RHO
-    lower, upper = window
     th = np.linspace(0.0, 2.0 * np.pi, 65)[:-1]
     for rho in (_FAR_RHO, 1.4, 1.3, 1.2, 1.15, 1.1, 1.07, 1.05, 1.03, 1.02, 1.01):
-        inside = True
-        for a, b in support:
-            wv = 0.5 * (1.05 * rho * np.exp(1j * th) + np.exp(-1j * th) / (1.05 * rho))
-            z = (a + b) / 2 + (b - a) / 2 * wv
-            inside &= bool(np.all(_bernstein_rho(z, lower, upper) <= h_rho))
-        if inside:
+        wv = 0.5 * (1.05 * rho * np.exp(1j * th) + np.exp(-1j * th) / (1.05 * rho))
+        if all(_inside_h_ellipse((a + b) / 2 + (b - a) / 2 * wv, window, h_rho) for a, b in support):
             return rho
     return 1.01
+
+
+def _inside_h_ellipse(z: np.ndarray, window, h_rho: float) -> bool:
+    """All points z inside the Bernstein ellipse of parameter ``h_rho`` around the window."""
+    return bool(np.all(_bernstein_rho(z, *window) <= h_rho))
 
 
 def trusted_radius(measure, x: float) -> float:
@@ -371,11 +371,11 @@ def trusted_radius(measure, x: float) -> float:
     if not np.isfinite(h_rho):
         return np.inf
     lower, upper = measure.window
-    th = np.linspace(0.0, 2.0 * np.pi, 65)[:-1]
+    circle = np.exp(1j * np.linspace(0.0, 2.0 * np.pi, 65)[:-1])
     lo, hi = 0.0, upper - lower
     for _ in range(40):  # bisection on the radius
         r = 0.5 * (lo + hi)
-        if np.all(_bernstein_rho(x + r * np.exp(1j * th), lower, upper) <= h_rho):
+        if _inside_h_ellipse(x + r * circle, measure.window, h_rho):
             lo = r
         else:
             hi = r
