@@ -111,7 +111,8 @@ def test_non_polynomial_field_with_a_long_series(text):
     close to the real line (``EquilibriumMeasure.h_ellipse``) and the g-function switches to
     the direct sum nearer the band. Its two evaluations agree (continuity), and the
     predictions meet the direct coefficients: one band, so b_n is off by O(1/n) and a_n by
-    O(1/n²) (measured: the a_n error falls by 4.0 per doubling of n here)."""
+    O(1/n²) (from memory, for one-band fields; measured here: the a_n error falls by 4.0 per
+    doubling of n)."""
     field = Field.from_expression(text)
     mu = solve(field)
     pred = predictor(mu)
