@@ -2,7 +2,7 @@
 
 The engine is tested with cheap stand-in point functions (closed forms), so
 these tests check scheduling and bookkeeping, not the equilibrium solver; a
-real equilibrium sweep at reduced size runs in tests/test_cases_shipped.py.
+real equilibrium sweep at reduced size runs in tests/workbench/test_cases_shipped.py.
 """
 
 from __future__ import annotations

@@ -1,6 +1,6 @@
-"""Killing at other moments than tests/test_run.py does: early, mid-run over a previous result, mid-write.
+"""Killing at other moments than tests/workbench/test_run.py does: early, mid-run over a previous result, mid-write.
 
-tests/test_run.py kills a run (SIGINT and SIGKILL) after two finished n and
+tests/workbench/test_run.py kills a run (SIGINT and SIGKILL) after two finished n and
 checks the resume.  These tests add the moments it leaves out:
 
 * a rerun of a changed case killed while a *previous complete* ``run.h5``

@@ -5,7 +5,7 @@ Random text is given to :meth:`IntervalSet.parse`, to
 :func:`workbench.polynomials.weight.parse_factor`; each must return a valid
 object or raise :class:`InputError` with a one-line message -- nothing else --
 and none of them may call eval/exec/compile (the ``tripwires`` on the builtins
-from tests/conftest.py, as in tests/test_expression_fuzz.py, which also wires
+from tests/conftest.py, as in tests/equilibrium/test_expression_fuzz.py, which also wires
 ``__import__`` for the expression parser; calls made by the import machinery
 itself, which runs source files of installed modules, are let through).  A
 parsed object is then checked against its own invariants (ordered disjoint
