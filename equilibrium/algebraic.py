@@ -46,6 +46,7 @@ from .chebyshev import ChebyshevApproximation, chebyshev_fit
 from .ellipse import JoukowskiEllipse, ellipse_for
 from .errors import InputError
 from .field import Field
+from .radical import sqrt_R
 from .quadrature import PANEL_POINTS, AngularRule, angular_rule, panel_points
 
 #: the largest number of bands the window's ellipse is sized for
@@ -140,18 +141,6 @@ def monic_leading(half_width: float, degree: int) -> float:
     if degree == 0:
         return 1.0
     return half_width ** degree / 2.0 ** (degree - 1)
-
-
-def sqrt_R(z: np.ndarray, ends: np.ndarray) -> np.ndarray:
-    """R(z)^{1/2} = ∏ (z - e)^{1/2} with principal roots: ~ z^k at ∞, cuts on the bands.
-
-    For real x the value is the boundary value from the upper half-plane.
-    """
-    z = np.asarray(z, dtype=complex)
-    out = np.ones(z.shape, dtype=complex)
-    for e in ends:
-        out = out * np.sqrt(z - e)
-    return out
 
 
 def q_hard(z: np.ndarray, structure: BandStructure) -> np.ndarray:

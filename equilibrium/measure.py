@@ -55,8 +55,8 @@ from .algebraic import (
     distance_product,
     gap_sign,
     q_hard,
-    sqrt_R,
 )
+from .radical import sqrt_R
 from .chebyshev import COLLEAGUE_MAX, real_roots
 from .field import Field
 from .quadrature import (

@@ -8,13 +8,11 @@ sheet
 
     R^{1/2}(z) = ∏_j (z - a_j)^{1/2} (z - b_j)^{1/2}     (principal roots),
 
-which is analytic off the bands, ``~ z^k`` at infinity, and satisfies
-``R^{1/2}(z̄) = conj R^{1/2}(z)``.  For real ``x`` the value from above is
-returned:
-
-    gap j  (b_j < x < a_{j+1}):  R^{1/2}(x)   = (-1)^{k-j} |R(x)|^{1/2},
-    band j (a_j < x < b_j):      R^{1/2}_+(x) = i (-1)^{k-j} |R(x)|^{1/2},
-    x < a_1: (-1)^k |R|^{1/2};    x > b_k: |R|^{1/2};   R^{1/2}_- = -R^{1/2}_+ on bands.
+the radical of :mod:`equilibrium.radical` (one definition for every package): analytic
+off the bands, ``~ z^k`` at infinity, ``R^{1/2}(z̄) = conj R^{1/2}(z)``, at real ``x``
+the value from above (either sign of a zero imaginary part); its sign table on the
+gaps and bands (``R^{1/2}_- = -R^{1/2}_+`` on bands) is in that module's docstring
+and is what the period formulas below use.
 
 Homology basis (our choice; bases of this type for branch points on a line
 are standard, e.g. Farkas and Kra, Riemann Surfaces, 2nd ed. 1992, §VII.1, and
@@ -110,7 +108,8 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from equilibrium.errors import InputError, NumericalFailure
-from .quadrature import graded_jacobi_rule
+from equilibrium.quadrature import graded_jacobi_rule
+from equilibrium.radical import sqrt_R as _radical
 
 __all__ = ["HyperellipticCurve", "curve_of_bands", "MAX_GENUS"]
 
@@ -119,17 +118,6 @@ _N_PERIOD = 30          # nodes per panel for the band/gap integrals
 _N_CHECK = 42           # second rule size for the self-check
 _N_ABEL = 40            # nodes per panel on Abel-map segments
 _PERIOD_TOL = 1e-11     # agreement of the two rule sizes required to certify τ
-
-
-def _sqrt_R(z: np.ndarray, e: np.ndarray) -> np.ndarray:
-    """First-sheet R^{1/2} at complex z (values from above on the real axis)."""
-    z = np.asarray(z, dtype=complex)
-    # a real argument may carry -0.0 as imaginary part: make it the upper boundary value
-    z = np.where(z.imag == 0.0, z.real + 0.0j, z)
-    out = np.ones(z.shape, dtype=complex)
-    for a, b in zip(e[0::2], e[1::2]):
-        out = out * (np.sqrt(z - a) * np.sqrt(z - b))
-    return out
 
 
 def _lagrange_basis(z: np.ndarray, nodes: np.ndarray) -> np.ndarray:
@@ -242,8 +230,9 @@ class HyperellipticCurve:
     # --- first sheet square root and differentials ---------------------------------
 
     def sqrt_R(self, z: ArrayLike) -> np.ndarray:
-        """First-sheet ``R^{1/2}(z)``; ``~ z^k`` at ∞, cuts on the bands, upper boundary values on R."""
-        return _sqrt_R(np.asarray(z, dtype=complex), self.branch_points)
+        """First-sheet ``R^{1/2}(z)`` of the branch points (:func:`equilibrium.radical.sqrt_R`: ``~ z^k`` at ∞,
+        cuts on the bands, the value from above at real points)."""
+        return _radical(z, self.branch_points)
 
     def holomorphic_differentials(self, z: ArrayLike) -> np.ndarray:
         """``ω_j(z)/dz`` on sheet 1, shape ``(..., g)`` (upper boundary values on the bands)."""
@@ -255,7 +244,7 @@ class HyperellipticCurve:
         return _lagrange_basis(z, self.basis_nodes) @ self.basis_normalisation.T
 
     def _omega(self, z: np.ndarray) -> np.ndarray:
-        return self._poly(z) / _sqrt_R(z, self.branch_points)[..., None]
+        return self._poly(z) / _radical(z, self.branch_points)[..., None]
 
     def _omega_near(self, index: np.ndarray, delta: np.ndarray) -> np.ndarray:
         """ω/dz at t = e[index] + delta (index (P,), delta (P, Q)), times (t - e[index])^{1/2}.
@@ -398,7 +387,7 @@ def curve_of_bands(bands: Sequence[tuple[float, float]]) -> HyperellipticCurve:
 
     Periods are real integrals over bands and gaps of ``x^l |R(x)|^{-1/2}`` by
     Gauss–Jacobi quadrature (exponents -1/2) with grading toward endpoints that
-    have a close neighbouring branch point (:func:`gfunction.quadrature.graded_jacobi_rule`).
+    have a close neighbouring branch point (:func:`equilibrium.quadrature.graded_jacobi_rule`).
 
     Raises
     ------

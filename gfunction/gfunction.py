@@ -72,8 +72,7 @@ from typing import Any
 import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
-
-from .quadrature import graded_jacobi_rule
+from equilibrium.quadrature import graded_jacobi_rule
 
 __all__ = ["GFunction", "g_function", "EdgeVariable", "trusted_radius"]
 
@@ -231,7 +230,7 @@ def _graded_rule(beta: float, nodes: int = _SEGMENT_NODES):
     Panels ``[0, 4^{-P+1}], …, [1/4, 1]``: Gauss–Jacobi on the first, with the
     factor ``t^beta`` kept in the weight; Gauss–Legendre with the factor in
     the integrand on the others (every panel from
-    :func:`gfunction.quadrature.graded_jacobi_rule`).  Returns read-only
+    :func:`equilibrium.quadrature.graded_jacobi_rule`).  Returns read-only
     ``(t, w)`` such that ``∫_0^1 t^beta f(t) dt ≈ Σ w_i f(t_i)``.
     """
     edges = [0.0] + [4.0 ** (-p) for p in range(_SEGMENT_PANELS - 1, -1, -1)]

@@ -43,10 +43,10 @@ import numpy as np
 from scipy.special import ai_zeros
 
 from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.quadrature import graded_jacobi_rule
 
 from .gfunction import GFunction, g_function
 from .outer import ModelProblem, gamma_factor, gap_abel_map, model_problem
-from .quadrature import graded_jacobi_rule
 from .theta import theta_lattice, theta_shift_table
 
 __all__ = ["Predictor", "Prediction", "harmonic_phases", "predictor"]

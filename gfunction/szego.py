@@ -98,20 +98,13 @@ import numpy as np
 from scipy.fft import dct
 
 from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.radical import sqrt_R
 
 __all__ = ["SzegoFunction", "szego_function", "chebyshev_cauchy"]
 
 _LIFT = 1e-300
 _MAX_NODES = 4096
 _ON_SUPPORT = 1e-12   # a singular point within this (relative) distance of S is on S
-
-
-def _sqrt_R(z: np.ndarray, edges: np.ndarray) -> np.ndarray:
-    """``R^{1/2}(z) = ∏ (z - e)^{1/2}`` (principal roots: cuts on the bands, ``~ z^k``)."""
-    out = np.ones_like(z)
-    for e in edges:
-        out = out * np.sqrt(z - e)
-    return out
 
 
 def chebyshev_cauchy(coefficients: np.ndarray, lo: float, hi: float, z: np.ndarray) -> np.ndarray:
@@ -256,7 +249,7 @@ class SzegoFunction:
             lo, hi = self.support[j][1], self.support[j + 1][0]
             sigma = (-1.0) ** (k - 1 - j)
             F = F + self._gap_smooth[j] * sigma * chebyshev_cauchy(c, lo, hi, z)
-        return _sqrt_R(z, edges) * F
+        return sqrt_R(z, edges) * F
 
     def _log_singular(self, z: np.ndarray) -> np.ndarray:
         if not self.points:

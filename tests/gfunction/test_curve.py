@@ -1,4 +1,4 @@
-"""Tests of gfunction.curve and gfunction.quadrature against elliptic integrals, mpmath and theory."""
+"""Tests of gfunction.curve (and its graded Gauss–Jacobi rules, equilibrium.quadrature) against elliptic integrals, mpmath and theory."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from scipy.special import ellipk, ellipkm1
 
 from equilibrium.errors import InputError
 from gfunction.curve import curve_of_bands, _interval_integrals
-from gfunction.quadrature import graded_jacobi_rule
+from equilibrium.quadrature import graded_jacobi_rule
 from gfunction.theta import riemann_theta
 
 

@@ -69,7 +69,7 @@ Panels
   (Before it, V = x⁴/4 - 1.96 x²/2 at n = K = 320 gave two discretisations
   differing by 1.9e-5; after it, 1.4e-14.)
 * **Singular points** of ``h`` inside Σ are panel breaks; adjacent panels use
-  Gauss–Jacobi rules with that exponent (``gfunction.quadrature.gauss_jacobi``,
+  Gauss–Jacobi rules with that exponent (``equilibrium.quadrature.gauss_jacobi``,
   Golub–Welsch), so ``(x - c)^p`` is integrated exactly.
 
 The second, independent discretisation uses other values of ``(ζ, m)``, a
@@ -86,8 +86,7 @@ from typing import Any, Callable
 import numpy as np
 
 from equilibrium.errors import NumericalFailure
-from equilibrium.quadrature import gauss_legendre
-from gfunction.quadrature import gauss_jacobi
+from equilibrium.quadrature import gauss_jacobi, gauss_legendre
 
 from .weight import Weight
 
