@@ -2,14 +2,15 @@
 
 from .gfunction import EdgeVariable, GFunction, g_function
 from .outer import ModelProblem, gamma_factor, jump_residuals, model_problem
-from .predict import Prediction, Predictor, harmonic_phases, predictor
+from .predict import BandCounts, EdgeZeros, GapZeros, Prediction, Predictor, RecurrencePrediction, harmonic_phases, predictor
 from .szego import SzegoFunction, szego_function
 from .local import EdgeParametrix, airy_model, bessel_model, edge_parametrix, matching_mismatch, soft_edge_zeros
 
 __all__ = [
     "EdgeVariable", "GFunction", "g_function",
     "ModelProblem", "gamma_factor", "jump_residuals", "model_problem",
-    "Prediction", "Predictor", "harmonic_phases", "predictor",
+    "BandCounts", "EdgeZeros", "GapZeros", "Prediction", "Predictor", "RecurrencePrediction",
+    "harmonic_phases", "predictor",
     "SzegoFunction", "szego_function",
     "EdgeParametrix", "airy_model", "bessel_model", "edge_parametrix", "matching_mismatch", "soft_edge_zeros",
 ]

@@ -86,8 +86,10 @@ import numpy as np
 from scipy.special import airye, ive, kve
 
 from equilibrium.errors import InputError
+from equilibrium.verification import failure_message, failure_policy, settle
 
 from .gfunction import trusted_radius
+from .predict import TOLERANCES, EdgeZeros
 
 __all__ = ["airy_model", "bessel_model", "EdgeParametrix", "edge_parametrix", "matching_mismatch"]
 
@@ -313,20 +315,24 @@ def airy_form_ratio(ep: EdgeParametrix, x, degree: int) -> np.ndarray:
     return ep.side * r
 
 
-def soft_edge_zeros(predictor, index: int, degree: int, count: int = 5) -> tuple[np.ndarray, dict]:
+def soft_edge_zeros(predictor, index: int, degree: int, count: int = 5, *,
+                    on_failure: str = "raise") -> EdgeZeros:
     r"""First ``count`` zeros of π_n at soft edge ``index`` from the Airy form.
 
     Solves ``Ai(ζ(x)) + s r(x) Ai'(ζ(x)) = 0`` (module docstring) by the
     secant method from the leading-order zeros ``f_e(x) = ι_m n^{-2/3}``
-    (``ι_m`` from ``scipy.special.ai_zeros``).  Returns the zeros (sorted
-    from the edge inward) and ``{'imag_ratio': max |Im(s r)|}``, which must be
-    round-off for a real polynomial.
+    (``ι_m`` from ``scipy.special.ai_zeros``).  The zeros are sorted from the
+    edge inward.  Checks: ``imag_ratio`` = max ``|Im(s r)|``, which must be
+    round-off for a real polynomial, and ``secant_step``, the last step in
+    units of the zero spacing ``n^{-2/3}/|f_e'|``.  ``on_failure``:
+    ``"raise"`` or ``"mark"`` (:mod:`equilibrium.verification`).
     """
     from scipy.special import airy
+    failure_policy(on_failure)
     ep = edge_parametrix(predictor, index)
     if ep.kind != "soft":
         raise InputError(f"edge {index} is a hard edge; the Airy form applies at soft edges")
-    x0 = predictor.soft_edge_zeros(index, degree, count)
+    x0 = predictor.soft_edge_zeros(index, degree, count, on_failure="mark").zeros
     x0 = x0[np.argsort(np.abs(x0 - ep.edge))]
     worst = [0.0]
 
@@ -337,9 +343,11 @@ def soft_edge_zeros(predictor, index: int, degree: int, count: int = 5) -> tuple
         ai, aip, _, _ = airy(zeta)
         return ai + sr.real * aip
 
-    h = 1e-4 * degree ** (-2.0 / 3.0) / abs(predictor.g.edges[index].derivative)
+    spacing = degree ** (-2.0 / 3.0) / abs(predictor.g.edges[index].derivative)
+    h = 1e-4 * spacing
     xa, xb = x0, x0 + h
     fa, fb = F(xa), F(xb)
+    step = np.full(xb.shape, np.nan)
     for _ in range(40):
         step = fb * (xb - xa) / (fb - fa)
         step = np.where(np.isfinite(step), step, 0.0)
@@ -348,4 +356,8 @@ def soft_edge_zeros(predictor, index: int, degree: int, count: int = 5) -> tuple
         if np.max(np.abs(step)) < 1e-15 * (1 + abs(ep.edge)):
             break
         fb = F(xb)
-    return xb, {"imag_ratio": worst[0]}
+    finite = bool(np.all(np.isfinite(xb)))
+    checks = {"imag_ratio": worst[0],
+              "secant_step": float(np.max(np.abs(step), initial=0.0) / spacing) if finite else float("nan")}
+    message = failure_message(checks, TOLERANCES, what=f"Airy-form zeros at edge {index}")
+    return settle(EdgeZeros(int(index), int(degree), xb, "Airy form", not message, checks, message), on_failure)

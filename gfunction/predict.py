@@ -36,7 +36,7 @@ Theorem 1.1).  Hence, with an error O(1/n):
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any, Sequence
 
 import numpy as np
@@ -44,12 +44,114 @@ from scipy.special import ai_zeros
 
 from equilibrium.errors import InputError, NumericalFailure
 from equilibrium.quadrature import graded_jacobi_rule
+from equilibrium.verification import failure_message, failure_policy, settle
 
 from .gfunction import GFunction, g_function
 from .outer import ModelProblem, gamma_factor, gap_abel_map, model_problem
 from .theta import theta_lattice, theta_shift_table
 
-__all__ = ["Predictor", "Prediction", "harmonic_phases", "predictor"]
+__all__ = ["Predictor", "Prediction", "RecurrencePrediction", "GapZeros", "BandCounts", "EdgeZeros",
+           "TOLERANCES", "harmonic_phases", "predictor"]
+
+#: verification figures of the predictions and their tolerances.  The figures are
+#: exact identities of the model problem, so they sit at rounding level (1e-16 ..
+#: 3e-13 on the shipped cases, n = 50..400); the model problem itself is accepted
+#: with lattice rounding up to 1e-9 (``outer.model_problem``), the same bound here.
+TOLERANCES = {
+    "imag_a2": 1e-9,                 # |Im a²| / |a²|: a² is real for a real weight
+    "imag_b": 1e-9,                  # |Im b| / max(|a|, |b|)
+    "a2_positivity": 1e-12,          # min Re a² / max |a²| (lower bound: a² > 0)
+    "gap_realness": 1e-9,            # |Im M_11+ e^{iπw}| / (1 + |M_11+|) on the gaps
+    "gap_abel_interpolation": 1e-9,  # Chebyshev interpolant of the Abel map on the gaps
+    "gap_sign_changes": 1.0,         # most sign changes of M_11+ e^{iπw} in one gap (at most one zero)
+    "count_rounding": 1e-6,          # distance of the argument-principle counts from integers
+    "local_variable_residual": 1e-10,  # |f_e(x) - ι n^{-2/3}| / |ι n^{-2/3}| at the edge zeros
+    "imag_ratio": 1e-9,              # |Im s r| of the Airy form (real for a real weight)
+    "secant_step": 1e-8,             # last secant step of the Airy-form zeros / n^{-2/3} scale
+}
+
+#: figures bounded below
+LOWER = ("a2_positivity",)
+
+
+def _verdict(checks: dict, what: str) -> tuple[bool, str]:
+    message = failure_message(checks, TOLERANCES, LOWER, what=what)
+    return not message, message
+
+
+@dataclass(frozen=True)
+class RecurrencePrediction:
+    """Predicted ``a_N^{(n)}``, ``b_N^{(n)}`` (leading order, error O(1/n)).
+
+    ``a[i]``, ``b[i]`` are for degree ``N = degrees[i]`` and scaling
+    ``n = scalings[i]``; ``phases[i]`` is ``w`` of :meth:`Predictor.phases`.
+    ``a`` is NaN where the model problem gives a² ≤ 0 (then not verified).
+    Checks: ``imag_a2`` (max ``|Im a²|/|a²|``), ``imag_b``
+    (max ``|Im b|/max(|a|, |b|)``), ``a2_positivity`` (min ``Re a²/max|a²|``).
+    """
+
+    degrees: np.ndarray
+    scalings: np.ndarray
+    phases: np.ndarray
+    a: np.ndarray
+    b: np.ndarray
+    verified: bool
+    checks: dict[str, float]
+    message: str = ""
+
+
+@dataclass(frozen=True)
+class GapZeros:
+    """The zero of π in each gap, ``zeros[i, j]`` for degree ``degrees[i]`` in gap ``j`` (NaN: none).
+
+    Checks: ``gap_realness`` (``M_11+ e^{iπw}`` real on the gaps),
+    ``gap_abel_interpolation`` (error of the Abel map's interpolant on the gaps),
+    ``gap_sign_changes`` (most sign changes found in one gap; more than one
+    would contradict "at most one zero per gap", and those rows are NaN).
+    """
+
+    degrees: np.ndarray
+    scalings: np.ndarray
+    zeros: np.ndarray
+    verified: bool
+    checks: dict[str, float]
+    message: str = ""
+
+
+@dataclass(frozen=True)
+class BandCounts:
+    """Number of zeros of π in each band, ``counts[i, j]`` for degree ``degrees[i]`` in band ``j``.
+
+    Check: ``count_rounding``, the largest distance of the argument-principle
+    counts from the integers they are rounded to.
+    """
+
+    degrees: np.ndarray
+    scalings: np.ndarray
+    counts: np.ndarray
+    verified: bool
+    checks: dict[str, float]
+    message: str = ""
+
+
+@dataclass(frozen=True)
+class EdgeZeros:
+    """Zeros of π_n next to soft edge ``edge`` (index ``0 … 2k-1``) at degree ``degree``.
+
+    ``form`` says which prediction: ``"leading order"`` (``f_e(x) = ι_m n^{-2/3}``,
+    :meth:`Predictor.soft_edge_zeros`, ascending) or ``"Airy form"``
+    (``gfunction.local.soft_edge_zeros``, from the edge inward).  Checks:
+    ``local_variable_residual`` (leading order) or ``imag_ratio`` and
+    ``secant_step`` (Airy form).
+    """
+
+    edge: int
+    degree: int
+    zeros: np.ndarray
+    form: str
+    verified: bool
+    checks: dict[str, float]
+    message: str = ""
 
 
 def harmonic_phases(support) -> np.ndarray:
@@ -94,13 +196,13 @@ def harmonic_phases(support) -> np.ndarray:
 
 @dataclass(frozen=True)
 class Prediction:
-    """Predicted recurrence coefficients and zero counts for a range of degrees.
+    """Predicted recurrence coefficients, gap zeros and zero counts for a range of degrees.
 
     ``a[i]``, ``b[i]`` predict ``a_{N}^{(n)}``, ``b_{N}^{(n)}`` for
-    ``N = degrees[i]`` and ``n = scalings[i]``; ``gap_zeros[i][j]`` is the zero
-    in gap ``j`` or ``None``; ``band_counts[i]`` the zeros per band;
-    ``checks`` the worst verification figures (imaginary parts of a² and b,
-    distance of the zero counts from integers, realness of M_11 e^{iπw} on gaps).
+    ``N = degrees[i]`` and ``n = scalings[i]``; ``gap_zeros[i, j]`` is the zero
+    in gap ``j`` (NaN: none); ``band_counts[i]`` the zeros per band.
+    ``checks`` joins those of :class:`RecurrencePrediction`, :class:`GapZeros`
+    and :class:`BandCounts`; ``verified`` is True when all three are.
     """
 
     degrees: np.ndarray
@@ -108,9 +210,11 @@ class Prediction:
     phases: np.ndarray
     a: np.ndarray
     b: np.ndarray
-    gap_zeros: list
+    gap_zeros: np.ndarray
     band_counts: np.ndarray
-    checks: dict = field(default_factory=dict)
+    verified: bool
+    checks: dict[str, float]
+    message: str = ""
 
 
 @dataclass(frozen=True)
@@ -140,16 +244,35 @@ class Predictor:
             w = w - self.szego.phase_shift[None, :]
         return w - np.floor(w)
 
-    def recurrence(self, degrees, scalings=None) -> tuple[np.ndarray, np.ndarray, dict]:
-        """Predicted ``a_N^{(n)}, b_N^{(n)}`` (leading order, error O(1/n))."""
-        w = self.phases(degrees, scalings)
+    def _degrees(self, degrees, scalings) -> tuple[np.ndarray, np.ndarray]:
+        N = np.atleast_1d(np.asarray(degrees))
+        n = N.astype(float) if scalings is None else np.broadcast_to(np.asarray(scalings, float), N.shape).copy()
+        return N, n
+
+    def recurrence(self, degrees, scalings=None, *, on_failure: str = "raise") -> RecurrencePrediction:
+        """Predicted ``a_N^{(n)}, b_N^{(n)}`` (leading order, error O(1/n)).
+
+        ``on_failure``: ``"raise"`` (NumericalFailure when a check fails) or
+        ``"mark"`` (the result with ``verified = False``); see
+        :mod:`equilibrium.verification`.
+        """
+        failure_policy(on_failure)
+        N, n = self._degrees(degrees, scalings)
+        w = self.phases(N, n)
         ex = self.model.expansion(w if self.genus else np.zeros((w.shape[0], 0)))
         a2 = np.broadcast_to(ex["a2"], (w.shape[0],))
         b = np.broadcast_to(ex["b"], (w.shape[0],))
-        checks = {"imag_a2": float(np.max(np.abs(a2.imag))), "imag_b": float(np.max(np.abs(b.imag)))}
-        if np.any(a2.real <= 0):
-            raise NumericalFailure("model problem gives a non-positive a²")
-        return np.sqrt(a2.real), b.real.copy(), checks
+        size = np.abs(a2)
+        positive = a2.real > 0
+        a = np.where(positive, np.sqrt(np.where(positive, a2.real, 1.0)), np.nan)
+        checks = {
+            "imag_a2": float(np.max(np.abs(a2.imag) / np.where(size > 0, size, 1.0))),
+            "imag_b": float(np.max(np.abs(b.imag) / np.maximum(np.sqrt(size), np.abs(b)).clip(min=1e-300))),
+            "a2_positivity": float(np.min(a2.real / max(float(np.max(size)), 1e-300))),
+        }
+        verified, message = _verdict(checks, "predicted recurrence coefficients")
+        result = RecurrencePrediction(N, n, w, a, b.real.copy(), verified, checks, message)
+        return settle(result, on_failure)
 
     def polynomial(self, z, degree: int, scaling: float | None = None) -> np.ndarray:
         """Leading-order monic ``π_N(z)`` off the support: ``M_11(z) e^{n g(z)}``.
@@ -257,20 +380,23 @@ class Predictor:
         tab = theta_shift_table(us + mp.d, mp.tau, lattice=lattice)
         return A * tab.paired(W) / tab.unshifted() * c1
 
-    def gap_zeros(self, degrees, scalings=None) -> tuple[np.ndarray, dict]:
-        """Zero of π in each gap (NaN when none), shape (len(degrees), g).
+    def gap_zeros(self, degrees, scalings=None, *, on_failure: str = "raise") -> GapZeros:
+        """Zero of π in each gap (NaN when none): ``GapZeros.zeros`` of shape (len(degrees), g).
 
         Sign change of the real function ``M_11+(x) e^{iπ w_j}`` on a grid of
         the angle ``t`` (``x = lo + (hi-lo)(1-cos t)/2``) for all degrees at
         once, then Illinois (regula falsi) steps on the bracketing cell, with
         the Abel map from its Chebyshev interpolant on the gap
-        (``outer.gap_abel_map``).
+        (``outer.gap_abel_map``).  ``on_failure`` as in :meth:`recurrence`.
         """
+        failure_policy(on_failure)
+        degrees, scalings = self._degrees(degrees, scalings)
         w = self.phases(degrees, scalings)
         N = w.shape[0]
         out = np.full((N, self.genus), np.nan)
         worst_imag = 0.0
         abel_error = 0.0
+        most_changes = 0
         W = self.model.W(w)
         c1 = self._c1(W)
         for j in range(self.genus):
@@ -286,10 +412,11 @@ class Predictor:
             r = vals.real
             s = np.sign(r)
             change = s[:, :-1] * s[:, 1:] < 0
-            # more than one sign change would contradict "at most one zero per gap"
-            if np.any(change.sum(axis=1) > 1):
-                raise NumericalFailure(f"more than one sign change of M_11 in gap {j + 1}")
-            has = change.any(axis=1)
+            # more than one sign change would contradict "at most one zero per gap":
+            # such rows stay NaN and the result is not verified
+            changes = change.sum(axis=1)
+            most_changes = max(most_changes, int(changes.max(initial=0)))
+            has = changes == 1
             if not np.any(has):
                 continue
             idx = np.argmax(change, axis=1)
@@ -310,20 +437,32 @@ class Predictor:
 
             tr = _refine_sign_changes(m11_on_gap, tl, tr, fl, fr)
             out[rows, j] = gap_abel.x(tr)
-        return out, {"gap_realness": worst_imag, "gap_abel_interpolation": abel_error}
+        checks = {"gap_realness": worst_imag, "gap_abel_interpolation": float(abel_error),
+                  "gap_sign_changes": float(most_changes)}
+        verified, message = _verdict(checks, "predicted gap zeros")
+        return settle(GapZeros(degrees, scalings, out, verified, checks, message), on_failure)
 
-    def band_counts(self, degrees, scalings=None, gap_zeros=None) -> tuple[np.ndarray, dict]:
-        """Number of zeros of π in each band (argument principle, module docstring)."""
-        N = np.atleast_1d(np.asarray(degrees))
+
+    def band_counts(self, degrees, scalings=None, gap_zeros: GapZeros | np.ndarray | None = None, *,
+                    on_failure: str = "raise") -> BandCounts:
+        """Number of zeros of π in each band (argument principle, module docstring).
+
+        ``gap_zeros`` may pass the :meth:`gap_zeros` of the same degrees (or
+        their array) when the caller has them.  ``on_failure`` as in
+        :meth:`recurrence`.
+        """
+        failure_policy(on_failure)
+        N, n = self._degrees(degrees, scalings)
         k = len(self.g.support)
         if self.genus == 0:
-            return N[:, None].astype(int).copy(), {"count_rounding": 0.0}
-        w = self.phases(degrees, scalings)
-        n = N.astype(float) if scalings is None else np.broadcast_to(np.asarray(scalings, float), N.shape)
+            checks = {"count_rounding": 0.0}
+            return BandCounts(N, n, N[:, None].astype(int).copy(), True, checks, "")
+        w = self.phases(N, n)
         W = self.model.W(w)
         c1 = self._c1(W)
         if gap_zeros is None:
-            gap_zeros, _ = self.gap_zeros(degrees, scalings)
+            gap_zeros = self.gap_zeros(N, n, on_failure="mark")
+        gap_zeros = np.asarray(getattr(gap_zeros, "zeros", gap_zeros), dtype=float)
         right = np.zeros((len(N), self.genus), dtype=int)
         x0s = np.zeros((len(N), self.genus))
         worst = 0.0
@@ -370,20 +509,37 @@ class Predictor:
                 z = gap_zeros[:, band]
                 c = c - ((~np.isnan(z)) & (z < x0s[:, band])).astype(int)
             counts[:, band] = c
-        return counts, {"count_rounding": worst}
+        checks = {"count_rounding": worst}
+        verified, message = _verdict(checks, "predicted zero counts per band")
+        return settle(BandCounts(N, n, counts, verified, checks, message), on_failure)
 
-    def predict(self, degrees, scalings=None) -> Prediction:
-        """Recurrence coefficients, gap zeros and band counts for ``degrees``."""
-        N = np.atleast_1d(np.asarray(degrees))
-        n = N.astype(float) if scalings is None else np.broadcast_to(np.asarray(scalings, float), N.shape)
-        a, b, c1 = self.recurrence(N, n)
-        gz, c2 = self.gap_zeros(N, n) if self.genus else (np.zeros((len(N), 0)), {})
-        bc, c3 = self.band_counts(N, n, gz)
-        gap_list = [[None if np.isnan(v) else float(v) for v in row] for row in gz]
-        return Prediction(N, np.asarray(n), self.phases(N, n), a, b, gap_list, bc, {**c1, **c2, **c3})
 
-    def soft_edge_zeros(self, edge: int, degree: int, count: int = 5) -> np.ndarray:
-        """First ``count`` zeros near soft edge number ``edge``: ``f_e(x) = ι_m n^{-2/3}``."""
+    def predict(self, degrees, scalings=None, *, on_failure: str = "raise") -> Prediction:
+        """Recurrence coefficients, gap zeros and band counts for ``degrees``.
+
+        ``on_failure`` as in :meth:`recurrence`; the message names every failed part.
+        """
+        failure_policy(on_failure)
+        N, n = self._degrees(degrees, scalings)
+        rec = self.recurrence(N, n, on_failure="mark")
+        gaps = self.gap_zeros(N, n, on_failure="mark")
+        counts = self.band_counts(N, n, gaps, on_failure="mark")
+        parts = (rec, gaps, counts)
+        message = "; ".join(p.message for p in parts if p.message)
+        result = Prediction(N, n, rec.phases, rec.a, rec.b, gaps.zeros, counts.counts,
+                            all(p.verified for p in parts), {**rec.checks, **gaps.checks, **counts.checks},
+                            message)
+        return settle(result, on_failure)
+
+    def soft_edge_zeros(self, edge: int, degree: int, count: int = 5, *, on_failure: str = "raise") -> EdgeZeros:
+        """First ``count`` zeros near soft edge number ``edge``: ``f_e(x) = ι_m n^{-2/3}`` (ascending).
+
+        Leading order (DKMVZ 1999 §7); ``gfunction.local.soft_edge_zeros`` adds
+        the O(n^{-1/3}) correction of the Airy form.  Check:
+        ``local_variable_residual`` after the secant steps.  ``on_failure`` as
+        in :meth:`recurrence`.
+        """
+        failure_policy(on_failure)
         if self.g.edge_kinds[edge] != "soft":
             raise InputError(f"edge {edge} is a hard edge; Airy zeros apply at soft edges only")
         iota = ai_zeros(count)[0]
@@ -396,7 +552,13 @@ class Predictor:
             hstep = 1e-7 * (1 + np.abs(x - e))
             f1 = self.g.local_variable(edge, x + hstep + 0j).real - target
             x = x - f0 * hstep / (f1 - f0)
-        return np.sort(x)
+        residual = np.abs(self.g.local_variable(edge, x + 0j).real - target) / np.abs(target)
+        checks = {"local_variable_residual": float(np.max(residual, initial=0.0))
+                  if np.all(np.isfinite(residual)) else float("nan")}
+        verified, message = _verdict(checks, f"leading-order zeros at edge {edge}")
+        order = np.argsort(x)
+        return settle(EdgeZeros(int(edge), int(degree), x[order], "leading order", verified, checks, message),
+                      on_failure)
 
     def quantile_zeros(self, degree: int) -> np.ndarray:
         """Bulk prediction ``F(x_j) = (j - 1/2)/n``, j = 1..n."""

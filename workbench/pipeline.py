@@ -391,6 +391,8 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
                                        "failure": str(exc)}))
         messages.append(f"model problem failed: {exc}")
     tree.groups["model"] = model.group
+    if model.group.attrs.get("verified") is False:
+        messages.append(f"model predictions not verified: {model.group.attrs['message']}")
     timings["model"] = time.perf_counter() - t
 
     finished = load_partials(directory, case.digest, ns)
@@ -491,8 +493,9 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     # the factor h enters through its Szegő function (the same factor objects as the direct side)
     factors = build_weight(case, mu.field, mu.on, 1.0).factors if case.factor.kind != "none" else None
     pred = predictor(mu, factor=factors)
-    prediction = pred.predict(ns_arr)
-    node.attrs["checks"] = {k: float(v) for k, v in prediction.checks.items()}
+    prediction = pred.predict(ns_arr, on_failure="mark")
+    unverified = [prediction.message] if not prediction.verified else []
+    node.attrs["checks"] = dict(prediction.checks)
     node.attrs["g_function_checks"] = {k: float(v) for k, v in dict(pred.g.checks).items()}
     node.attrs["model_checks"] = _numbers(pred.model.checks)
     node.attrs["genus"] = int(pred.genus)
@@ -505,9 +508,8 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     node.add("b", prediction.b, "predicted b_n^{(n)} = (M2)12/(M1)12 - (M1)22")
     node.add("phases", np.asarray(prediction.phases).reshape(ns_arr.size, -1),
              "phases w = n Omega (mod 1) of the outer parametrix")
-    gap = np.array([[np.nan if v is None else v for v in row] for row in prediction.gap_zeros],
-                   dtype=float).reshape(ns_arr.size, max(pred.genus, 0))
-    node.add("gap_zeros", gap, "predicted zero of p_n in gap j (NaN: none)")
+    node.add("gap_zeros", np.asarray(prediction.gap_zeros, dtype=float).reshape(ns_arr.size, max(pred.genus, 0)),
+             "predicted zero of p_n in gap j (NaN: none)")
     node.add("band_counts", np.asarray(prediction.band_counts, dtype=np.int64),
              "predicted number of zeros of p_n in each band")
 
@@ -515,7 +517,9 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     k = support.shape[0]
     right_edge = 2 * k - 1
     if pred.g.edge_kinds[right_edge] == "soft":
-        edge = np.array([pred.soft_edge_zeros(right_edge, int(n), EDGE_ZEROS)[::-1] for n in ns_arr])
+        found = [pred.soft_edge_zeros(right_edge, int(n), EDGE_ZEROS, on_failure="mark") for n in ns_arr]
+        unverified += sorted({z.message for z in found if not z.verified})
+        edge = np.array([z.zeros[::-1] for z in found])
         node.add("edge_zeros", edge, "predicted largest zeros (Airy: f_e(x) = a_j n^{-2/3}), "
                                      "counted from the right edge b_k inward")
         node.add("airy_zeros", ai_zeros(EDGE_ZEROS)[0], "zeros a_j of Ai (scipy.special.ai_zeros)")
@@ -561,13 +565,18 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
 
     dense = _dense_range(ns_arr)
     if dense.size:
-        a_d, b_d, _ = pred.recurrence(dense)
+        rec = pred.recurrence(dense, on_failure="mark")
         node.add("n_dense", dense, "every n of the range (for the quasi-periodic pattern)")
-        node.add("a_dense", a_d, "predicted a_n^{(n)} on n_dense")
-        node.add("b_dense", b_d, "predicted b_n^{(n)} on n_dense")
+        node.add("a_dense", rec.a, "predicted a_n^{(n)} on n_dense")
+        node.add("b_dense", rec.b, "predicted b_n^{(n)} on n_dense")
+        dense_parts = [rec]
         if pred.genus:
-            gz, _ = pred.gap_zeros(dense)
-            node.add("gap_zeros_dense", gz, "predicted gap zeros on n_dense (NaN: none)")
+            gaps = pred.gap_zeros(dense, on_failure="mark")
+            node.add("gap_zeros_dense", gaps.zeros, "predicted gap zeros on n_dense (NaN: none)")
+            dense_parts.append(gaps)
+        unverified += [f"on n_dense: {p.message}" for p in dense_parts if not p.verified]
+    node.attrs["verified"] = not unverified
+    node.attrs["message"] = "; ".join(unverified) or "none"
     return ModelSide(node, helpers)
 
 

@@ -74,7 +74,8 @@ def test_one_band_limits():
     # a -> (b-a)/4, b -> (a+b)/2 (DKMVZ, Comm. Pure Appl. Math. 52 (1999) 1335-1425)
     mu = solve(Field.from_expression("x**4/4 + x/2"), on=IntervalSet.real_line())
     (lo, hi), = mu.support
-    a, b, _ = predictor(mu).recurrence([100, 101])
+    rec = predictor(mu).recurrence([100, 101])
+    a, b = rec.a, rec.b
     assert np.max(np.abs(a - (hi - lo) / 4)) < 1e-13
     assert np.max(np.abs(b - (hi + lo) / 2)) < 1e-13
 
@@ -88,7 +89,7 @@ def test_bleher_its_quartic(quartic):
     assert np.max(np.abs(p.a - np.array([small, big, small, big]))) < 1e-10
     assert np.max(np.abs(p.b)) < 1e-10
     # odd degree: a zero at 0 in the gap (odd polynomial); counts add up to n
-    assert p.gap_zeros[0] == [None] and abs(p.gap_zeros[1][0]) < 1e-9
+    assert np.isnan(p.gap_zeros[0, 0]) and abs(p.gap_zeros[1, 0]) < 1e-9
     assert [list(c) for c in p.band_counts] == [[50, 50], [50, 50], [51, 51], [51, 51]]
 
 
@@ -130,7 +131,7 @@ def test_gap_abel_interpolant_and_gap_zeros_of_the_fast_path():
     found = 0
     for i, row in enumerate(p.gap_zeros):
         for j, x in enumerate(row):
-            if x is None:
+            if np.isnan(x):
                 continue
             found += 1
             u = mp.abel(np.array([x + 1e-300j]))
@@ -138,6 +139,35 @@ def test_gap_abel_interpolant_and_gap_zeros_of_the_fast_path():
             ref, _ = riemann_theta_scaled(u + mp.d, mp.tau)
             assert abs(zero[0]) < 1e-11 * abs(ref[0])
     assert found > 10
-    assert all(sum(c) + sum(z is not None for z in g) == d
+    assert all(sum(c) + np.isfinite(g).sum() == d
                for c, g, d in zip(p.band_counts, p.gap_zeros, degrees))
+    assert p.verified and p.message == ""
     assert p.checks["count_rounding"] < 1e-6 and p.checks["gap_realness"] < 1e-12
+
+
+def test_prediction_results_raise_or_mark(quartic, monkeypatch):
+    # every prediction is a result object with verified, float-only checks and a message;
+    # a tolerance below the figure (here: the realness of M_11 e^{iπw}, ~1e-16) makes it fail
+    import gfunction.predict as predict_module
+    from equilibrium.errors import NumericalFailure
+
+    pred = predictor(quartic)
+    degrees = np.arange(100, 106)
+    parts = (pred.recurrence(degrees), pred.gap_zeros(degrees), pred.band_counts(degrees),
+             pred.predict(degrees), pred.soft_edge_zeros(3, 200, 3))
+    for part in parts:
+        assert part.verified and part.message == ""
+        assert part.checks and all(type(v) is float for v in part.checks.values())
+    assert parts[1].zeros.shape == (6, 1) and parts[2].counts.shape == (6, 2)
+    assert parts[3].checks == {**parts[0].checks, **parts[1].checks, **parts[2].checks}
+    assert parts[1].checks["gap_realness"] > 0
+    monkeypatch.setitem(predict_module.TOLERANCES, "gap_realness", 0.0)
+    marked = pred.gap_zeros(degrees, on_failure="mark")
+    assert not marked.verified and "gap_realness" in marked.message
+    assert np.array_equal(marked.zeros, parts[1].zeros, equal_nan=True)   # the numbers are kept
+    whole = pred.predict(degrees, on_failure="mark")
+    assert not whole.verified and "gap_realness" in whole.message
+    with pytest.raises(NumericalFailure, match="gap_realness"):
+        pred.gap_zeros(degrees)
+    with pytest.raises(InputError, match="on_failure"):
+        pred.recurrence(degrees, on_failure="ignore")

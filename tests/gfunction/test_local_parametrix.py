@@ -94,9 +94,12 @@ def test_soft_edge_zeros_against_direct():
         z = zeros(recurrence_coefficients(Weight(field, n), n, measure=mu), n)
         ea = el = 0.0
         for idx, ref in ((1, z[::-1][:3]), (0, z[:3])):
-            af, checks = soft_edge_zeros(pr, idx, n, 3)
-            assert checks["imag_ratio"] < 1e-12
-            lo = pr.soft_edge_zeros(idx, n, 3)
+            airy_form = soft_edge_zeros(pr, idx, n, 3)
+            assert airy_form.verified and airy_form.checks["imag_ratio"] < 1e-12
+            af = airy_form.zeros
+            leading = pr.soft_edge_zeros(idx, n, 3)
+            assert leading.verified and leading.checks["local_variable_residual"] < 1e-12
+            lo = leading.zeros
             lo = lo[np.argsort(np.abs(lo - pr.g.edge_points[idx]))]
             ea, el = max(ea, np.max(np.abs(af - ref))), max(el, np.max(np.abs(lo - ref)))
         err_airy.append(ea); err_lead.append(el)

@@ -35,8 +35,9 @@ def _errors(expr):
         for n in range(n0, n0 + REPEATS):
             rc = recurrence_coefficients(Weight(field, n), n + SHIFTS, measure=mu)
             N = np.arange(n, n + SHIFTS)
-            a, b, checks = pred.recurrence(N, np.full(N.shape, float(n)))
-            assert checks["imag_a2"] < 1e-12 and checks["imag_b"] < 1e-12
+            rec = pred.recurrence(N, np.full(N.shape, float(n)))
+            a, b = rec.a, rec.b
+            assert rec.verified and rec.checks["imag_a2"] < 1e-12 and rec.checks["imag_b"] < 1e-12
             err = max(err, np.max(np.abs(rc.a[N] - a)), np.max(np.abs(rc.b[N] - b)))
         out.append(err)
     return mu, np.array(out)
@@ -121,7 +122,8 @@ def test_non_polynomial_field_with_a_long_series(text):
     err_a, err_b = [], []
     for n in ns:
         rc = recurrence_coefficients(Weight(field, n), n + 1, measure=mu)
-        a, b, _ = pred.recurrence([n], [float(n)])
+        rec = pred.recurrence([n], [float(n)])
+        a, b = rec.a, rec.b
         err_a.append(abs(rc.a[n] - a[0]))
         err_b.append(abs(rc.b[n] - b[0]))
     slope_a = np.polyfit(np.log(ns), np.log(err_a), 1)[0]
