@@ -391,6 +391,8 @@ class Predictor:
         """
         failure_policy(on_failure)
         degrees, scalings = self._degrees(degrees, scalings)
+        if self.genus == 0:
+            return GapZeros(degrees, scalings, np.zeros((degrees.size, 0)), True, {}, "")
         w = self.phases(degrees, scalings)
         N = w.shape[0]
         out = np.full((N, self.genus), np.nan)

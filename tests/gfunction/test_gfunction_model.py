@@ -171,3 +171,11 @@ def test_prediction_results_raise_or_mark(quartic, monkeypatch):
         pred.gap_zeros(degrees)
     with pytest.raises(InputError, match="on_failure"):
         pred.recurrence(degrees, on_failure="ignore")
+
+
+def test_prediction_results_of_one_band(gaussian):
+    # genus 0: no gaps, every zero in the band; a -> (b-a)/4 = 1, b -> 0 on the semicircle
+    # support [-2, 2] of V = x²/2 (DKMVZ, Comm. Pure Appl. Math. 52 (1999) 1335-1425)
+    p = predictor(gaussian).predict([10, 11])
+    assert p.verified and p.gap_zeros.shape == (2, 0) and p.band_counts.tolist() == [[10], [11]]
+    assert np.max(np.abs(p.a - 1)) < 1e-13 and np.max(np.abs(p.b)) < 1e-13
