@@ -86,10 +86,9 @@ import numpy as np
 from scipy.special import airye, ive, kve
 
 from equilibrium.errors import InputError
-from equilibrium.verification import failure_message, failure_policy, settle
 
 from .gfunction import trusted_radius
-from .predict import TOLERANCES, EdgeZeros
+from .predict import EdgeZeros
 
 __all__ = ["airy_model", "bessel_model", "EdgeParametrix", "edge_parametrix", "matching_mismatch"]
 
@@ -196,10 +195,13 @@ class EdgeParametrix:
     radius: float
 
     # -- pieces ------------------------------------------------------------
-    def zeta(self, z, degree: int) -> np.ndarray:
-        """Airy ``ζ = n^{2/3} f_e(z)``; Bessel ``ζ^{1/2} = -nφ_e(z)/4`` (returned for hard edges)."""
+    def zeta(self, z, degree) -> np.ndarray:
+        """Airy ``ζ = n^{2/3} f_e(z)``; Bessel ``ζ^{1/2} = -nφ_e(z)/4`` (returned for hard edges).
+
+        ``degree`` is a number or an array broadcasting with ``z`` (one degree per point).
+        """
         z = np.asarray(z, dtype=complex)
-        n = float(degree)
+        n = np.asarray(degree, dtype=float)
         if self.kind == "soft":
             return n ** (2.0 / 3.0) * self.predictor.g.local_variable(self.index, z)
         return -n * self.predictor.g.phi(self.index, z) / 4.0
@@ -241,11 +243,18 @@ class EdgeParametrix:
             Q = _S3 @ Q @ _S3
         return Q
 
-    def outer_times_U(self, z, degree: int) -> np.ndarray:
-        """``N U = D_∞^{σ₃} M e^{(log W/2 - log D ± iπnΩ) σ₃}`` at ``z`` (module docstring)."""
+    def outer_times_U(self, z, degree) -> np.ndarray:
+        """``N U = D_∞^{σ₃} M e^{(log W/2 - log D ± iπnΩ) σ₃}`` at ``z`` (module docstring).
+
+        ``degree`` is a number or an array broadcasting with ``z`` (one degree per point).
+        """
         z = np.asarray(z, dtype=complex)
         pr = self.predictor
-        w = pr.phases([degree])[0]
+        if np.ndim(degree):
+            degree = np.broadcast_to(np.asarray(degree), z.shape)
+            w = pr.phases(degree.ravel()).reshape(z.shape + (pr.genus,))
+        else:
+            w = pr.phases([degree])[0]
         M = pr.model.evaluate(z, w)
         lu = self._half_log_W_minus_log_D(z) + self._U(z, degree)
         D = pr.szego
@@ -257,8 +266,11 @@ class EdgeParametrix:
         NU[..., :, 1] *= np.exp(-lu)[..., None]
         return NU
 
-    def mismatch(self, z, degree: int) -> np.ndarray:
-        """``P(z) N(z)^{-1} - I`` at points ``z`` off the real axis (module docstring)."""
+    def mismatch(self, z, degree) -> np.ndarray:
+        """``P(z) N(z)^{-1} - I`` at points ``z`` off the real axis (module docstring).
+
+        ``degree`` is a number or an array broadcasting with ``z`` (one degree per point).
+        """
         z = np.asarray(z, dtype=complex)
         NU = self.outer_times_U(z, degree)
         Q = self.model_Q(z, degree)
@@ -303,61 +315,16 @@ def matching_mismatch(predictor, index: int, degrees, *, samples: int = 48, radi
     return np.array([float(np.max(np.abs(ep.mismatch(z, int(n))))) for n in np.atleast_1d(degrees)])
 
 
-def airy_form_ratio(ep: EdgeParametrix, x, degree: int) -> np.ndarray:
-    """``s·r(x)`` with ``r = E_12/E_11`` at real ``x`` (+ side), ``s = side`` (module docstring)."""
-    x = np.asarray(x, dtype=float)
-    z = x + 1j * 1e-300
-    NU = ep.outer_times_U(z, degree)
-    A = _A0 if ep.side > 0 else _S3 @ _A0 @ _S3
-    K = NU @ np.linalg.inv(A)
-    zeta = ep.zeta(z, degree)
-    r = K[..., 0, 1] / K[..., 0, 0] / np.sqrt(zeta + 0j)
-    return ep.side * r
-
-
 def soft_edge_zeros(predictor, index: int, degree: int, count: int = 5, *,
                     on_failure: str = "raise") -> EdgeZeros:
-    r"""First ``count`` zeros of π_n at soft edge ``index`` from the Airy form.
+    r"""First ``count`` zeros of π_n at soft edge ``index`` from the Airy form (from the edge inward).
 
-    Solves ``Ai(ζ(x)) + s r(x) Ai'(ζ(x)) = 0`` (module docstring) by the
-    secant method from the leading-order zeros ``f_e(x) = ι_m n^{-2/3}``
-    (``ι_m`` from ``scipy.special.ai_zeros``).  The zeros are sorted from the
-    edge inward.  Checks: ``imag_ratio`` = max ``|Im(s r)|``, which must be
-    round-off for a real polynomial, and ``secant_step``, the last step in
-    units of the zero spacing ``n^{-2/3}/|f_e'|``.  ``on_failure``:
-    ``"raise"`` or ``"mark"`` (:mod:`equilibrium.verification`).
+    The zeros of ``Ai(ζ(x)) + c(x) Ai'(ζ(x))`` (module docstring) of
+    ``gfunction.edge_zeros.edge_zeros`` at order 0 (``R = I``), soft edges only.
+    ``on_failure``: ``"raise"`` or ``"mark"`` (:mod:`equilibrium.verification`).
     """
-    from scipy.special import airy
-    failure_policy(on_failure)
-    ep = edge_parametrix(predictor, index)
-    if ep.kind != "soft":
+    from .edge_zeros import edge_zeros
+
+    if predictor.g.edge_kinds[index] != "soft":
         raise InputError(f"edge {index} is a hard edge; the Airy form applies at soft edges")
-    x0 = predictor.soft_edge_zeros(index, degree, count, on_failure="mark").zeros
-    x0 = x0[np.argsort(np.abs(x0 - ep.edge))]
-    worst = [0.0]
-
-    def F(x):
-        zeta = ep.zeta(x + 0j, degree).real
-        sr = airy_form_ratio(ep, x, degree)
-        worst[0] = max(worst[0], float(np.max(np.abs(sr.imag))))
-        ai, aip, _, _ = airy(zeta)
-        return ai + sr.real * aip
-
-    spacing = degree ** (-2.0 / 3.0) / abs(predictor.g.edges[index].derivative)
-    h = 1e-4 * spacing
-    xa, xb = x0, x0 + h
-    fa, fb = F(xa), F(xb)
-    step = np.full(xb.shape, np.nan)
-    for _ in range(40):
-        step = fb * (xb - xa) / (fb - fa)
-        step = np.where(np.isfinite(step), step, 0.0)
-        xa, fa = xb, fb
-        xb = xb - step
-        if np.max(np.abs(step)) < 1e-15 * (1 + abs(ep.edge)):
-            break
-        fb = F(xb)
-    finite = bool(np.all(np.isfinite(xb)))
-    checks = {"imag_ratio": worst[0],
-              "secant_step": float(np.max(np.abs(step), initial=0.0) / spacing) if finite else float("nan")}
-    message = failure_message(checks, TOLERANCES, what=f"Airy-form zeros at edge {index}")
-    return settle(EdgeZeros(int(index), int(degree), xb, "Airy form", not message, checks, message), on_failure)
+    return edge_zeros(predictor, index, degree, count, order=0, on_failure=on_failure)

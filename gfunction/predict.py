@@ -36,7 +36,7 @@ Theorem 1.1).  Hence, with an error O(1/n):
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any, Sequence
 
 import numpy as np
@@ -65,9 +65,9 @@ TOLERANCES = {
     "gap_abel_interpolation": 1e-9,  # Chebyshev interpolant of the Abel map on the gaps
     "gap_sign_changes": 1.0,         # most sign changes of M_11+ e^{iπw} in one gap (at most one zero)
     "count_rounding": 1e-6,          # distance of the argument-principle counts from integers
-    "local_variable_residual": 1e-10,  # |f_e(x) - ι n^{-2/3}| / |ι n^{-2/3}| at the edge zeros
-    "imag_ratio": 1e-9,              # |Im s r| of the Airy form (real for a real weight)
-    "secant_step": 1e-8,             # last secant step of the Airy-form zeros / n^{-2/3} scale
+    "local_variable_residual": 1e-10,  # |f_e(x) - ζ_m/scale| / |ζ_m/scale| at the scaling edge zeros
+    "imag_ratio": 1e-9,              # |Im| of the coefficient of the Airy/Bessel form (real for a real weight)
+    "missing_sign_change": 0.0,      # brackets of the Airy/Bessel form without a sign change
 }
 
 #: figures bounded below
@@ -104,6 +104,8 @@ class RecurrencePrediction:
 class GapZeros:
     """The zero of π in each gap, ``zeros[i, j]`` for degree ``degrees[i]`` in gap ``j`` (NaN: none).
 
+    ``order`` is that of the residual expansion (``gfunction.polynomial_form.gap_zeros``;
+    0: the zero of ``M_11``, :meth:`Predictor.gap_zeros`).
     Checks: ``gap_realness`` (``M_11+ e^{iπw}`` real on the gaps),
     ``gap_abel_interpolation`` (error of the Abel map's interpolant on the gaps),
     ``gap_sign_changes`` (most sign changes found in one gap; more than one
@@ -116,6 +118,7 @@ class GapZeros:
     verified: bool
     checks: dict[str, float]
     message: str = ""
+    order: int = 0
 
 
 @dataclass(frozen=True)
@@ -136,13 +139,17 @@ class BandCounts:
 
 @dataclass(frozen=True)
 class EdgeZeros:
-    """Zeros of π_n next to soft edge ``edge`` (index ``0 … 2k-1``) at degree ``degree``.
+    """Zeros of π_n next to edge number ``edge`` (``0 … 2k-1``) at degree ``degree``, from the edge inward
+    (``gfunction.edge_zeros``; :meth:`Predictor.soft_edge_zeros` returns them ascending).
 
-    ``form`` says which prediction: ``"leading order"`` (``f_e(x) = ι_m n^{-2/3}``,
-    :meth:`Predictor.soft_edge_zeros`, ascending) or ``"Airy form"``
-    (``gfunction.local.soft_edge_zeros``, from the edge inward).  Checks:
-    ``local_variable_residual`` (leading order) or ``imag_ratio`` and
-    ``secant_step`` (Airy form).
+    ``form`` says which prediction: ``"scaling"`` (``f_e(x) = ι_m n^{-2/3}`` at a soft edge,
+    ``f_e(x) = -j_{α,m}²/(4n²)`` at a hard one), ``"Airy form"`` or ``"Bessel form"`` (the zeros
+    of the first column of the local parametrix, with the residual ``R`` through ``R^{(order)}``).
+    ``position`` is the edge ``e``, ``kind`` ``"soft"`` or ``"hard"``, ``alpha`` the Jacobi exponent
+    of a hard edge; ``offsets`` are ``x_m - e``; ``zeta`` the local variable at the zeros and
+    ``model_zeros`` its values at the scaling level (``ι_m`` or ``-j_{α,m}²/4``).  Checks:
+    ``local_variable_residual`` (scaling), ``imag_ratio``, ``missing_sign_change`` (forms),
+    ``outside_disc`` (zeros beyond the matching circle; informative: the form is derived inside it).
     """
 
     edge: int
@@ -152,6 +159,13 @@ class EdgeZeros:
     verified: bool
     checks: dict[str, float]
     message: str = ""
+    order: int = 0
+    kind: str = "soft"
+    position: float = float("nan")
+    alpha: float = 0.0
+    offsets: np.ndarray | None = None
+    zeta: np.ndarray | None = None
+    model_zeros: np.ndarray | None = None
 
 
 def harmonic_phases(support) -> np.ndarray:
@@ -290,67 +304,34 @@ class Predictor:
                              "use degree == scaling")
         return M[..., 0, 0] * np.exp(ex)
 
-    def band_form(self, x, degree: int) -> np.ndarray:
+    def band_form(self, x, degree: int, order: int = 0, *, corrections=None) -> np.ndarray:
         """Oscillatory form of ``π_n`` on the bands (degree = scaling = n), rescaled:
 
-            Σ_± M_11±(x) D_±(x)^{-1} e^{n(g_±(x) - V(x)/2 + ℓ/2)}    (real),
+            2 Re(M_11+(x) D_+(x)^{-1} e^{n(g_+(x) - V(x)/2 + ℓ/2)})    (order 0),
 
         ``D`` the Szegő function of the factor (1 without one).  It equals
-        ``π_n(x) e^{-nV(x)/2} e^{nℓ/2} / D_∞`` up to a relative O(1/n)
-        (DKMVZ 1999, Theorem 1.1; the factor enters through
-        ``N = D_∞^{σ₃} M D^{-σ₃}``).  On a band ``g_± - V/2 + ℓ/2 = ±iπ μ([x, b_k])``
-        is imaginary, so nothing overflows at large n.  The two terms are complex
-        conjugates: ``σ₃ conj(M(conj z)) σ₃`` solves the model problem of M (its
-        band jump [[0,1],[-1,0]] and gap jumps e^{-2πi w σ₃}, w real, are mapped to
-        themselves), so M_11- = conj M_11+ by uniqueness; likewise g_- = conj g_+ and
-        D_- = conj D_+.  Hence the form is ``2 Re(M_11+ D_+^{-1} e^{n(g_+ - V/2 + ℓ/2)})``.
+        ``π_n(x) e^{-nV(x)/2} e^{nℓ/2} / D_∞`` up to a relative ``O(n^{-order-1})``
+        (DKMVZ 1999, Theorem 1.1 at order 0; ``gfunction.polynomial_form.band_form``,
+        which holds the derivation and the residual corrections of order ≥ 1).  On a band
+        ``g_± - V/2 + ℓ/2 = ±iπ μ([x, b_k])`` is imaginary, so nothing overflows at large n.
         """
-        x = np.asarray(x, dtype=float)
-        w = self.phases([degree])[0]
-        gp, _ = self.g.boundary_values(x)
-        shift = 0.5 * np.asarray(self.measure.field.V(x), dtype=float) - 0.5 * float(self.measure.lagrange)
-        Mp = self.model.evaluate(x + 1e-300j, w)[..., 0, 0]
-        if self.szego is not None:
-            Mp = Mp / self.szego.boundary_values(x)[0]
-        return 2.0 * (Mp * np.exp(degree * (gp - shift))).real
+        from .polynomial_form import band_form
 
-    def bulk_zeros(self, degree: int, margin: float = 0.1) -> np.ndarray:
+        return band_form(self, x, degree, order, corrections=corrections)
+
+    def bulk_zeros(self, degree: int, margin: float = 0.1, order: int = 0, *, corrections=None) -> np.ndarray:
         """Zeros of :meth:`band_form` in the bulk of every band, ascending.
 
         The bulk is each band without ``margin`` times its width at either end
         and around every singular point of the factor inside it (there the
-        local parametrices, not the bulk form, describe the zeros).  The form
-        is sampled on a grid uniform in μ_V with about six points per expected
-        spacing 1/n of the zeros, and each sign change is refined by the
-        Illinois variant of regula falsi to rounding.  Because the bulk form is
-        right to a relative O(1/n), these zeros are within O(1/n²) of those of
-        ``p_n``; the quantile rule (:meth:`quantile_zeros`) is only O(1/n),
-        its error carrying the phase of ``M_11+``.
+        local parametrices, not the bulk form, describe the zeros); see
+        ``gfunction.polynomial_form.bulk_zeros``.  The zeros of the form at ``order``
+        are within ``O(n^{-order-2})`` of those of ``p_n``; the quantile rule
+        (:meth:`quantile_zeros`) is only O(1/n), its error carrying the phase of ``M_11+``.
         """
-        n = int(degree)
-        mu = self.measure
-        singular = [] if self.szego is None else [c for c, _ in self.szego.points]
-        pieces = []
-        for a, b in mu.support:
-            cut = margin * (b - a)
-            # [a + cut, b - cut] without the windows (c - cut, c + cut) around singular points
-            lo = a + cut
-            for c in sorted(c for c in singular if a < c < b):
-                if c - cut > lo:
-                    pieces.append((lo, min(c - cut, b - cut)))
-                lo = max(lo, c + cut)
-            if b - cut > lo:
-                pieces.append((lo, b - cut))
-        found = []
-        for lo, hi in pieces:
-            F_lo, F_hi = mu.distribution(np.array([lo, hi]))
-            count = max(8, int(np.ceil(6 * n * (F_hi - F_lo))) + 2)
-            x = np.concatenate([[lo], mu.quantile(np.linspace(F_lo, F_hi, count)[1:-1]), [hi]])
-            f = self.band_form(x, n)
-            change = np.nonzero(np.sign(f[:-1]) * np.sign(f[1:]) < 0)[0]
-            found.append(_refine_sign_changes(lambda t, _: self.band_form(t, n), x[change], x[change + 1],
-                                              f[change], f[change + 1]))
-        return np.sort(np.concatenate(found)) if found else np.zeros(0)
+        from .polynomial_form import bulk_zeros
+
+        return bulk_zeros(self, degree, order, margin=margin, corrections=corrections)
 
     # -- zeros ---------------------------------------------------------------
     # M_11 = A θ(u+d+W)/θ(u+d) · θ(u∞+d)/θ(u∞+d+W) (outer.py).  W is real, so each
@@ -536,31 +517,18 @@ class Predictor:
     def soft_edge_zeros(self, edge: int, degree: int, count: int = 5, *, on_failure: str = "raise") -> EdgeZeros:
         """First ``count`` zeros near soft edge number ``edge``: ``f_e(x) = ι_m n^{-2/3}`` (ascending).
 
-        Leading order (DKMVZ 1999 §7); ``gfunction.local.soft_edge_zeros`` adds
-        the O(n^{-1/3}) correction of the Airy form.  Check:
-        ``local_variable_residual`` after the secant steps.  ``on_failure`` as
-        in :meth:`recurrence`.
+        The scaling prediction of ``gfunction.edge_zeros.edge_scaling_zeros`` (DKMVZ 1999 §7),
+        sorted ascending; ``gfunction.edge_zeros.edge_zeros`` gives the Airy form and its
+        corrections.  ``on_failure`` as in :meth:`recurrence`.
         """
-        failure_policy(on_failure)
+        from .edge_zeros import edge_scaling_zeros
+
         if self.g.edge_kinds[edge] != "soft":
             raise InputError(f"edge {edge} is a hard edge; Airy zeros apply at soft edges only")
-        iota = ai_zeros(count)[0]
-        target = iota * float(degree) ** (-2.0 / 3.0)
-        e = self.g.edge_points[edge]
-        fd = self.g.edges[edge].derivative
-        x = e + target / fd
-        for _ in range(30):  # secant on the real local variable
-            f0 = self.g.local_variable(edge, x + 0j).real - target
-            hstep = 1e-7 * (1 + np.abs(x - e))
-            f1 = self.g.local_variable(edge, x + hstep + 0j).real - target
-            x = x - f0 * hstep / (f1 - f0)
-        residual = np.abs(self.g.local_variable(edge, x + 0j).real - target) / np.abs(target)
-        checks = {"local_variable_residual": float(np.max(residual, initial=0.0))
-                  if np.all(np.isfinite(residual)) else float("nan")}
-        verified, message = _verdict(checks, f"leading-order zeros at edge {edge}")
-        order = np.argsort(x)
-        return settle(EdgeZeros(int(edge), int(degree), x[order], "leading order", verified, checks, message),
-                      on_failure)
+        found = edge_scaling_zeros(self, edge, degree, count, on_failure=on_failure)
+        order = np.argsort(found.zeros)
+        return replace(found, zeros=found.zeros[order], offsets=found.offsets[order], zeta=found.zeta[order],
+                       model_zeros=found.model_zeros[order])
 
     def quantile_zeros(self, degree: int) -> np.ndarray:
         """Bulk prediction ``F(x_j) = (j - 1/2)/n``, j = 1..n."""

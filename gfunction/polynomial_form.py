@@ -1,0 +1,243 @@
+r"""π_n on the real line from the residual expansion: gap zeros, the bulk form and its zeros, at order K.
+
+With ``T = e^{nℓσ₃/2} Y e^{-n(g+ℓ/2)σ₃}`` (so ``T_11 = π_n e^{-ng}``), ``S = R N`` outside
+the matching discs and ``S = R P`` inside them (``gfunction.residual``; ``N`` the outer
+parametrix with the Szegő function, ``P`` the Airy/Bessel parametrix).  Write
+``J = P N^{-1}`` inside the discs (the exact scaled Airy/Bessel jump of
+``gfunction.local.EdgeParametrix.mismatch``; it has no jump on the band and is bounded by
+``|z - e|^{-1/4}``, hence analytic in the whole disc) and ``J = I`` outside; then everywhere
+
+    S = R J N,      (R J N)_11 = D_∞ D^{-1} · m̃,     m̃ = r_1 M_11 + r_2 D_∞^{-2} M_21,
+
+with ``(r_1, r_2)`` the first row of ``R J`` and ``M`` the theta-function parametrix
+(``N = D_∞^{σ₃} M D^{-σ₃}``).
+
+*Gaps* (no lens): ``T = S``, so π_n vanishes where ``m̃`` does.  On gap ``j``
+``e^{iπw_j} M_11+`` is real, ``e^{iπw_j} M_21+`` imaginary (``M_+ = M_- e^{-2πiwσ₃}`` and
+``M(z̄) = σ₃ conj M(z) σ₃``), ``r_1`` real and ``r_2`` imaginary (the same symmetry of R
+and J), so ``e^{iπw_j} m̃_+`` is real and its sign changes are the gap zeros.
+
+*Bands*: with the lens factors and ``(RJN)_{12+} = h (RJN)_{11-}`` (``N`` and ``P`` have
+the band jump ``[[0, h], [-1/h, 0]]``; ``R J`` is analytic across the band up to the
+exponentially small lens jumps)
+
+    π_n(x) e^{-nV/2} e^{nℓ/2} / D_∞ = 2 Re( m̃_+ D_+^{-1} e^{n(g_+ - V/2 + ℓ/2)} )
+
+(the ``−`` term is the complex conjugate of the ``+`` term by the same symmetries).
+
+Order ``K``: ``R = I + R^{(1)}/n + … + R^{(K)}/n^K`` (inner R in the discs, outer R
+elsewhere) and ``J`` exact; the relative error of ``m̃`` is ``O(n^{-K-1})``.  Order 0 is the
+leading order ``R = J = I`` (``m̃ = M_11``), the prediction of
+``gfunction.predict.Predictor.band_form`` and ``gap_zeros``.  Hence the gap zeros at order
+``K`` are within ``O(n^{-K-1})`` of those of π_n, the bulk form has a relative error
+``O(n^{-K-1})`` and its zeros (spacing ``1/n``) are within ``O(n^{-K-2})``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Sequence
+
+import numpy as np
+
+from equilibrium.errors import InputError, NumericalFailure
+
+__all__ = ["Corrections", "corrections", "outer_form", "band_form", "gap_zeros", "bulk_pieces", "bulk_zeros"]
+
+_LIFT = 1e-300j
+
+
+@dataclass(frozen=True)
+class Corrections:
+    """The residual expansions of a batch of degrees at one order (``gfunction.residual``).
+
+    ``expansions[i]`` is the ``ResidualExpansion`` of ``degrees[i]`` alone (its circles are
+    those of ``gfunction.local.edge_parametrix``).  :meth:`row` gives the first row of
+    ``R J`` (module docstring) and :meth:`matrix` ``R`` itself, at points paired with degrees.
+    """
+
+    predictor: Any
+    degrees: np.ndarray
+    order: int
+    expansions: tuple
+
+    def _index(self, degrees, shape) -> np.ndarray:
+        d = np.broadcast_to(np.asarray(degrees, dtype=np.int64), shape)
+        pos = np.searchsorted(self.degrees, d)
+        pos = np.clip(pos, 0, self.degrees.size - 1)
+        if np.any(self.degrees[pos] != d):
+            missing = sorted(set(np.unique(d)) - set(self.degrees.tolist()))
+            raise InputError(f"no residual expansion for degrees {missing[:5]}")
+        return pos
+
+    def matrix(self, z, degrees) -> np.ndarray:
+        """``R = I + Σ_{k≤K} R^{(k)}/n^k`` at ``z`` (inner R inside the discs), one degree per point."""
+        z = np.asarray(z, dtype=complex)
+        pos = self._index(degrees, z.shape)
+        out = np.empty(z.shape + (2, 2), dtype=complex)
+        for i in np.unique(pos):
+            sel = pos == i
+            out[sel] = self.expansions[i].value(z[sel], self.order)[0]
+        return out
+
+    def row(self, x, degrees) -> np.ndarray:
+        """First row of ``R J`` at real ``x`` (upper side), ``J = P N^{-1}`` in the discs; ``x.shape + (2,)``."""
+        x = np.asarray(x, dtype=float)
+        z = x + _LIFT
+        n = np.broadcast_to(np.asarray(degrees, dtype=np.int64), x.shape)
+        row = self.matrix(z, n)[..., 0, :].copy()
+        for ep in self.expansions[0].jump.parametrices:
+            inside = np.abs(z - ep.edge) < ep.radius
+            if np.any(inside):
+                J = np.eye(2) + ep.mismatch(z[inside], n[inside])
+                row[inside] = np.einsum("pi,pij->pj", row[inside], J)
+        return row
+
+
+def corrections(predictor, degrees, order: int, *, jump=None) -> Corrections | None:
+    """:class:`Corrections` of ``degrees`` (degree = scaling) at ``order`` (None at order 0: R = J = I)."""
+    order = int(order)
+    if order < 0:
+        raise InputError(f"the order must be a non-negative integer; got {order}")
+    if order == 0:
+        return None
+    from .residual import jump_expansion, residual_expansion
+    degrees = np.unique(np.atleast_1d(np.asarray(degrees)).astype(np.int64))
+    if jump is None or jump.order < order:
+        jump = jump_expansion(predictor, order)
+    exps = tuple(residual_expansion(predictor, [int(n)], order, jump=jump, verify=False) for n in degrees)
+    return Corrections(predictor, degrees, order, exps)
+
+
+def _corrections_for(predictor, degrees, order, given):
+    if int(order) == 0:
+        return None
+    if given is not None:
+        if given.order != int(order):
+            raise InputError(f"the corrections are of order {given.order}, not {order}")
+        return given
+    return corrections(predictor, degrees, order)
+
+
+def outer_form(predictor, x, degrees, order: int = 0, *, corrections: Corrections | None = None) -> np.ndarray:
+    r"""``m̃ = r_1 M_11 + r_2 D_∞^{-2} M_21`` at real ``x`` (upper side); ``degrees`` (= scalings)
+    broadcast with ``x``, one per point.  Order 0 is ``M_11``."""
+    x = np.asarray(x, dtype=float)
+    n = np.broadcast_to(np.asarray(degrees, dtype=np.int64), x.shape)
+    w = predictor.phases(n.ravel()).reshape(x.shape + (predictor.genus,))
+    M = predictor.model.evaluate(x + _LIFT, w if predictor.genus else None)
+    cor = _corrections_for(predictor, n, order, corrections)
+    if cor is None:
+        return M[..., 0, 0]
+    row = cor.row(x, n)
+    lim2 = 1.0 if predictor.szego is None else predictor.szego.limit ** 2
+    return row[..., 0] * M[..., 0, 0] + row[..., 1] * M[..., 1, 0] / lim2
+
+
+def band_form(predictor, x, degree: int, order: int = 0, *, corrections: Corrections | None = None) -> np.ndarray:
+    r"""``2 Re(m̃_+ D_+^{-1} e^{n(g_+ - V/2 + ℓ/2)})`` on the bands: ``π_n e^{-nV/2} e^{nℓ/2}/D_∞`` to
+    a relative ``O(n^{-order-1})`` (module docstring; order 0 is ``Predictor.band_form``)."""
+    x = np.asarray(x, dtype=float)
+    n = int(degree)
+    gp, _ = predictor.g.boundary_values(x)
+    shift = 0.5 * np.asarray(predictor.measure.field.V(x), dtype=float) - 0.5 * float(predictor.measure.lagrange)
+    m = outer_form(predictor, x, n, order, corrections=corrections)
+    if predictor.szego is not None:
+        m = m / predictor.szego.boundary_values(x)[0]
+    return 2.0 * (m * np.exp(n * (gp - shift))).real
+
+
+def gap_zeros(predictor, degrees, order: int = 1, *, corrections: Corrections | None = None,
+              points: int = 161, on_failure: str = "raise"):
+    r"""The zero of ``e^{iπw_j} m̃_+`` in each gap (module docstring) for each degree (= scaling).
+
+    Each gap is sampled at ``x = lo + (hi - lo)(1 - cos t)/2`` (``points`` values of ``t``, ends
+    excluded), as in ``Predictor.gap_zeros``, for all degrees at once; the sign changes are refined
+    together by the Illinois method, each with its own degree.  Returns a
+    ``gfunction.predict.GapZeros`` with ``order`` set; checks ``gap_realness`` (max
+    ``|Im e^{iπw} m̃| / (1 + |m̃|)``, rounding for a real weight) and ``gap_sign_changes`` (most
+    sign changes in one gap: at most one zero; such rows are NaN).  ``on_failure``:
+    ``"raise"`` or ``"mark"`` (:mod:`equilibrium.verification`).
+    """
+    from equilibrium.verification import failure_message, failure_policy, settle
+
+    from .predict import TOLERANCES, GapZeros, _refine_sign_changes
+
+    failure_policy(on_failure)
+
+    degrees = np.atleast_1d(np.asarray(degrees)).astype(np.int64)
+    cor = _corrections_for(predictor, degrees, order, corrections)
+    g = predictor.genus
+    out = np.full((degrees.size, g), np.nan)
+    worst_imag, most = 0.0, 0
+    t = np.linspace(0.0, np.pi, points)[1:-1]
+    w = predictor.phases(degrees)
+    for j in range(g):
+        lo, hi = predictor.g.support[j][1], predictor.g.support[j + 1][0]
+        phase = np.exp(1j * np.pi * w[:, j])
+        xs = lo + (hi - lo) * (1 - np.cos(t)) / 2
+        grid = np.broadcast_to(xs, (degrees.size, xs.size))
+        v = outer_form(predictor, grid, degrees[:, None], order, corrections=cor) * phase[:, None]
+        worst_imag = max(worst_imag, float(np.max(np.abs(v.imag) / (1 + np.abs(v)))))
+        r = v.real
+        change = np.sign(r[:, :-1]) * np.sign(r[:, 1:]) < 0
+        count = change.sum(axis=1)
+        most = max(most, int(count.max(initial=0)))
+        rows = np.nonzero(count == 1)[0]
+        if rows.size == 0:
+            continue
+        idx = np.argmax(change[rows], axis=1)
+
+        def f(x, active, rows=rows):
+            sel = rows[active]
+            return (outer_form(predictor, x, degrees[sel], order, corrections=cor) * phase[sel]).real
+
+        out[rows, j] = _refine_sign_changes(f, xs[idx], xs[idx + 1], r[rows, idx], r[rows, idx + 1])
+    checks = {"gap_realness": worst_imag, "gap_sign_changes": float(most)}
+    message = failure_message(checks, TOLERANCES, what=f"gap zeros at order {order}")
+    result = GapZeros(degrees, degrees.astype(float), out, not message, checks, message, order=int(order))
+    return settle(result, on_failure)
+
+
+def bulk_pieces(predictor, margin: float = 0.1) -> list[tuple[float, float]]:
+    """The bulk of every band: ``[a + cut, b - cut]`` without ``(c - cut, c + cut)`` around each singular
+    point ``c`` of the factor inside it, ``cut = margin · (b - a)`` (there the local parametrices, not
+    the bulk form, describe the zeros)."""
+    singular = [] if predictor.szego is None else [c for c, _ in predictor.szego.points]
+    pieces = []
+    for a, b in predictor.measure.support:
+        cut = margin * (b - a)
+        lo = a + cut
+        for c in sorted(c for c in singular if a < c < b):
+            if c - cut > lo:
+                pieces.append((lo, min(c - cut, b - cut)))
+            lo = max(lo, c + cut)
+        if b - cut > lo:
+            pieces.append((lo, b - cut))
+    return pieces
+
+
+def bulk_zeros(predictor, degree: int, order: int = 0, *, margin: float = 0.1,
+               corrections: Corrections | None = None) -> np.ndarray:
+    """Zeros of :func:`band_form` at ``order`` in the bulk of every band (:func:`bulk_pieces`), ascending.
+
+    The form is sampled on a grid uniform in μ_V with about six points per expected spacing ``1/n``
+    of the zeros, and each sign change is refined by the Illinois method to rounding.  The form has
+    a relative error ``O(n^{-order-1})``, so these zeros are within ``O(n^{-order-2})`` of those of
+    ``p_n`` (the quantile rule ``F(x_j) = (j - 1/2)/n`` is only ``O(1/n)``).
+    """
+    from .predict import _refine_sign_changes
+
+    n = int(degree)
+    cor = _corrections_for(predictor, [n], order, corrections)
+    mu = predictor.measure
+    found = []
+    for lo, hi in bulk_pieces(predictor, margin):
+        F_lo, F_hi = mu.distribution(np.array([lo, hi]))
+        count = max(8, int(np.ceil(6 * n * (F_hi - F_lo))) + 2)
+        x = np.concatenate([[lo], mu.quantile(np.linspace(F_lo, F_hi, count)[1:-1]), [hi]])
+        f = band_form(predictor, x, n, order, corrections=cor)
+        change = np.nonzero(np.sign(f[:-1]) * np.sign(f[1:]) < 0)[0]
+        found.append(_refine_sign_changes(lambda t, _: band_form(predictor, t, n, order, corrections=cor),
+                                          x[change], x[change + 1], f[change], f[change + 1]))
+    return np.sort(np.concatenate(found)) if found else np.zeros(0)
