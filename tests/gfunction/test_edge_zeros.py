@@ -172,3 +172,19 @@ def test_edge_zeros_refuse_bad_requests(laguerre):
     with pytest.raises(InputError):
         edge_zeros(laguerre, 0, 100, 0)
 
+
+def test_local_variable_next_to_hard_edges_keeps_its_digits():
+    """V = 0 on [-1, 1]: G(z) = (z^2 - 1)^{-1/2} (the arcsine law; common knowledge), so h r = -2/(z^2-1)^{1/2},
+    phi_1(x) = -2i arccos(x) on the band from above and f_1 = phi^2/16 = -arccos(x)^2/4; at the left edge
+    f_{-1} = -arccos(-x)^2/4 (referee: mpmath at 30 digits).  Distances 1e-10 … 0.3 from the edges:
+    relative rounding, where summing h r at the rounded s = e + t(z - e) had lost 5e-10 at 1e-4 and
+    4e-6 at 1e-8."""
+    from gfunction import g_function
+
+    g = g_function(solve(Field.from_expression("0"), on=IntervalSet([(-1.0, 1.0)])))
+    for d in (1e-10, 1e-8, 1e-6, 1e-4, 1e-2, 0.3):
+        for index, x in ((1, 1.0 - d), (0, -1.0 + d)):
+            f = g.local_variable(index, np.array([x + 0j]))[0]
+            with mpmath.workdps(30):
+                ref = -mpmath.acos(mpmath.mpf(x) if index == 1 else -mpmath.mpf(x)) ** 2 / 4
+            assert abs(f.real / float(ref) - 1) < 1e-14, (index, d, f, ref)
