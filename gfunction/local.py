@@ -176,6 +176,16 @@ def _bessel_Q(root: np.ndarray, alpha: float) -> np.ndarray:
     return np.linalg.inv(_B0) @ Z @ _bessel_from_root(root, alpha)
 
 
+def outer_scaling(M: np.ndarray, log_limit, lu) -> np.ndarray:
+    """``D_∞^{σ₃} M e^{lu σ₃}``: rows of ``M`` times ``e^{±log D_∞}``, columns times ``e^{±lu}``."""
+    out = M.copy()
+    out[..., 0, :] *= np.exp(log_limit)
+    out[..., 1, :] *= np.exp(-log_limit)
+    out[..., :, 0] *= np.exp(lu)[..., None]
+    out[..., :, 1] *= np.exp(-lu)[..., None]
+    return out
+
+
 @dataclass(frozen=True)
 class EdgeParametrix:
     """Local parametrix data at edge number ``index`` of a :class:`~gfunction.predict.Predictor`.
@@ -233,7 +243,8 @@ class EdgeParametrix:
     def _U(self, z: np.ndarray, degree: int) -> np.ndarray:
         """``log`` of the diagonal ``U = W^{σ₃/2} e^{±πinΩσ₃}`` combined with ``D^{-σ₃}`` of N."""
         pm = np.where(z.imag >= 0, 1.0, -1.0)
-        return 1j * np.pi * degree * self.omega * pm
+        # nΩ reduced mod 2 before the factor π (exact for Ω ∈ {0, 1}; keeps the digits at large n)
+        return 1j * np.pi * np.fmod(float(degree) * self.omega, 2.0) * pm
 
     def model_Q(self, z, degree: int) -> np.ndarray:
         """``Q(ζ(z))`` (→ I), with the σ₃-conjugation at left edges."""
@@ -258,13 +269,7 @@ class EdgeParametrix:
         M = pr.model.evaluate(z, w)
         lu = self._half_log_W_minus_log_D(z) + self._U(z, degree)
         D = pr.szego
-        lim = np.log(D.limit) if D is not None else 0.0
-        NU = M.copy()
-        NU[..., 0, :] *= np.exp(lim)
-        NU[..., 1, :] *= np.exp(-lim)
-        NU[..., :, 0] *= np.exp(lu)[..., None]
-        NU[..., :, 1] *= np.exp(-lu)[..., None]
-        return NU
+        return outer_scaling(M, np.log(D.limit) if D is not None else 0.0, lu)
 
     def mismatch(self, z, degree) -> np.ndarray:
         """``P(z) N(z)^{-1} - I`` at points ``z`` off the real axis (module docstring).

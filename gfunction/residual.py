@@ -113,7 +113,7 @@ import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
 
-from .local import EdgeParametrix, edge_parametrix
+from .local import edge_parametrix, outer_scaling
 from .model_series import pole_order, series_matrices
 from .outer import gamma_factor
 from .theta import theta_shift_table
@@ -265,13 +265,7 @@ class JumpExpansion:
         phase = np.fmod(degrees.astype(float)[:, None] * omega[None, :], 2.0)
         lu = self.half_log_w[None] + 1j * np.pi * phase[:, :, None] * self.side_sign[None]
         D = pr.szego
-        lim = np.log(D.limit) if D is not None else 0.0
-        NU = M.copy()
-        NU[..., 0, :] *= np.exp(lim)
-        NU[..., 1, :] *= np.exp(-lim)
-        NU[..., :, 0] *= np.exp(lu)[..., None]
-        NU[..., :, 1] *= np.exp(-lu)[..., None]
-        return NU
+        return outer_scaling(M, np.log(D.limit) if D is not None else 0.0, lu)
 
     def terms(self, degrees, NU: np.ndarray | None = None) -> np.ndarray:
         """``Δ_1 … Δ_K`` on the circles; shape (K, N, C, L, 2, 2)."""
