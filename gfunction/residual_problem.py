@@ -64,6 +64,7 @@ from typing import Any
 import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.verification import failure_message, failure_policy, float_checks, settle
 
 from .residual import (JumpExpansion, _infinity_coefficients, _inverse, _mul, _refuse_interior_singularities,
                        fourier_modes, jump_expansion)
@@ -73,7 +74,9 @@ __all__ = ["ResidualSolution", "ResidualSolver", "residual_solver", "solve_resid
            "neglected_jump_exponent", "CollocationOperator", "collocation_operator"]
 
 _DEFAULT_SAMPLES = 64
-_TARGET = 1e-15          # accuracy below which neglected jumps do not matter (relative to O(1) a_n)
+
+#: tolerances of the figures of :class:`ResidualSolution` (``error_estimate``: the solver's ``tolerance``)
+TOLERANCES = {"imag_a2": 1e-11, "imag_b": 1e-11, "collocation_residual": 1e-12, "symmetry": 1e-11}
 
 
 @dataclass(frozen=True)
@@ -182,9 +185,13 @@ class ResidualSolution:
     resolution_difference : float (N,)
     neglected_jumps : float (N,)  ``e^{-nc}``
     exponent : float              ``c`` of :func:`neglected_jump_exponent`
+    critical_degree : float       ``n* = log(1/tolerance)/c``
     iterations : int (N,)         fixed-point iterations (-1: dense solve)
-    verified : bool (N,)          error_estimate ≤ tolerance
-    checks : dict                 imaginary parts of a², b; the collocation residual; symmetry of R_p
+    verified_degrees : bool (N,)  error_estimate ≤ tolerance
+    verified : bool               every degree verified and every figure of :data:`TOLERANCES` within it
+    checks : dict of float        imaginary parts of a², b; the collocation residual; symmetry of R_p;
+                                  ``error_estimate`` (the worst degree); the two neglected exponents
+    message : str                 the failed figures; below ``critical_degree`` it names the neglected jumps
     """
 
     degrees: np.ndarray
@@ -195,15 +202,14 @@ class ResidualSolution:
     neglected_jumps: np.ndarray
     exponent: float
     iterations: np.ndarray
-    verified: np.ndarray
+    verified_degrees: np.ndarray
+    verified: bool
     R1: np.ndarray = field(repr=False, default=None)
     R2: np.ndarray = field(repr=False, default=None)
     checks: dict = field(default_factory=dict)
+    message: str = ""
 
-    @property
-    def critical_degree(self) -> float:
-        """``n* = log(1/ε)/c``, below which the neglected jumps exceed ε = 1e-15."""
-        return float(np.log(1.0 / _TARGET) / self.exponent) if self.exponent > 0 else np.inf
+    critical_degree: float = np.inf    # n* = log(1/tolerance)/c: below it the neglected jumps exceed the tolerance
 
 
 def neglected_jump_exponent(predictor, radii, *, kappas=(0.15, 0.3, 0.5, 0.8, 1.2), points: int = 200) -> dict:
@@ -261,8 +267,9 @@ class ResidualSolver:
     neglected: dict
     tolerance: float
 
-    def solve(self, degrees) -> ResidualSolution:
-        """``a_n, b_n`` for each degree (module docstring)."""
+    def solve(self, degrees, *, on_failure: str = "raise") -> ResidualSolution:
+        """``a_n, b_n`` for each degree (module docstring); ``on_failure`` as in ``equilibrium.verification``."""
+        failure_policy(on_failure)
         degrees = np.atleast_1d(np.asarray(degrees))
         if degrees.ndim != 1 or degrees.size == 0 or np.any(degrees < 1) or np.any(degrees != np.round(degrees)):
             raise InputError(f"degrees must be positive integers; got {degrees!r}")
@@ -303,10 +310,22 @@ class ResidualSolver:
         checks = {"imag_a2": float(np.max(np.abs(a2[1].imag))), "imag_b": float(np.max(np.abs(b[1].imag))),
                   "collocation_residual": worst_residual,
                   "symmetry": float(np.max(np.abs(sym - S3 @ np.conj(sym) @ S3))),
+                  "error_estimate": float(np.max(err)),
                   "neglected_exponent_line": self.neglected["line"],
                   "neglected_exponent_lens": self.neglected["lens"]}
-        return ResidualSolution(degrees, a[1].copy(), b[1].real.copy(), err, diff, neglected, c, iterations,
-                                err <= self.tolerance, R1[1], R2[1], checks)
+        checks = float_checks(checks)
+        message = failure_message(checks, {**TOLERANCES, "error_estimate": self.tolerance},
+                                  what="residual problem")
+        critical = float(np.log(1 / self.tolerance) / c) if c > 0 else np.inf
+        low = degrees[neglected > self.tolerance]
+        if low.size:
+            message += ("; " if message else "") + (
+                f"the neglected lens and gap jumps e^(-nc), c = {c:.3g}, exceed {self.tolerance:.0e} for n < "
+                f"{critical:.0f} (here n = {', '.join(str(int(v)) for v in low[:5])}"
+                f"{', …' if low.size > 5 else ''}): those values are marked, not refused")
+        result = ResidualSolution(degrees, a[1].copy(), b[1].real.copy(), err, diff, neglected, c, iterations,
+                                  err <= self.tolerance, not message, R1[1], R2[1], checks, message, critical)
+        return settle(result, on_failure)
 
 
 def residual_solver(predictor, *, samples: int = _DEFAULT_SAMPLES, tolerance: float = 1e-13) -> ResidualSolver:
@@ -319,10 +338,10 @@ def residual_solver(predictor, *, samples: int = _DEFAULT_SAMPLES, tolerance: fl
     return ResidualSolver(predictor, jumps, ops, neglected_jump_exponent(predictor, jumps[0].radii), tolerance)
 
 
-def solve_residual_problem(predictor, degrees, *, samples: int = _DEFAULT_SAMPLES,
-                           tolerance: float = 1e-13) -> ResidualSolution:
+def solve_residual_problem(predictor, degrees, *, samples: int = _DEFAULT_SAMPLES, tolerance: float = 1e-13,
+                           on_failure: str = "raise") -> ResidualSolution:
     """``a_n, b_n`` from ``R`` computed by spectral collocation, with an error estimate (module docstring).
 
     ``tolerance`` -- the error estimate above which a degree is marked not verified.
     """
-    return residual_solver(predictor, samples=samples, tolerance=tolerance).solve(degrees)
+    return residual_solver(predictor, samples=samples, tolerance=tolerance).solve(degrees, on_failure=on_failure)

@@ -59,6 +59,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.verification import failure_message, failure_policy, float_checks, settle
 
 __all__ = ["CorrectionSeries", "series_mul", "series_reciprocal", "series_sqrt", "szego_first_moment",
            "outer_at_infinity", "recurrence_from_expansions", "corrected_recurrence", "CorrectedRecurrence"]
@@ -190,18 +191,30 @@ def recurrence_from_expansions(N1_12, N1_21, N1_22, N2_12, R1, R2, *, moment: fl
     return Y1_12 * Y1_21, Y2_12 / Y1_12 - Y1_22
 
 
+#: tolerances of :class:`CorrectedRecurrence` beyond those of the residual expansion
+TOLERANCES = {"imag_a": 1e-10, "imag_b": 1e-10, "imag_delta1": 1e-10}
+
+
 @dataclass(frozen=True)
 class CorrectedRecurrence:
-    """Corrected ``a_n``, ``b_n`` (degree = scaling) as :class:`CorrectionSeries`."""
+    """Corrected ``a_n``, ``b_n`` (degree = scaling) as :class:`CorrectionSeries`.
+
+    ``checks``: ``imag_a``, ``imag_b`` (largest imaginary part of any ``c_k``: the weight is
+    real), ``imag_delta1`` and, for order ≥ 1, the figures of the residual expansion of the
+    first degree (``gfunction.residual.TOLERANCES``).
+    """
 
     degrees: np.ndarray
+    order: int
     a: CorrectionSeries
     b: CorrectionSeries
+    verified: bool
     checks: dict = field(default_factory=dict)
+    message: str = ""
 
 
 def corrected_recurrence(predictor, degrees, order: int = 2, *, samples: int = 64, chunk: int = 256,
-                         verify: bool = True) -> CorrectedRecurrence:
+                         on_failure: str = "raise") -> CorrectedRecurrence:
     """``a_n = Σ_{k≤K} c_k/n^k`` and the same for ``b_n`` (degree = scaling n).
 
     Order 0 is the outer parametrix alone (``Predictor.recurrence``); order K ≥ 1
@@ -210,8 +223,10 @@ def corrected_recurrence(predictor, degrees, order: int = 2, *, samples: int = 6
     expansion's own checks (first degree), and ``outer_infinity``, the difference
     of the closed-form ``N_1, N_2`` from the trapezoidal rule on a large circle.
     """
+    from .residual import TOLERANCES as RESIDUAL_TOLERANCES
     from .residual import _check_order, jump_expansion, residual_expansion
 
+    failure_policy(on_failure)
     order = _check_order(order)
     degrees = np.atleast_1d(np.asarray(degrees))
     if degrees.ndim != 1 or degrees.size == 0 or np.any(degrees < 1) or np.any(degrees != np.round(degrees)):
@@ -227,7 +242,8 @@ def corrected_recurrence(predictor, degrees, order: int = 2, *, samples: int = 6
         jump = jump_expansion(predictor, order, samples=samples)
         for start in range(0, degrees.size, chunk):
             sl = slice(start, start + chunk)
-            res = residual_expansion(predictor, degrees[sl], order, jump=jump, verify=verify and start == 0)
+            res = residual_expansion(predictor, degrees[sl], order, jump=jump, verify=start == 0,
+                                     on_failure="mark")
             R1[1:, sl] = res.infinity[:, :, 0]
             R2[1:, sl] = res.infinity[:, :, 1]
             if start == 0:
@@ -250,5 +266,9 @@ def corrected_recurrence(predictor, degrees, order: int = 2, *, samples: int = 6
     checks["imag_a"] = float(np.max(np.abs(a.imag)))
     checks["imag_b"] = float(np.max(np.abs(b.imag)))
     checks["imag_delta1"] = float(abs(np.imag(out["delta1"])))
-    return CorrectedRecurrence(degrees, CorrectionSeries("a", n, a.real.copy(), checks),
-                               CorrectionSeries("b", n, b.real.copy(), checks), checks)
+    checks = float_checks(checks)
+    message = failure_message(checks, {**RESIDUAL_TOLERANCES, **TOLERANCES},
+                              what=f"recurrence coefficients at order {order}")
+    result = CorrectedRecurrence(degrees, order, CorrectionSeries("a", n, a.real.copy(), checks),
+                                 CorrectionSeries("b", n, b.real.copy(), checks), not message, checks, message)
+    return settle(result, on_failure)
