@@ -1009,6 +1009,17 @@ class Expression:
         """Canonical text (``^`` for powers, parameter names kept); parsing it gives the same values."""
         return _describe(self.tree)
 
+    @property
+    def parameter_names(self) -> frozenset[str]:
+        """Names of the parameters that occur in the text (a value given for any other name is unused)."""
+        names, stack = set(), [self.tree]
+        while stack:
+            node = stack.pop()
+            if isinstance(node, Parameter):
+                names.add(node.name)
+            stack.extend(_children(node))
+        return frozenset(names)
+
 
 def _check_name(name, role: str, variable: str | None = None) -> str:
     if not isinstance(name, str) or not name.isascii() or not name.isidentifier() or keyword.iskeyword(name):

@@ -613,6 +613,15 @@ def _check_expression(check: _Validator, spec: FieldSpec) -> None:
         Field.from_expression(spec.expression, parameters=dict(spec.parameters))
     except InputError as exc:
         raise check.fail(f"in [field] expression: {exc}", "field", "expression") from None
+    from equilibrium.expression import parse_expression
+
+    # a value for a name the expression does not use is a misspelling, not a choice
+    used = parse_expression(spec.expression, dict(spec.parameters)).parameter_names
+    unused = [name for name in spec.parameters if name not in used]
+    if unused:
+        raise check.fail(f"[field] parameters {', '.join(unused)} not used by the expression "
+                         f"(it uses {', '.join(sorted(used)) or 'no parameter'}); remove or rename them",
+                         "field", "parameters")
 
 
 def _parse_end(text: str) -> float:

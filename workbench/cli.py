@@ -5,11 +5,13 @@ and exposes ``register(subparsers)`` and ``run(args) -> int``.  This file
 only dispatches and turns the packages' exceptions into exit codes:
 
 ====  ==========================================================
-0     success (and every verification figure within tolerance)
+0     success (and every check within tolerance)
 1     an unexpected internal error (a bug: please report it)
 2     bad input: one line on stderr naming the problem
 3     the computation ran but could not certify its answer
 130   interrupted (Ctrl-C); nothing half-written is left behind
+141   the reader of standard output went away (``| head``): the
+      command stops quietly, as tools killed by SIGPIPE do (128 + 13)
 ====  ==========================================================
 """
 
@@ -17,6 +19,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
 import warnings
 from typing import Sequence
@@ -73,9 +76,42 @@ def _one_line(exc: BaseException) -> str:
     return " ".join(str(exc).split())
 
 
+#: exit status when standard output is closed by its reader (128 + SIGPIPE, as the shell reports)
+EXIT_BROKEN_PIPE = 141
+
+
+def _silence_stdout() -> None:
+    """Point the standard-output descriptor at /dev/null.
+
+    After a broken pipe, Python would try once more to flush ``sys.stdout`` at
+    exit and print "Exception ignored ... BrokenPipeError" (the recipe of the
+    Python documentation, "Note on SIGPIPE", in the ``signal`` module).
+    """
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError):  # stdout without a descriptor (embedded use): nothing to flush
+        pass
+
+
 def main(argv: Sequence[str] | None = None) -> int:
+    try:
+        return _main(argv)
+    except BrokenPipeError:
+        # `workbench ... | head`: the reader has what it wanted; stop without a traceback.
+        # Files are written atomically before anything is printed, so nothing is half-written.
+        _silence_stdout()
+        return EXIT_BROKEN_PIPE
+
+
+def _main(argv: Sequence[str] | None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit:
+        sys.stdout.flush()  # `workbench --help | head`: a broken pipe is handled by main
+        raise
     try:
         with warnings.catch_warnings():
             # numpy reports floating-point overflow/invalid values as RuntimeWarnings on
@@ -83,7 +119,9 @@ def main(argv: Sequence[str] | None = None) -> int:
             # unverified when they fail), so these reports would only break the
             # one-line contract of the exit codes
             warnings.filterwarnings("ignore", message=r".* encountered in ", category=RuntimeWarning)
-            return int(args.handler(args) or 0)
+            status = int(args.handler(args) or 0)
+            sys.stdout.flush()  # a broken pipe shows here, inside main, not at interpreter exit
+            return status
     except InputError as exc:
         print(f"workbench {args.command}: error: {_one_line(exc)}", file=sys.stderr)
         return 2

@@ -236,7 +236,8 @@ def run_points(
     try:
         if todo:
             if scheduler:
-                _run_dask(todo, function, scheduler, chunk_size, record, scheduler_timeout)
+                counters["retried"] += _run_dask(todo, function, scheduler, chunk_size, record,
+                                                 scheduler_timeout)
             else:
                 _run_pool(todo, function, workers, chunk_size, retries, record, counters)
     finally:
@@ -329,7 +330,12 @@ def _pool_round(context, workers, chunks, function, record):
     return lost, started
 
 
-def _run_dask(todo, function, scheduler, chunk_size, record, timeout) -> None:
+def _run_dask(todo, function, scheduler, chunk_size, record, timeout) -> int:
+    """Run the chunks on a Dask cluster; return the points resubmitted after a worker was lost.
+
+    Dask reschedules the tasks of a lost worker by itself (its nanny restarts the
+    worker); the scheduler's transition log shows each extra start of a task.
+    """
     try:
         from distributed import Client, as_completed
         from distributed.scheduler import KilledWorker
@@ -355,8 +361,29 @@ def _run_dask(todo, function, scheduler, chunk_size, record, timeout) -> None:
                                 for pid, _ in by_key[future.key]]
                 for point_id, result in finished:
                     record(point_id, result)
+        starts = _dask_task_starts(client, list(by_key))
+        return sum(max(0, starts.get(key, 1) - 1) * len(chunk) for key, chunk in by_key.items())
     finally:
         client.close()
+
+
+def _dask_task_starts(client, keys) -> dict:
+    """How many times the scheduler sent each task to a worker (from its transition log).
+
+    The log is bounded (``distributed.admin.low-level-log-length``); a scheduler
+    that refuses ``run_on_scheduler`` gives no count, reported as no resubmission.
+    """
+    def starts(dask_scheduler, keys):
+        counts: dict = {}
+        for entry in dask_scheduler.story(*keys):
+            if entry[2] == "processing":  # (key, start state, finish state, ...)
+                counts[entry[0]] = counts.get(entry[0], 0) + 1
+        return counts
+
+    try:
+        return dict(client.run_on_scheduler(starts, keys=keys))
+    except Exception:  # noqa: BLE001 - a count we cannot get must not fail a finished sweep
+        return {}
 
 
 def _progress_bar(total: int, initial: int, enabled: bool, description: str):

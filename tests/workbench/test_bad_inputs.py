@@ -68,6 +68,7 @@ def _files(root: Path, case_text: Callable[..., str]) -> dict[str, str]:
         "case_reversed": gauss + '\n[set]\nintervals = "1:-1"\n',
         "case_jacobi": gauss + '\n[set]\nintervals = "-1:1"\n[factor]\nkind = "jacobi"\nalpha = -1.0\n',
         "case_n_zero": gauss.replace("n = [10, 20]", "n = [0, 10]"),
+        "case_unused_parameter": gauss.replace('"x**2/2"\n', '"x**2/2"\nparameters = { t = 1.0 }\n'),
         "sweep": SWEEP_CASE,
         "sweep_nonconfining": SWEEP_CASE.replace('"x**4/4 - t*x**2/2"', '"x**3 + t*x**2"'),
         "sweep_bad_axis": SWEEP_CASE.replace('name = "t"', 'name = "q"'),
@@ -168,6 +169,14 @@ BAD = [
     ("param_inf", EQ + ["--potential", "t*x^2", "--param", "t=inf"], "is not a number"),
     ("param_twice", EQ + ["--potential", "t*x^2", "--param", "t=1", "--param", "t=2"], "given twice"),
     ("param_bad_name", EQ + ["--potential", "x^2", "--param", "1t=3"], "must be a name"),
+    # a value for a name no expression uses is refused (a misspelt --param would be ignored)
+    ("param_unused", EQ + ["--potential", "t*x^2", "--param", "t=1", "--param", "s=2"],
+     "--param s: not used by --potential (the names used are t)"),
+    ("param_unused_no_field", EQ + ["--on=-1:1", "--param", "t=1"], "--param t: not used"),
+    ("param_unused_factor", REC + ["--potential", "x^2", "--factor", "abs(x-c)^0.5", "--param", "c=0.1",
+                                   "--param", "g=2"], "--param g: not used by --potential or --factor"),
+    ("param_unused_predict", PRE + ["--potential", "x^2", "--param", "t=1"], "--param t: not used"),
+    ("param_unused_zeros", ZER + ["--potential", "x^2/2", "--param", "t=1"], "--param t: not used"),
     ("dash_value_unattached", EQ + ["--potential", "-x^2"], "attached with '='"),
     ("missing_potential", REC + [], "--potential is required"),
     # --- output paths
@@ -188,6 +197,8 @@ BAD = [
     ("run_reversed_set", ["run", "{case_reversed}"] + RUN, "[set] interval 1"),
     ("run_jacobi_exponent", ["run", "{case_jacobi}"] + RUN, "[factor] alpha = -1.0 must be > -1"),
     ("run_n_zero", ["run", "{case_n_zero}"] + RUN, "line 6: n must be >= 2"),
+    ("run_unused_parameter", ["run", "{case_unused_parameter}"] + RUN,
+     "line 5: [field] parameters t not used by the expression"),
     ("run_nonconfining", ["run", "{case_nonconfining}"] + RUN, "[field] on [set]: V does not confine"),
     ("run_slow_log", ["run", "{case_slow_log}"] + RUN, "does not confine"),
     ("run_not_finite", ["run", "{case_not_finite}"] + RUN, "not finite at x = -1"),
@@ -217,7 +228,7 @@ BAD = [
 
 #: rows that also run as a real process (at least one per subcommand)
 SUBPROCESS = [
-    "cubic", "pole_on_interval", "jacobi_minus_one", "count_past_memory", "zeros_pole",
+    "cubic", "pole_on_interval", "jacobi_minus_one", "param_unused", "count_past_memory", "zeros_pole",
     "degrees_reversed", "lambda", "run_unknown_key", "run_nonconfining", "sweep_nonconfining",
     "plot_not_hdf5", "show_folder", "demo_out_under_file",
 ]

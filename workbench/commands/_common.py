@@ -68,17 +68,39 @@ def parse_parameters(items: Sequence[str]) -> dict[str, float]:
 
 
 def field_and_set_from_args(args: argparse.Namespace) -> tuple[Field, IntervalSet]:
-    """The field and the set named on the command line."""
+    """The field and the set named on the command line (every --param must be used)."""
     parameters = parse_parameters(getattr(args, "param", []))
     text_on = getattr(args, "on", None)
     # an empty --on= is a mistake, not a request for the real line (IntervalSet.parse refuses it)
     on = IntervalSet.real_line() if text_on is None else IntervalSet.parse(text_on)
     text = getattr(args, "potential", None)
+    check_parameters_used(parameters, {"--potential": text, "--factor": getattr(args, "factor", None)})
     if text is None or not text.strip():
         if not on.is_compact:
             raise InputError("--potential is required unless --on names a compact set (then V = 0)")
         return Field.zero(), on
     return Field.from_expression(text, parameters=parameters), on
+
+
+def check_parameters_used(parameters: dict[str, float], texts: dict[str, str | None]) -> None:
+    """Refuse a --param that no expression uses (a misspelt name would otherwise be ignored).
+
+    ``texts`` maps the option name to its expression text (None: option not given).
+    """
+    if not parameters:
+        return
+    from equilibrium.expression import parse_expression
+
+    used: set[str] = set()
+    for text in texts.values():
+        if text is not None and text.strip():
+            used |= parse_expression(text, parameters).parameter_names
+    unused = [name for name in parameters if name not in used]
+    if unused:
+        options = " or ".join(option for option, text in texts.items() if text is not None and text.strip())
+        known = f"the names used are {', '.join(sorted(used))}" if used else "no parameter is used"
+        raise InputError(f"--param {', '.join(unused)}: not used by {options or 'any expression'} ({known}); "
+                         "remove it or correct its name")
 
 
 def check_output(args: argparse.Namespace) -> None:

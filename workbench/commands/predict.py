@@ -31,9 +31,16 @@ def _degrees(text: str) -> np.ndarray:
     return np.arange(lo_i, hi_i)
 
 
+#: the --help text (plain text: argparse prints it as it is, so no reStructuredText markup)
+DESCRIPTION = ("Steepest-descent predictions for a range of degrees.  For each degree N in LO ... HI-1 "
+               "the weight is exp(-N V) h on the set and the prediction is for the diagonal "
+               "coefficients a_N^(N), b_N^(N), the zero of p_N in each gap (or none) and the number "
+               "of zeros in each band.")
+
+
 def register(subparsers) -> None:
     p = subparsers.add_parser("predict", help="steepest-descent predictions (recurrence coefficients, gap zeros)",
-                              description=__doc__)
+                              description=DESCRIPTION)
     add_field_options(p)
     p.add_argument("--degrees", required=True, metavar="LO:HI", help="degrees LO … HI-1")
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")

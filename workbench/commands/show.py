@@ -75,7 +75,8 @@ def summary_lines(tree, name: str = "") -> list[str]:
         lines.append("  " + "".join(f"{t:>11}" for _, t in columns))
         data = [np.asarray(comp.get(k)) for k, _ in columns]
         for i in range(data[0].size):
-            row = [f"{int(data[0][i]):>11d}"] + [_fmt(d[i]) for d in data[1:]]
+            # counts (n, zeros missed) are integers and print as such
+            row = [f"{int(d[i]):>11d}" if np.issubdtype(d.dtype, np.integer) else _fmt(d[i]) for d in data]
             lines.append("  " + "".join(row))
         if comp.has("band_counts_direct"):
             last = np.asarray(comp.get("band_counts_direct"))[-1]
