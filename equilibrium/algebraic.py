@@ -456,7 +456,7 @@ def rounding_floor(state: AlgebraicState) -> float:
     x = 17, say) cannot have its ends placed closer than ulp(17) ≈ 3.6e-15,
     and the residual of such a problem stops there; Newton's iteration counts
     as converged when its residual is below 1e-11 or within four times this
-    floor (the verification figures of the measure still judge the result).
+    floor (the checks of the measure still judge the result).
     """
     soft = ~state.structure.hard
     if state.jacobian is None or not np.any(soft):

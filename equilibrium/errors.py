@@ -19,4 +19,4 @@ class InputError(ValueError):
 
 
 class NumericalFailure(RuntimeError):
-    """A computation that could not be certified; the message gives the figures."""
+    """A computation that could not be certified; the message names the failed checks."""

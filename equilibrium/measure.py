@@ -1,10 +1,10 @@
-"""The equilibrium measure as a result object, with its verification figures.
+"""The equilibrium measure as a result object, with its checks.
 
 :func:`build_measure` turns the solution of the algebraic problem
 (:mod:`equilibrium.algebraic`) into an :class:`EquilibriumMeasure`:
-density, band masses, phases Ω_j, the constant ℓ, the energy, the
+density, band masses, filling fractions Ω_j, the constant ℓ, the energy, the
 distribution function and its inverse, the effective potential and the
-Stieltjes transform, and the figures that show the result is right.
+Stieltjes transform, and the checks that show the result is right.
 
 Conventions (shared by the whole project):
 
@@ -14,7 +14,7 @@ Conventions (shared by the whole project):
 * Ω_j = μ([a_{j+1}, b_k]), the mass to the right of gap j;
 * g(z) = ∫ log(z - s) dμ(s) with principal logarithms.
 
-How each figure is obtained (so that the checks are not circular):
+How each check is obtained (so that the checks are not circular):
 
 ``mass_error``
     max of |Σ band masses - 1| (angular quadrature of the density) and
@@ -71,7 +71,7 @@ from .quadrature import (
 )
 from .sets import IntervalSet
 
-#: figures above these thresholds make a result unverified
+#: checks above these thresholds make a result unverified
 TOLERANCES = {
     "mass_error": 1e-10,
     "lagrange_spread": 1e-9,
@@ -108,7 +108,7 @@ class Classification:
 
 @dataclass(frozen=True)
 class EquilibriumMeasure:
-    """Equilibrium measure μ_V of a field on a set, with verification figures.
+    """Equilibrium measure μ_V of a field on a set, with checks.
 
     See the module docstring for the conventions and for how every entry
     of :attr:`checks` is computed.
@@ -388,7 +388,7 @@ def _outer_integrand(structure: BandStructure, h_of, lo_index: int, hi_index: in
 
 
 def band_masses(window: Window, state: AlgebraicState) -> np.ndarray:
-    """Band masses by the angular rule (no cumulative pieces): a quick figure for comparisons."""
+    """Band masses by the angular rule (no cumulative pieces): a quick number for comparisons."""
     structure = state.structure
 
     def h_of(x):
@@ -409,9 +409,9 @@ def build_measure(
     light: bool = False,
     masses: np.ndarray | None = None,
 ) -> EquilibriumMeasure:
-    """Assemble the result object and compute all verification figures.
+    """Assemble the result object and compute all checks.
 
-    ``light=True`` skips the expensive figures (direct log potential,
+    ``light=True`` skips the expensive checks (direct log potential,
     sampling of the effective potential): used for intermediate results.
     ``masses`` may pass the :func:`band_masses` of this state when the
     caller has them already.

@@ -370,8 +370,8 @@ def solve(
     """The equilibrium measure μ_V of ``field`` on ``on`` (default: the real line).
 
     The number of bands, their ends and the kind of each end are found
-    automatically.  The result carries its verification figures; when they
-    fail, ``verified`` is False and ``message`` names the figures.
+    automatically.  The result carries its checks; when they
+    fail, ``verified`` is False and ``message`` names the failed checks.
 
     Parameters
     ----------
@@ -381,7 +381,7 @@ def solve(
         so a guess never changes the answer, only the time to it.
     """
     on = IntervalSet.real_line() if on is None else on
-    # intermediate structures may overflow; every figure of the answer is checked for finiteness
+    # intermediate structures may overflow; every check of the answer is tested for finiteness
     with np.errstate(all="ignore"):
         return _solve(field, on, guess)
 

@@ -137,15 +137,18 @@ class IntervalSet:
         return IntervalSet(pieces)
 
     def describe(self) -> str:
-        return ",".join(f"{_fmt(a, blank_inf=True)}:{_fmt(b, blank_inf=True)}" for a, b in self.intervals)
+        """The text form ``a:b,c:d`` with infinite ends written ``-inf``/``inf``.
+
+        Every output (tables, JSON, HDF5 attributes, weight descriptions) writes a set
+        this one way, so the real line is always ``-inf:inf``; :meth:`parse` reads it back.
+        """
+        return ",".join(f"{_fmt(a)}:{_fmt(b)}" for a, b in self.intervals)
 
     def __str__(self) -> str:
-        if self.is_real_line:
-            return "R"
-        return " ∪ ".join(f"[{_fmt(a)}, {_fmt(b)}]" for a, b in self.intervals)
+        return self.describe()
 
 
-def _fmt(value: float, blank_inf: bool = False) -> str:
+def _fmt(value: float) -> str:
     if math.isinf(value):
-        return "" if blank_inf else ("inf" if value > 0 else "-inf")
+        return "inf" if value > 0 else "-inf"
     return repr(float(value)) if value != int(value) or abs(value) >= 1e16 else str(int(value))

@@ -315,7 +315,7 @@ def _edge_derivative(measure, pts, kinds, i) -> float:
 
 
 def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10) -> GFunction:
-    """Build the g-function of ``measure`` and its verification figures.
+    """Build the g-function of ``measure`` and its checks.
 
     Parameters
     ----------
@@ -325,7 +325,7 @@ def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10) -
         Gauss–Jacobi nodes per band for the far-field sum (at least; more when the
         switch to it is closer than ρ = 1.6, see :func:`_switch_rho`).
     tolerance :
-        Largest accepted verification figure; beyond it ``NumericalFailure``.
+        Largest accepted value of a check; beyond it ``NumericalFailure``.
     """
     support = tuple(tuple(map(float, ab)) for ab in measure.support)
     if len(support) == 0:

@@ -46,7 +46,7 @@ theorem ``d = Σ_j u(z_j) + K`` mod periods for the Riemann constant ``K``
 (a half period, base point a branch point).  We try the curve's
 ``riemann_constant`` with both signs and then all half periods, and keep
 the one for which ``θ(-u(z_j) + d) = 0`` to working accuracy and
-``θ(u(z_j) + d) ≠ 0``; the figure is recorded.
+``θ(u(z_j) + d) ≠ 0``; the margin is recorded as a check.
 
 Genus 0: ``M = [[A, B], [-B, A]]``.
 
@@ -443,7 +443,7 @@ def model_problem(support, *, tolerance: float = 1e-9) -> ModelProblem:
 
 
 def jump_residuals(mp: ModelProblem, phases=None, *, samples: int = 7) -> dict:
-    """Measured jump relations, ``det M = 1`` and ``M → I`` (verification figures)."""
+    """Measured jump relations, ``det M = 1`` and ``M → I`` (checks)."""
     g = mp.genus
     phases = np.zeros(g) if phases is None else np.asarray(phases, float)
     out = {}

@@ -305,7 +305,7 @@ def szego_function(factors: Sequence, support, *, harmonic=None, tolerance: floa
     support : the bands ``((a_1, b_1), …)``.
     harmonic : optionally the ``GFunction`` of the harmonic measure of the support
         (built from ``equilibrium.solve(Field.zero(), on=support)`` otherwise).
-    tolerance : largest accepted verification figure (``NumericalFailure`` beyond).
+    tolerance : largest accepted value of a check (``NumericalFailure`` beyond).
     """
     support = tuple((float(a), float(b)) for a, b in support)
     if not support or any(not a < b for a, b in support):

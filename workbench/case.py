@@ -184,7 +184,10 @@ class SetSpec:
         return all(math.isfinite(a) and math.isfinite(b) for a, b in self.intervals)
 
     def text(self) -> str:
-        return ",".join(f"{_fmt_end(a)}:{_fmt_end(b)}" for a, b in self.intervals)
+        """The set as every output writes it (:meth:`equilibrium.IntervalSet.describe`)."""
+        from equilibrium.sets import IntervalSet
+
+        return IntervalSet(self.intervals).describe()
 
 
 @dataclass(frozen=True)
@@ -324,14 +327,6 @@ class Case:
         if self.set.intervals == ((-math.inf, math.inf),):
             return IntervalSet.real_line()
         return IntervalSet(list(self.set.intervals))
-
-
-def _fmt_end(x: float) -> str:
-    if x == math.inf:
-        return "inf"
-    if x == -math.inf:
-        return "-inf"
-    return f"{x:g}"
 
 
 # ------------------------------------------------------------------- line locator

@@ -115,7 +115,7 @@ def _main(argv: Sequence[str] | None) -> int:
     try:
         with warnings.catch_warnings():
             # numpy reports floating-point overflow/invalid values as RuntimeWarnings on
-            # stderr; every result carries its own verification figures (and is marked
+            # stderr; every result carries its own checks (and is marked
             # unverified when they fail), so these reports would only break the
             # one-line contract of the exit codes
             warnings.filterwarnings("ignore", message=r".* encountered in ", category=RuntimeWarning)

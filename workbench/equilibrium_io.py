@@ -36,7 +36,7 @@ def _fmt(value: float) -> str:
 
 
 def measure_table(mu: EquilibriumMeasure, title: str) -> str:
-    """A readable table: bands, masses, phases, constants and the verification figures."""
+    """A readable table: bands, masses, filling fractions, constants and the checks."""
     lines = [title]
     status = "verified" if mu.verified else "NOT VERIFIED"
     lines.append(f"kind: {mu.kind}   bands: {mu.bands}   {mu.classification}   {status}")
@@ -46,14 +46,14 @@ def measure_table(mu: EquilibriumMeasure, title: str) -> str:
         lines.append(f"{j:>4}  {_fmt(a):>22}  {_fmt(b):>22}  {left + '/' + right:<10}  {_fmt(m):>18}")
     if len(mu.omega):
         lines.append("")
-        lines.append("phases Omega_j = mu([a_{j+1}, b_k]): " + ", ".join(_fmt(o) for o in mu.omega))
+        lines.append("filling fractions Omega_j = mu([a_{j+1}, b_k]): " + ", ".join(_fmt(o) for o in mu.omega))
     lines.append("")
     lines.append(f"equilibrium constant  ell = {_fmt(mu.lagrange)}")
     lines.append(f"energy                I_V = {_fmt(mu.energy)}")
     if mu.capacity is not None:
         lines.append(f"capacity              cap = {_fmt(mu.capacity)}")
     lines.append("")
-    lines.append("verification figure            value      tolerance")
+    lines.append(f"{'check':<30} {'value':>10}  tolerance")
     for name, value in mu.checks.items():
         bound = TOLERANCES.get(name)
         if bound is None:
@@ -103,7 +103,7 @@ def measure_group(mu: EquilibriumMeasure, grid_points: int = 801) -> Group:
     node.add(
         "omega",
         np.asarray(mu.omega, dtype=float).reshape(-1),
-        "filling phases Omega_j = mu([a_{j+1}, b_k]), mass right of gap j",
+        "filling fractions Omega_j = mu([a_{j+1}, b_k]), the mass right of gap j",
     )
     lo, hi = support[0, 0], support[-1, 1]
     pad = 0.08 * (hi - lo)

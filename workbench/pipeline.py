@@ -3,7 +3,7 @@
 Stages
 ------
 1. *equilibrium*: ``μ_V`` of the field on Σ (``solve``, or ``solve_signed``),
-   with its verification figures, and ψ, F on a grid for the figures.
+   with its checks, and ψ, F on a grid for the figures.
 2. *model*: the predictions of the steepest-descent analysis at every n
    (``gfunction.predict``): ``a_n^{(n)}, b_n^{(n)}`` from the outer
    parametrix, zeros of the oscillatory bulk form on the bands, Airy zeros at soft
@@ -24,7 +24,7 @@ Comm. Pure Appl. Math. 52 (1999) 1335-1425, §7): with
 ``T = e^{nℓσ₃/2} Y e^{-n(g + ℓ/2)σ₃}`` and ``M`` the outer parametrix, the
 matrix ``R = T M^{-1}`` satisfies ``R = I + O(1/n)`` uniformly away from the
 support; on a circle of radius ``r`` (``contour_radius`` times the half-width
-of the support hull) about its centre the figure ``max |R - I|`` should
+of the support hull) about its centre the quantity ``max |R - I|`` should
 shrink like ``1/n``.
 """
 
@@ -277,7 +277,7 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
                     entry.attrs["note"] = f"all errors below {floor:.1e} (rounding level)"
                 # In several bands the O(1/n) coefficient is quasi-periodic in n (it depends on the
                 # phases nΩ), so a slope fitted over a few n can look flat: max n·error staying
-                # bounded across the range is the figure that shows O(1/n) there.
+                # bounded across the range is the number that shows O(1/n) there.
                 finite = np.isfinite(err)
                 scaled = np.asarray(ns, dtype=float)[finite] * err[finite]
                 entry.attrs.update({
@@ -479,8 +479,9 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     ``edge_zeros`` (Airy, at the rightmost edge when it is soft),
     ``bulk_zeros`` (zeros of the bulk form, NaN-padded), ``values_shape`` (the
     oscillatory bulk form of p_n w^{1/2} up to the factor γ_n e^{-nℓ/2}),
-    plus ``n_dense``/``a_dense``/``b_dense``/``gap_zeros_dense`` on every n of
-    the range for the quasi-periodic pattern of the figures.
+    plus ``a_dense``/``b_dense``/``gap_zeros_dense`` at the degrees ``n_dense``
+    (every integer of the range when it has at most 400, else 400 integers
+    spread evenly over it) for the quasi-periodic pattern of the figures.
     """
     from scipy.special import ai_zeros
 
@@ -566,7 +567,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     dense = _dense_range(ns_arr)
     if dense.size:
         rec = pred.recurrence(dense, on_failure="mark")
-        node.add("n_dense", dense, "every n of the range (for the quasi-periodic pattern)")
+        node.add("n_dense", dense, _dense_description(dense))
         node.add("a_dense", rec.a, "predicted a_n^{(n)} on n_dense")
         node.add("b_dense", rec.b, "predicted b_n^{(n)} on n_dense")
         dense_parts = [rec]
@@ -624,7 +625,7 @@ def _small_norm_check(pred, mu, n: int, circles: np.ndarray, radii: np.ndarray, 
 
 
 def _numbers(checks: Mapping[str, Any]) -> dict[str, float]:
-    """Verification figures as plain floats (largest modulus of array-valued ones)."""
+    """Checks as plain floats (largest modulus of array-valued ones)."""
     out = {}
     for key, value in dict(checks).items():
         try:
@@ -632,6 +633,15 @@ def _numbers(checks: Mapping[str, Any]) -> dict[str, float]:
         except (TypeError, ValueError):
             continue
     return out
+
+
+def _dense_description(dense: np.ndarray) -> str:
+    """What ``n_dense`` holds, in words (every integer of the range, or a spread of them)."""
+    lo, hi = int(dense[0]), int(dense[-1])
+    if dense.size == hi - lo + 1:
+        return f"every integer n from {lo} to {hi} (the model evaluated between the computed n)"
+    return (f"{dense.size} integers n spread evenly from {lo} to {hi} (of the {hi - lo + 1} in the range; "
+            "the model evaluated between the computed n)")
 
 
 def _dense_range(ns: np.ndarray, limit: int = 400) -> np.ndarray:

@@ -623,7 +623,7 @@ def sweep_case(case, out: str | os.PathLike[str] | None = None, *, workers: int 
     for key, text in described.items():
         if key in wanted:
             grid.add(key, grids[key], text)
-    grid.add("verified", grids["verified"], "verification figures within tolerance")
+    grid.add("verified", grids["verified"], "checks within tolerance")
     grid.add("regular", grids["regular"], "measure regular (no singular point)")
     grid.add("errors", grids["errors"], "error message of a failed point ('' when fine)")
     draw = case.figures.enabled if draw is None else draw

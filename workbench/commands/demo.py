@@ -1,7 +1,7 @@
 """``workbench demo [--out DIR]``: the shipped showcase, run end to end, plus a table of measures.
 
 The showcase is ``cases/two_band_irrational.toml`` (a tilted double well:
-two bands, an irrational-looking filling phase Ω, quasi-periodic
+two bands, an irrational-looking filling fraction Ω, quasi-periodic
 recurrence coefficients and a zero wandering through the gap).  Then a
 table of equilibrium measures of a few fields is printed with the closed
 forms where the literature has them.
@@ -70,7 +70,7 @@ def run(args: argparse.Namespace) -> int:
             (bands, ell) = exact
             reference = f"ell = {ell:.6f}, err {abs(mu.lagrange - ell):.1e}"
         shown = expression.replace("c*", "0.5*")
-        print(f"  {shown:<22}{interval or 'R':<17}{support:<42}{mu.lagrange:>12.6f}{reference:>28}"
+        print(f"  {shown:<22}{on.describe():<17}{support:<42}{mu.lagrange:>12.6f}{reference:>28}"
               + ("" if mu.verified else "  (not verified)"))
         print(f"  {'':<22}{'':<17}{source}")
 

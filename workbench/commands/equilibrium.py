@@ -13,7 +13,7 @@ from workbench.equilibrium_io import measure_group, measure_json, measure_table
 def register(subparsers) -> None:
     parser = subparsers.add_parser(
         "equilibrium",
-        help="equilibrium measure of a field: support, masses, phases, ell, energy, checks",
+        help="equilibrium measure of a field: support, masses, filling fractions, ell, energy, checks",
         description="Compute the equilibrium measure of V on a set (support found automatically), "
         "or with --signed the signed equilibrium measure of the whole compact set.",
     )

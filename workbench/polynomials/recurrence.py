@@ -65,10 +65,10 @@ class RecurrenceCoefficients:
     error_estimate : ``max_k max(|Δa_k|, |Δb_k|)`` between two discretisations.
     method : how the numbers were computed.
     weight_description : text of the weight.
-    checks : verification figures (``relative_error_estimate``, ``log_mass_difference``,
+    checks : values of the checks (``relative_error_estimate``, ``log_mass_difference``,
         node counts, ...).
     log_mass : ``log ∫ w_n`` (so that ``p_0 = exp(-log_mass/2)``).
-    verified : whether every figure is within tolerance.
+    verified : whether every check is within tolerance.
     """
 
     a: np.ndarray
