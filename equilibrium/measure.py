@@ -29,6 +29,18 @@ How each check is obtained (so that the checks are not circular):
 ``density_margin``
     min over the bands of the regular part of the density, relative to its
     maximum (≥ 0 for a positive measure).
+``density_minimum``, ``negative_mass`` (signed measures)
+    the same relative minimum of the regular part for the signed measure,
+    where it is not a failure: a signed equilibrium measure may be negative
+    and still be exactly what was asked for; and the mass of its negative
+    part, ∫ ψ⁻ over the pieces of the bands where ψ < 0 (their ends are the
+    zeros of h, the mass comes from the cumulative band integrals).  A signed
+    measure with ψ < 0 somewhere is *not positive* (:attr:`EquilibriumMeasure.positive`):
+    it is not the limit of the zeros of the orthogonal polynomials of a
+    weight on Σ, which follow the positive equilibrium measure constrained
+    to Σ (Saff and Totik 1997, Thm IV.1.11 and §IV.5 -- from memory of the
+    statements).  Where ψ < 0 at a hard end, ψ itself tends to -∞ there,
+    so the minimum is reported for the regular part.
 ``min_effective_potential``
     min of the effective potential over its critical points and a sample of
     the gaps and of Σ outside the hull (≥ 0 for the true minimiser; scaled
@@ -180,6 +192,38 @@ class EquilibriumMeasure:
         z = np.asarray(z, dtype=complex)
         return sqrt_R(z, self.structure.ends) / q_hard(z, self.structure)
 
+    @property
+    def positive(self) -> bool:
+        """True when the density is ≥ 0 on every band (within the tolerance of ``density_margin``).
+
+        Always true of a verified positive measure; a signed measure may be negative
+        (``checks["density_minimum"] < 0``), and is then no model of orthogonal polynomials.
+        """
+        value = self.checks.get("density_minimum", self.checks.get("density_margin", 0.0))
+        return bool(value >= TOLERANCES["density_margin"])
+
+    def negative_part(self) -> tuple[tuple[tuple[float, float], ...], float]:
+        """The pieces of the bands where ψ < 0, and the mass -∫ ψ over them (≥ 0).
+
+        Ends of the pieces are band ends and real zeros of h inside the bands.
+        """
+        pieces: list[tuple[float, float]] = []
+        mass = 0.0
+        for j, (a, b) in enumerate(self.support):
+            t_a, t_b = float(self._window.t(a)), float(self._window.t(b))
+            roots = self._window.dV.center + self._window.dV.half_width * real_roots(self._state.h, t_a, t_b)
+            ends = np.concatenate([[a], roots, [b]])
+            middles = 0.5 * (ends[:-1] + ends[1:])
+            negative = self._regular_part(j, middles) < 0
+            cdf = self._pieces.band_cdf(j)
+            for lo, hi in zip(ends[:-1][negative], ends[1:][negative]):
+                if pieces and pieces[-1][1] == lo:  # a double root: one piece
+                    lo = pieces.pop()[0]
+                pieces.append((float(lo), float(hi)))
+                theta = theta_of_x(a, b, np.array([lo, hi]))
+                mass -= float(cdf.at_theta(theta[1]) - cdf.at_theta(theta[0]))
+        return tuple(pieces), max(mass, 0.0)
+
     # ---------------------------------------------------------------- density
     def _regular_part(self, band: int, x: np.ndarray) -> np.ndarray:
         """η(x) = s_j h(x): ψ = η ∏|x-e|^{σ_e}/(2π) on band j; η ≥ 0 for a positive measure."""
@@ -306,6 +350,9 @@ class EquilibriumMeasure:
             "energy": float(self.energy),
             "capacity": None if self.capacity is None else float(self.capacity),
             "kind": self.kind,
+            "positive": self.positive,
+            "density_minimum": float(self.checks.get("density_minimum",
+                                                     self.checks.get("density_margin", math.nan))),
             "verified": bool(self.verified),
             "classification": str(self.classification),
             "singularities": [{"kind": s.kind, "x": s.x} for s in self.classification.singularities],
@@ -527,6 +574,13 @@ def build_measure(
     etas = [band_sign(structure, j) * values for j, values in enumerate(h_grids)]
     peak = max(float(np.max(np.abs(eta))) for eta in etas) or 1.0
     density_margin = min(float(np.min(eta)) for eta in etas) / peak
+    if kind == "signed":
+        # not a failure: the signed measure may be negative and still be right (module docstring)
+        checks["density_minimum"] = float(density_margin)
+        if density_margin < 0:
+            checks["negative_mass"] = provisional.negative_part()[1]
+        else:
+            checks["negative_mass"] = 0.0
     if kind == "positive":
         checks["density_margin"] = float(density_margin)
         for j, (xs, eta) in enumerate(zip(grids, etas)):

@@ -585,7 +585,19 @@ def predictor(measure, factor: Sequence | None = None) -> Predictor:
     a sequence of factor objects (protocol of ``gfunction.szego``, e.g. the
     output of ``workbench.polynomials.parse_factor``); its Szegő function
     shifts the phases (``Predictor.phases``).
+
+    Raises ``InputError`` for a measure that is not positive (a signed equilibrium
+    measure negative somewhere): the orthogonal polynomials of a weight on Σ follow
+    the positive equilibrium measure constrained to Σ, ``equilibrium.solve(field, on)``.
     """
+    if not getattr(measure, "positive", True):
+        from equilibrium.errors import InputError
+
+        pieces, mass = measure.negative_part()
+        where = " U ".join(f"[{a:.6g}, {b:.6g}]" for a, b in pieces)
+        raise InputError(f"the {measure.kind} measure is negative on {where} (negative mass {mass:.3g}); "
+                         "it is no model of orthogonal polynomials: use the positive equilibrium "
+                         "measure on the set (equilibrium.solve)")
     gf = g_function(measure)
     mp = model_problem(measure.support)
     oh = harmonic_phases(measure.support)

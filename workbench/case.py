@@ -734,6 +734,9 @@ def _comparisons(check: _Validator, table: dict[str, Any]) -> ComparisonSpec:
     if not spec.contour_radius > 1.0:
         raise check.fail("contour_radius must be > 1 (the circle must enclose the support)",
                          "comparisons", "contour_radius")
+    if not spec.contour_radius <= 1e3:  # inf made every small-norm value NaN
+        raise check.fail(f"contour_radius = {spec.contour_radius:g} must be finite, at most 1000 half-widths "
+                         "(e.g. 1.5; the second circle is twice as large)", "comparisons", "contour_radius")
     return spec
 
 

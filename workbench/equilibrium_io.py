@@ -40,6 +40,7 @@ def measure_table(mu: EquilibriumMeasure, title: str) -> str:
     lines = [title]
     status = "verified" if mu.verified else "NOT VERIFIED"
     lines.append(f"kind: {mu.kind}   bands: {mu.bands}   {mu.classification}   {status}")
+    lines.append(positivity_line(mu))
     lines.append("")
     lines.append(f"{'band':>4}  {'a_j':>22}  {'b_j':>22}  {'edges':<10}  {'mass':>18}")
     for j, ((a, b), (left, right), m) in enumerate(zip(mu.support, mu.edges, mu.masses), start=1):
@@ -70,6 +71,19 @@ def measure_table(mu: EquilibriumMeasure, title: str) -> str:
     return "\n".join(lines)
 
 
+def positivity_line(mu: EquilibriumMeasure) -> str:
+    """``positive: yes`` or where the density is negative, how much, and what that means."""
+    minimum = mu.to_dict()["density_minimum"]
+    if mu.positive:
+        return f"positive: yes   density_minimum = {minimum:.3g} (regular part, relative to its maximum)"
+    pieces, mass = mu.negative_part()
+    where = " U ".join(f"[{a:.6g}, {b:.6g}]" for a, b in pieces)
+    return (f"positive: NO   the density is negative on {where} (negative mass {mass:.3g}, "
+            f"density_minimum = {minimum:.3g})\n"
+            "  the zeros of orthogonal polynomials on the set follow the positive equilibrium measure "
+            "on it instead (without --signed)")
+
+
 def measure_group(mu: EquilibriumMeasure, grid_points: int = 801) -> Group:
     """The /equilibrium group of a results file: numbers, conventions, and the density on a grid."""
     node = Group()
@@ -80,6 +94,8 @@ def measure_group(mu: EquilibriumMeasure, grid_points: int = 801) -> Group:
             "conventions": "I_V = iint log 1/|x-y| dmu dmu + int V dmu; 2U + V = ell on S; "
             "Omega_j = mu([a_{j+1}, b_k]); psi = dmu/dx",
             "kind": mu.kind,
+            "positive": bool(mu.positive),
+            "density_minimum": float(mu.to_dict()["density_minimum"]),
             "bands": int(support.shape[0]),
             "lagrange": float(mu.lagrange),
             "energy": float(mu.energy),

@@ -115,17 +115,40 @@ def build_weight(case: Case, field_, on, n: float):
 
 
 def solve_case(case: Case):
-    """The equilibrium measure of the case (positive, or signed on the whole set)."""
+    """The equilibrium measure that models the polynomials of the case, and the signed one set aside.
+
+    Returns ``(field, on, mu, set_aside)``.  With ``[set] signed = true`` the signed
+    equilibrium measure of Σ is solved; when it is positive it is the equilibrium
+    measure constrained to Σ (support all of Σ) and is the model.  When it is
+    negative somewhere it is no model of orthogonal polynomials on Σ, whose zeros
+    follow the positive equilibrium measure constrained to Σ (Saff and Totik 1997,
+    Thm IV.1.11, from memory); the run then switches to that measure (``solve``) and
+    returns the signed one as ``set_aside`` so the file keeps it and says so.
+    ``set_aside`` is None otherwise.
+    """
     from equilibrium import solve, solve_signed
 
     field_ = case.build_field()
     on = case.build_set()
+    set_aside = None
     try:
         mu = (solve_signed if case.set.signed else solve)(field_, on=on)
+        if not mu.positive:
+            set_aside, mu = mu, solve(field_, on=on)
     except InputError as exc:
         # name the file and the tables the refused field and set come from
         raise InputError(f"{case.source} [field] on [set]: {exc}") from None
-    return field_, on, mu
+    return field_, on, mu, set_aside
+
+
+def switch_note(signed, mu) -> str:
+    """The note of a run whose signed measure was negative and set aside for the positive one."""
+    pieces, mass = signed.negative_part()
+    where = " U ".join(f"[{a:.6g}, {b:.6g}]" for a, b in pieces)
+    support = " U ".join(f"[{a:.6g}, {b:.6g}]" for a, b in mu.support)
+    return (f"[set] signed = true: the signed measure on the set is negative on {where} (negative mass "
+            f"{mass:.3g}), so it is no model of the polynomials; the model uses the positive equilibrium "
+            f"measure on the set instead (support {support}); the signed one is kept in /equilibrium_signed")
 
 
 # ----------------------------------------------------------------------- stages
@@ -292,6 +315,68 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
     return node
 
 
+def _n_list(ns: np.ndarray, limit: int = 8) -> str:
+    values = [int(v) for v in ns]
+    shown = ", ".join(str(v) for v in values[:limit])
+    return shown + (f" and {len(values) - limit} more" if len(values) > limit else "")
+
+
+def comparison_notes(tree: Group, case: Case) -> tuple[list[str], list[str]]:
+    """Every comparison asked for and not made, or made and not a number: ``(notes, failures)``.
+
+    A *note* names a comparison the run skipped and why (by design, e.g. no small-norm
+    check with a factor h; or nothing to compare, e.g. no zero in any gap on either
+    side).  A *failure* is a comparison that should have a value and is NaN; it makes
+    the run unverified (NaN is never verified).  Both go to the file and the screen.
+    Reads the stored groups only.
+    """
+    notes: list[str] = []
+    failures: list[str] = []
+    comp = tree.groups.get("comparison")
+    model = tree.groups.get("model", Group())
+    if comp is None or not model.attrs.get("available", True):
+        return notes, failures  # the failed model has its own message
+    ns = np.asarray(comp.get("n"))
+    wanted = case.comparisons
+    with_factor = case.factor.kind != "none"
+    if wanted.values and not comp.has("err_values"):
+        notes.append("values of p_n not compared: " + (
+            f"the bulk form of the model side leaves out the Szego function of the factor "
+            f"({case.factor.describe()})"
+            if with_factor else "the model side gave no bulk form"))
+    if wanted.small_norm and not comp.has("small_norm"):
+        notes.append("small-norm check not made: " + str(model.attrs.get(
+            "small_norm_skipped", "the model side gave no outer parametrix on the circles")))
+    if wanted.zeros and not comp.has("err_zeros_edge"):
+        eq = tree.groups.get("equilibrium", Group())
+        edges = np.asarray(eq.get("edges")).reshape(-1) if eq.has("edges") else np.array([])
+        right = str(edges[-1]) if edges.size else "unknown"
+        notes.append("edge zeros not compared: " + (
+            "the right end of the support is a hard edge (the Airy comparison needs a soft edge)"
+            if right == "hard" else "the model side gave no edge zeros"))
+    if wanted.zeros and comp.has("gap_zeros_direct") and comp.has("gap_zeros_model"):
+        direct = np.atleast_2d(np.asarray(comp.get("gap_zeros_direct"), dtype=float))
+        predicted = np.atleast_2d(np.asarray(comp.get("gap_zeros_model"), dtype=float))
+        none = ~np.isfinite(direct).any(axis=1) & ~np.isfinite(predicted).any(axis=1)
+        if direct.shape[1] and none.any():
+            notes.append(f"gap zeros: nothing to compare at n = {_n_list(ns[none])} "
+                         "(no zero in any gap, neither direct nor predicted)")
+        one_side = (np.isfinite(direct) != np.isfinite(predicted)).any(axis=1)
+        if direct.shape[1] and one_side.any():
+            notes.append(f"gap zeros: a zero on one side only at n = {_n_list(ns[one_side])} "
+                         "(gap_zero_presence_mismatch; usually a zero close to a band end)")
+    # a comparison that was made must have a number at every n
+    for key in ERROR_QUANTITIES:
+        if key == "err_zeros_gap" or not comp.has(key):
+            continue
+        values = np.asarray(comp.get(key), dtype=float)
+        bad = ~np.isfinite(values)
+        if bad.any():
+            failures.append(f"{key} is not a number at n = {_n_list(ns[bad])}: that comparison failed "
+                            "there and is not verified")
+    return notes, failures
+
+
 def _zero_errors(node: Group, direct, model: Group, ns, support, gap_direct) -> None:
     if model.has("bulk_zeros"):
         errs = []
@@ -348,7 +433,8 @@ class RunOutcome:
     reused: tuple[int, ...]
     seconds: float
     verified: bool
-    messages: tuple[str, ...] = ()
+    messages: tuple[str, ...] = ()   # why the run is not verified (empty when it is)
+    notes: tuple[str, ...] = ()      # what was switched or skipped, and why (not failures)
 
 
 def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True,
@@ -371,8 +457,13 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
     # the field is checked (confining, real and finite on the set) before anything is
     # written, so a refused case leaves no trace on disk
     t = time.perf_counter()
-    field_, on, mu = solve_case(case)
+    field_, on, mu, set_aside = solve_case(case)
     timings["equilibrium"] = time.perf_counter() - t
+    # notes: what the run did differently from what was asked, or left out, and why; shown on
+    # screen and kept in the file (they do not make the run unverified, failures do)
+    notes: list[str] = []
+    if set_aside is not None:
+        notes.append(switch_note(set_aside, mu))
     make_output_directory(directory)
     remove_stale_temporaries(directory)
     if not mu.verified:
@@ -380,6 +471,11 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
 
     tree = Group(attrs={"format": "workbench-run"})
     tree.groups["equilibrium"] = equilibrium_group(mu, case)
+    if set_aside is not None:
+        tree.groups["equilibrium_signed"] = equilibrium_group(set_aside, case)
+        tree.groups["equilibrium_signed"].attrs["description"] = (
+            "the signed equilibrium measure of the set asked for by [set] signed = true; negative "
+            "somewhere, so not the model (that is /equilibrium)")
 
     ns = list(case.polynomials.n)
     t = time.perf_counter()
@@ -429,13 +525,17 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
 
     t = time.perf_counter()
     tree.groups["comparison"] = comparison_group(tree, ns, case)
+    skipped, failed = comparison_notes(tree, case)
+    notes.extend(skipped)
+    messages.extend(failed)
     timings["comparison"] = time.perf_counter() - t
     timings["total"] = time.perf_counter() - start
 
     verified = not messages
     tree.attrs.update(provenance(case.text, case.source, case.parameters(), timings))
     tree.attrs.update({"case_name": case.name, "case_title": case.title, "verified": verified,
-                       "messages": list(messages) or "none", "reduced": case.reduced})
+                       "messages": list(messages) or "none", "notes": list(notes) or "none",
+                       "reduced": case.reduced})
 
     draw = case.figures.enabled if draw is None else draw
     figure_files: dict[str, list[Path]] = {}
@@ -456,7 +556,7 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
     write_run(path, tree)
     return RunOutcome(path=path, tree=tree, figures=figure_files, computed=tuple(computed),
                       reused=reused, seconds=time.perf_counter() - start, verified=verified,
-                      messages=tuple(messages))
+                      messages=tuple(messages), notes=tuple(notes))
 
 
 # ----------------------------------------------------------------- model side
@@ -545,7 +645,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     if case.comparisons.small_norm and case.factor.kind != "none":
         node.attrs["small_norm_skipped"] = ("with h != 1 the global parametrix carries the Szego "
                                             "function of h (D_inf^{sigma3} M D^{-sigma3}), which the "
-                                            "model side does not provide; check not made")
+                                            "model side does not provide")
     elif case.comparisons.small_norm:
         lo, hi = support[0, 0], support[-1, 1]
         centre, half = 0.5 * (lo + hi), 0.5 * (hi - lo)

@@ -443,6 +443,7 @@ def assemble(results: Mapping[int, Mapping[str, Any]], shape: tuple[int, ...]) -
     energy = np.full(size, np.nan)
     verified = np.zeros(size, dtype=bool)
     regular = np.zeros(size, dtype=bool)
+    positive = np.zeros(size, dtype=bool)
     support = np.full((size, max_bands, 2), np.nan)
     omega = np.full((size, max(1, max_bands - 1)), np.nan)
     errors = np.full(size, "", dtype=object)
@@ -459,6 +460,7 @@ def assemble(results: Mapping[int, Mapping[str, Any]], shape: tuple[int, ...]) -
         energy[i] = r.get("energy", np.nan)
         verified[i] = r.get("verified", False)
         regular[i] = r.get("regular", False)
+        positive[i] = r.get("positive", True)  # journals written before 'positive' held positive measures
         for j, band in enumerate(r.get("support", [])):
             support[i, j] = band
         for j, w in enumerate(r.get("omega", [])):
@@ -469,6 +471,7 @@ def assemble(results: Mapping[int, Mapping[str, Any]], shape: tuple[int, ...]) -
         "energy": energy.reshape(shape),
         "verified": verified.reshape(shape),
         "regular": regular.reshape(shape),
+        "positive": positive.reshape(shape),
         "support": support.reshape(shape + (max_bands, 2)),
         "omega": omega.reshape(shape + (omega.shape[1],)),
         "errors": errors.reshape(shape),
@@ -526,6 +529,7 @@ def _measure_summary(mu) -> dict[str, Any]:
         "energy": float(mu.energy),
         "verified": bool(mu.verified),
         "regular": bool(getattr(mu.classification, "regular", True)),
+        "positive": bool(mu.positive),
     }
 
 
@@ -625,6 +629,8 @@ def sweep_case(case, out: str | os.PathLike[str] | None = None, *, workers: int 
             grid.add(key, grids[key], text)
     grid.add("verified", grids["verified"], "checks within tolerance")
     grid.add("regular", grids["regular"], "measure regular (no singular point)")
+    grid.add("positive", grids["positive"], "density >= 0 on every band (false: a signed measure "
+                                            "negative somewhere, no model of orthogonal polynomials)")
     grid.add("errors", grids["errors"], "error message of a failed point ('' when fine)")
     draw = case.figures.enabled if draw is None else draw
     figure_files: dict[str, list[Path]] = {}

@@ -162,3 +162,58 @@ def test_non_polynomial_fields_under_dilation(text, sets):
         assert m.verified, m.message
     np.testing.assert_allclose(dilated.masses, mu.masses, atol=1e-12)
     assert abs(dilated.lagrange - (mu.lagrange - 2 * math.log(sigma))) < 1e-11
+
+
+def test_negative_signed_measure_is_not_positive_closed_form():
+    """V = 2x² - x on [-1, 1]: ψ(x) = (4 - 4x² + x)/(2π (1 - x²)^{1/2}), negative near -1.
+
+    Two derivations agree (common practice): (i) with two hard ends
+    G(z) = V'(z)/2 - h(z)/(2 (z² - 1)^{1/2}) with h quadratic, and G(z) = 1/z + O(z⁻²) gives
+    h = 4z² - z - 4, ψ = -h/(2π (1 - x²)^{1/2}); (ii) the formula
+    ψ = [1 + (2π)⁻¹ p.v.∫ V'(t) (1-t²)^{1/2}/(t - x) dt]/(π (1-x²)^{1/2}) (Saff and Totik 1997,
+    §IV.3, from memory) with p.v.∫ (1-t²)^{1/2}/(t - x) dt = -πx.  ψ < 0 on [-1, x₋),
+    x₋ = (1 - √65)/8; with F(x) = 2 arcsin x + 2x (1-x²)^{1/2} - (1-x²)^{1/2} an antiderivative
+    of 2π ψ (1-x²)^{1/2}/(1-x²)^{1/2}, the negative mass is -(F(x₋) - F(-1))/(2π), F(-1) = -π.
+    """
+    mu = solve_signed(Field.from_expression("2*x**2 - x"), IntervalSet.parse("-1:1"))
+    assert mu.verified and not mu.positive
+    x = np.linspace(-0.99, 0.99, 41)
+    np.testing.assert_allclose(mu.density(x), (4 - 4 * x**2 + x) / (2 * math.pi * np.sqrt(1 - x**2)),
+                               rtol=1e-12, atol=1e-13)
+    (piece,), mass = mu.negative_part()
+    root = (1 - math.sqrt(65)) / 8
+    assert piece[0] == -1.0 and piece[1] == pytest.approx(root, abs=1e-13)
+    F = 2 * math.asin(root) + (2 * root - 1) * math.sqrt(1 - root**2)
+    exact = -(F + math.pi) / (2 * math.pi)
+    assert mass == pytest.approx(exact, rel=1e-11)
+    assert mu.checks["negative_mass"] == pytest.approx(exact, rel=1e-11)
+    # regular part 4 - 4x² + x: -1 at x = -1 against its largest value 4 + 1/16 at x = 1/8
+    assert mu.checks["density_minimum"] == pytest.approx(-1 / 4.0625, rel=1e-4)
+    data = mu.to_dict()
+    assert data["positive"] is False and data["density_minimum"] == mu.checks["density_minimum"]
+
+
+def test_issue_case_negative_near_an_end():
+    """2x² - x on [-1, 0.3] ∪ [0.35, 1] (issue 12): negative from -1 to a zero of h, so not positive;
+    the negative mass against scipy.integrate.quad of the density; the positive measure on the
+    same set has a soft end inside the first interval instead."""
+    from scipy.integrate import quad
+
+    field, on = Field.from_expression("2*x**2 - x"), IntervalSet.parse("-1:0.3,0.35:1")
+    mu = solve_signed(field, on)
+    assert mu.verified and not mu.positive
+    (piece,), mass = mu.negative_part()
+    assert piece[0] == -1.0 and abs(mu.h(np.array([piece[1]]))[0]) < 1e-12
+    reference, error = quad(lambda t: mu.density(np.array([t]))[0], *piece, limit=200)
+    assert mass == pytest.approx(-reference, abs=10 * error + 1e-12)
+    positive = solve(field, on)
+    assert positive.verified and positive.positive
+    assert positive.edges[0][0] == "soft" and piece[1] < positive.support[0][0] < 0.3
+
+
+def test_unweighted_sets_are_positive():
+    """V = 0: the signed measure of a union of intervals is its equilibrium measure, positive
+    (harmonic measure at infinity; Ransford 1995, Thm 4.3.14, from memory)."""
+    mu = solve_signed(Field.zero(), IntervalSet.parse("-1:-0.25,0.4:1"))
+    assert mu.positive and mu.negative_part() == ((), 0.0)
+    assert mu.checks["negative_mass"] == 0.0 and mu.checks["density_minimum"] > 0

@@ -38,6 +38,13 @@ def run(args: argparse.Namespace) -> int:
         parameters = ", ".join(f"{k} = {v:g}" for k, v in field.parameters.items())
         title = f"equilibrium measure of V(x) = {field.description}" + (f"  ({parameters})" if parameters else "")
         print(measure_table(mu, title + f" on {on}"))
+    if not mu.positive:
+        pieces, mass = mu.negative_part()
+        print(f"workbench equilibrium: note: the signed measure is negative on "
+              f"{' U '.join(f'[{a:.6g}, {b:.6g}]' for a, b in pieces)} (mass {mass:.3g}); it is the "
+              "signed equilibrium measure asked for, but not the limit of the zeros of orthogonal "
+              "polynomials on the set: without --signed the positive measure on the set is computed",
+              file=sys.stderr)
     if not mu.verified:
         print(f"workbench equilibrium: the result is not verified: {mu.message}", file=sys.stderr)
         return 3

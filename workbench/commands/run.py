@@ -37,6 +37,8 @@ def run(args: argparse.Namespace) -> int:
     print(f"results: {outcome.path}")
     if outcome.figures:
         print(f"figures: {outcome.path.parent / 'figures'} ({', '.join(outcome.figures)})")
+    for note in outcome.notes:
+        print(f"workbench run: note: {note}", file=sys.stderr)
     if not outcome.verified:
         print(f"workbench run: results written but not verified: {'; '.join(outcome.messages)}",
               file=sys.stderr)

@@ -43,6 +43,20 @@ def _fmt(value, width: int = 11) -> str:
     return f"{v:>{width}.6f}"
 
 
+def text_list(value) -> list[str]:
+    """A list of texts stored as an attribute (a list, its JSON, one text, or "none")."""
+    if value is None or (isinstance(value, str) and value in ("", "none")):
+        return []
+    if isinstance(value, str):
+        if value.startswith("["):
+            try:
+                return [str(v) for v in json.loads(value)]
+            except ValueError:
+                pass
+        return [value]
+    return [str(v) for v in value]
+
+
 def summary_lines(tree, name: str = "") -> list[str]:
     """Text summary of a run (or sweep) tree read back from a file."""
     attrs = tree.attrs
@@ -94,9 +108,10 @@ def summary_lines(tree, name: str = "") -> list[str]:
                 bound_text = f"  max n*err {_fmt(bound, 8)}" if bound is not None else ""
                 lines.append(f"    {key:<16} slope {_fmt(s, 8)} +- {_fmt(se, 8)}  "
                              f"({fit.attrs.get('points')} points){bound_text}{note}")
-    messages = attrs.get("messages", "none")
-    if messages not in ("none", None, []):
-        lines.append(f"  not verified: {messages}")
+    for note in text_list(attrs.get("notes")):
+        lines.append(f"  note: {note}")
+    for message in text_list(attrs.get("messages")):
+        lines.append(f"  not verified: {message}")
     figures = tree.groups.get("figures")
     if figures is not None and figures.attrs.get("files"):
         files = figures.attrs["files"]
