@@ -2,16 +2,16 @@
 
 Every result object carries
 
-* ``verified`` -- ``True`` when every verification figure is within its
+* ``verified`` -- ``True`` when every check is within its
   tolerance;
-* ``checks`` -- the figures, a ``dict[str, float]`` of plain floats (an
-  array-valued figure is reduced to its worst entry, :func:`worst`);
-* ``message`` -- empty when verified, otherwise the failed figures with their
+* ``checks`` -- the values of the checks, a ``dict[str, float]`` of plain floats (an
+  array-valued check is reduced to its worst entry, :func:`worst`);
+* ``message`` -- empty when verified, otherwise the failed checks with their
   values and tolerances (:func:`failure_message`).
 
 Every front door that can fail numerically takes ``on_failure``:
 
-* ``"raise"`` -- a result whose figures fail is not returned:
+* ``"raise"`` -- a result whose checks fail is not returned:
   :class:`~equilibrium.errors.NumericalFailure` is raised with the message;
 * ``"mark"`` -- the result is returned with ``verified = False`` and the
   message.
@@ -20,7 +20,7 @@ In both modes a computation that produces no numbers at all (a search that
 finds no support, a theta series beyond its point budget, a recurrence that
 overflows) raises ``NumericalFailure``: there is nothing to mark.
 
-A figure that is NaN never passes: ``NaN <= tolerance`` is false, and every
+A check that is NaN never passes: ``NaN <= tolerance`` is false, and every
 comparison here is written so that a NaN fails it.
 """
 
@@ -49,11 +49,11 @@ def failure_policy(on_failure: str) -> str:
 
 
 def worst(value: Any, *, lower: bool = False) -> float:
-    """One float for a verification figure.
+    """One float for a check.
 
     An array (or a complex number) is reduced to its worst entry: the largest
-    modulus for a figure bounded above, the smallest real value for one bounded
-    below (``lower=True``, a margin).  A NaN anywhere makes the figure NaN; an
+    modulus for a check bounded above, the smallest real value for one bounded
+    below (``lower=True``, a margin).  A NaN anywhere makes the check NaN; an
     empty array checks nothing and gives 0.0 (``+inf`` for a margin).
 
     Examples
@@ -70,7 +70,7 @@ def worst(value: Any, *, lower: bool = False) -> float:
         return math.inf if lower else 0.0
     if np.iscomplexobj(a):
         if lower:
-            raise InputError("a lower-bounded verification figure must be real")
+            raise InputError("a lower-bounded check must be real")
         a = np.abs(a)
     a = a.astype(float)
     if np.isnan(a).any():
@@ -85,9 +85,9 @@ def float_checks(checks: Mapping[str, Any], lower: Collection[str] = ()) -> dict
 
 def failed_checks(checks: Mapping[str, float], tolerances: Mapping[str, float],
                   lower: Collection[str] = ()) -> list[str]:
-    """Names of the figures that fail: above their tolerance, or below it for ``lower`` ones, or NaN.
+    """Names of the checks that fail: above their tolerance, or below it for ``lower`` ones, or NaN.
 
-    A figure without a tolerance is informative; it fails only when it is NaN.
+    A check without a tolerance is informative; it fails only when it is NaN.
     """
     out = []
     for name, value in checks.items():
@@ -105,7 +105,7 @@ def failed_checks(checks: Mapping[str, float], tolerances: Mapping[str, float],
 
 def failure_message(checks: Mapping[str, float], tolerances: Mapping[str, float],
                     lower: Collection[str] = (), *, what: str = "") -> str:
-    """Empty when every figure passes; otherwise ``"<what> not verified: name = v (tolerance t), ..."``.
+    """Empty when every check passes; otherwise ``"<what> not verified: name = v (tolerance t), ..."``.
 
     Examples
     --------

@@ -53,7 +53,7 @@ from .theta import theta_lattice, theta_shift_table
 __all__ = ["Predictor", "Prediction", "RecurrencePrediction", "GapZeros", "BandCounts", "EdgeZeros",
            "TOLERANCES", "harmonic_phases", "predictor"]
 
-#: verification figures of the predictions and their tolerances.  The figures are
+#: checks of the predictions and their tolerances.  The checks are
 #: exact identities of the model problem, so they sit at rounding level (1e-16 ..
 #: 3e-13 on the shipped cases, n = 50..400); the model problem itself is accepted
 #: with lattice rounding up to 1e-9 (``outer.model_problem``), the same bound here.
@@ -70,7 +70,7 @@ TOLERANCES = {
     "missing_sign_change": 0.0,      # brackets of the Airy/Bessel form without a sign change
 }
 
-#: figures bounded below
+#: checks bounded below
 LOWER = ("a2_positivity",)
 
 
