@@ -141,3 +141,21 @@ def _case_text(expression: str = "x**2/2", n: Sequence[int] = (10, 20), comparis
         lines += ["[comparisons]", *comparisons]
     lines += ["[figures]", *figures]
     return "\n".join(lines) + "\n"
+
+
+@pytest.fixture(scope="session")
+def sweep_case_text():
+    """Function returning a tiny 1-D sweep case (TOML): x**4/4 - t*x**2/2 at t = 0, 0.5, 1, no figures.
+
+    Returns
+    -------
+    callable
+        ``text() -> str``.
+    """
+    return _sweep_case_text
+
+
+def _sweep_case_text() -> str:
+    return "\n".join(['[case]', 'name = "sw"', '[field]', 'expression = "x**4/4 - t*x**2/2"',
+                      'parameters = { t = 1.0 }', '[[sweep.axis]]', 'name = "t"', 'start = 0.0', 'stop = 1.0',
+                      'num = 3', '[figures]', 'enabled = false']) + "\n"

@@ -31,23 +31,7 @@ import pytest
 
 from workbench.cli import main
 
-SWEEP_CASE = """\
-[case]
-name = "sw"
-[field]
-expression = "x**4/4 - t*x**2/2"
-parameters = { t = 1.0 }
-[[sweep.axis]]
-name = "t"
-start = 0.0
-stop = 1.0
-num = 3
-[figures]
-enabled = false
-"""
-
-
-def _files(root: Path, case_text: Callable[..., str]) -> dict[str, str]:
+def _files(root: Path, case_text: Callable[..., str], sweep_case_text: Callable[[], str]) -> dict[str, str]:
     """The fixture files a row may name (placeholders {name} in the argv).
 
     ``case_text`` is the fixture of tests/conftest.py; the rows name line
@@ -69,9 +53,9 @@ def _files(root: Path, case_text: Callable[..., str]) -> dict[str, str]:
         "case_jacobi": gauss + '\n[set]\nintervals = "-1:1"\n[factor]\nkind = "jacobi"\nalpha = -1.0\n',
         "case_n_zero": gauss.replace("n = [10, 20]", "n = [0, 10]"),
         "case_unused_parameter": gauss.replace('"x**2/2"\n', '"x**2/2"\nparameters = { t = 1.0 }\n'),
-        "sweep": SWEEP_CASE,
-        "sweep_nonconfining": SWEEP_CASE.replace('"x**4/4 - t*x**2/2"', '"x**3 + t*x**2"'),
-        "sweep_bad_axis": SWEEP_CASE.replace('name = "t"', 'name = "q"'),
+        "sweep": sweep_case_text(),
+        "sweep_nonconfining": sweep_case_text().replace('"x**4/4 - t*x**2/2"', '"x**3 + t*x**2"'),
+        "sweep_bad_axis": sweep_case_text().replace('name = "t"', 'name = "q"'),
         "not_hdf5": "this is text, not HDF5\n",
     }
     paths = {}
@@ -259,8 +243,8 @@ def _check(code, stdout, stderr, fragment, out: Path):
 
 
 @pytest.mark.parametrize("name,argv,fragment", BAD, ids=[row[0] for row in BAD])
-def test_bad_input_in_process(name, argv, fragment, tmp_path, capsys, case_text):
-    paths = _files(tmp_path, case_text)
+def test_bad_input_in_process(name, argv, fragment, tmp_path, capsys, case_text, sweep_case_text):
+    paths = _files(tmp_path, case_text, sweep_case_text)
     out = tmp_path / "out"
     before = sorted(p.name for p in tmp_path.iterdir())
     try:
@@ -272,7 +256,7 @@ def test_bad_input_in_process(name, argv, fragment, tmp_path, capsys, case_text)
     assert sorted(p.name for p in tmp_path.iterdir()) == before  # nothing beside the fixtures
 
 
-def test_bad_input_in_a_real_process(tmp_path, case_text):
+def test_bad_input_in_a_real_process(tmp_path, case_text, sweep_case_text):
     """The same rows as separate processes (started together: the cost is the interpreter start)."""
     rows = {row[0]: row for row in BAD}
     env = dict(os.environ, PYTHONUNBUFFERED="1")
@@ -281,7 +265,7 @@ def test_bad_input_in_a_real_process(tmp_path, case_text):
         _, argv, fragment = rows[name]
         root = tmp_path / name
         root.mkdir()
-        paths = _files(root, case_text)
+        paths = _files(root, case_text, sweep_case_text)
         out = root / "out"
         process = subprocess.Popen([sys.executable, "-m", "workbench", *_argv(argv, paths, str(out))],
                                    stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)

@@ -1,4 +1,4 @@
-"""What the command line prints: closed pipes, help texts, integer columns, worker restarts.
+"""What the command line prints: closed pipes, help texts, integer columns.
 
 A reader that stops early (``workbench ... | head``) closes the pipe; every
 command then stops quietly with exit status 141 (128 + SIGPIPE, what the
@@ -8,31 +8,12 @@ traceback.
 
 from __future__ import annotations
 
-import functools
 import os
 import subprocess
 import sys
 from pathlib import Path
 
-import numpy as np
-import pytest
-
 from workbench.cli import COMMAND_MODULES, EXIT_BROKEN_PIPE, build_parser
-
-SWEEP_CASE = """\
-[case]
-name = "tiny_sweep"
-[field]
-expression = "x**4/4 - t*x**2/2"
-parameters = { t = 1.0 }
-[[sweep.axis]]
-name = "t"
-start = 0.0
-stop = 1.0
-num = 3
-[figures]
-enabled = false
-"""
 
 
 def _start_into_closed_pipe(argv: list[str], cwd: Path) -> subprocess.Popen:
@@ -46,8 +27,8 @@ def _start_into_closed_pipe(argv: list[str], cwd: Path) -> subprocess.Popen:
         os.close(write_end)
 
 
-def test_closed_pipe_stops_quietly(tmp_path, case_text):
-    (tmp_path / "sweep.toml").write_text(SWEEP_CASE)
+def test_closed_pipe_stops_quietly(tmp_path, case_text, sweep_case_text):
+    (tmp_path / "sweep.toml").write_text(sweep_case_text())
     (tmp_path / "gauss.toml").write_text(case_text(figures=("enabled = false",)))
     first = _start_into_closed_pipe(["run", "gauss.toml", "--out", "run", "--quiet"], tmp_path)
     commands = [
@@ -95,31 +76,3 @@ def test_count_miss_prints_as_an_integer(tmp_path, case_text, capsys):
     end = header.index("count miss") + len("count miss")  # columns are right-aligned
     rows = lines[lines.index(header) + 1: lines.index(header) + 3]
     assert [row[end - 11: end].strip() for row in rows] == ["0", "0"]  # not 0.000000
-
-
-def _dying_point(marker_dir, params):
-    """Stand-in point function that kills its worker process the first time it sees t = 0.5."""
-    if params["t"] == 0.5:
-        marker = Path(marker_dir) / "died-once"
-        if not marker.exists():
-            marker.write_text("x")
-            os._exit(7)
-    return {"bands": 1, "lagrange": float(np.cos(params["t"])), "energy": 0.0,
-            "support": [[-1.0, 1.0]], "omega": [], "verified": True}
-
-
-def test_dask_worker_restart_is_counted(tmp_path):
-    # Dask's nanny restarts a worker that died and reschedules its tasks by itself; the
-    # summary must say so ("0 resubmitted" after a restart was the defect)
-    distributed = pytest.importorskip("distributed")
-    from workbench.sweep import Journal, grid_points, run_points
-
-    points = grid_points([("t", np.linspace(0.0, 1.0, 9))])  # t = 0.5 is a grid point
-    with distributed.LocalCluster(n_workers=1, processes=True, threads_per_worker=1,
-                                  dashboard_address=None, silence_logs=50) as cluster:
-        outcome = run_points(points, functools.partial(_dying_point, str(tmp_path)),
-                             Journal(tmp_path / "p.jsonl", "d"), scheduler=cluster.scheduler_address,
-                             chunk_size=2, progress=False)
-    assert (tmp_path / "died-once").exists()  # the worker really died
-    assert outcome.complete and outcome.failed == 0
-    assert outcome.retried >= 2  # at least the chunk of two points that was running

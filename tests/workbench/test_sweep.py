@@ -184,3 +184,18 @@ def test_cli_sweep_resumes_after_budget(tmp_path, capsys):
     assert "23 point(s) computed, 7 taken from the journal, 0 failed" in second
     assert "30 points; 1 band(s):" in second
     assert main(["sweep", case, "--out", out, "--workers", "0"]) == 2
+
+
+def test_dask_worker_restart_is_counted(tmp_path):
+    # Dask's nanny restarts a worker that died and reschedules its tasks by itself; the
+    # summary must say so ("0 resubmitted" after a restart was the defect)
+    distributed = pytest.importorskip("distributed")
+    points = grid_points([("t", np.linspace(0.0, 1.0, 9))])  # t = 0.5 is a grid point
+    with distributed.LocalCluster(n_workers=1, processes=True, threads_per_worker=1,
+                                  dashboard_address=None, silence_logs=50) as cluster:
+        outcome = run_points(points, functools.partial(dying_point, str(tmp_path)),
+                             Journal(tmp_path / "p.jsonl", "d"), scheduler=cluster.scheduler_address,
+                             chunk_size=2, progress=False)
+    assert (tmp_path / "died-once").exists()  # the worker really died
+    assert outcome.complete and outcome.failed == 0
+    assert outcome.retried >= 2  # at least the chunk of two points that was running
