@@ -110,7 +110,7 @@ class CorrectionSeries:
     quantity : str               what is expanded (``"a"``, ``"b"``, …)
     n : float ndarray (N,)       the n of ``c_k/n^k`` (the scaling of the weight)
     coefficients : ndarray (K+1, N, ...)   ``c_0 … c_K`` per degree (real)
-    checks : dict                verification figures (imaginary parts that must vanish, …)
+    checks : dict                checks (imaginary parts that must vanish, …)
     """
 
     quantity: str
