@@ -243,6 +243,9 @@ def edge_zeros(predictor, index: int, degree: int, count: int = 5, *, order: int
               "outside_disc": float(np.sum(~(np.abs(x - ep.edge) < ep.radius)))}
     name = "Airy form" if ep.kind == "soft" else "Bessel form"
     message = failure_message(checks, TOLERANCES, what=f"{name} zeros at edge {index} (order {order})")
-    result = EdgeZeros(int(index), degree, x, name, not message, checks, message, order=order, kind=ep.kind,
+    verified = not message
+    if cor is not None:
+        checks, verified, message = cor.merged(checks, message)
+    result = EdgeZeros(int(index), degree, x, name, verified, checks, message, order=order, kind=ep.kind,
                        position=ep.edge, alpha=ep.alpha, offsets=x - ep.edge, zeta=zeta, model_zeros=model)
     return settle(result, on_failure)

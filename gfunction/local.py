@@ -240,11 +240,11 @@ class EdgeParametrix:
         out[..., 1, 1] *= np.exp(-lim + ld)
         return out
 
-    def _U(self, z: np.ndarray, degree: int) -> np.ndarray:
+    def _U(self, z: np.ndarray, degree) -> np.ndarray:
         """``log`` of the diagonal ``U = W^{σ₃/2} e^{±πinΩσ₃}`` combined with ``D^{-σ₃}`` of N."""
         pm = np.where(z.imag >= 0, 1.0, -1.0)
         # nΩ reduced mod 2 before the factor π (exact for Ω ∈ {0, 1}; keeps the digits at large n)
-        return 1j * np.pi * np.fmod(float(degree) * self.omega, 2.0) * pm
+        return 1j * np.pi * np.fmod(np.asarray(degree, dtype=float) * self.omega, 2.0) * pm
 
     def model_Q(self, z, degree: int) -> np.ndarray:
         """``Q(ζ(z))`` (→ I), with the σ₃-conjugation at left edges."""

@@ -54,12 +54,25 @@ class Corrections:
     ``expansions[i]`` is the ``ResidualExpansion`` of ``degrees[i]`` alone (its circles are
     those of ``gfunction.local.edge_parametrix``).  :meth:`row` gives the first row of
     ``R J`` (module docstring) and :meth:`matrix` ``R`` itself, at points paired with degrees.
+    ``verified``, ``checks`` and ``message`` are those of the residual expansion of the first
+    degree (trapezoid against residues, symmetry, ``det R = 1`` order by order, the series
+    against the exact jump; ``gfunction.residual``); the predictions built on it carry them.
     """
 
     predictor: Any
     degrees: np.ndarray
     order: int
     expansions: tuple
+    verified: bool = True
+    checks: dict = field(default_factory=dict)
+    message: str = ""
+
+    def merged(self, checks: dict, message: str) -> tuple[dict, bool, str]:
+        """``checks`` of a prediction joined with the residual's (prefixed ``residual_``), verdict, message."""
+        out = dict(checks)
+        out.update({f"residual_{k}": float(v) for k, v in self.checks.items()})
+        parts = [m for m in (message, self.message) if m]
+        return out, not parts, "; ".join(parts)
 
     def _index(self, degrees, shape) -> np.ndarray:
         d = np.broadcast_to(np.asarray(degrees, dtype=np.int64), shape)
@@ -105,8 +118,12 @@ def corrections(predictor, degrees, order: int, *, jump=None) -> Corrections | N
     degrees = np.unique(np.atleast_1d(np.asarray(degrees)).astype(np.int64))
     if jump is None or jump.order < order:
         jump = jump_expansion(predictor, order)
-    exps = tuple(residual_expansion(predictor, [int(n)], order, jump=jump, verify=False) for n in degrees)
-    return Corrections(predictor, degrees, order, exps)
+    # the first degree carries the checks (they cost a second set of circles); the rest reuse the
+    # same circles and jump expansion
+    first = residual_expansion(predictor, [int(degrees[0])], order, jump=jump, verify=True, on_failure="mark")
+    exps = (first,) + tuple(residual_expansion(predictor, [int(n)], order, jump=jump, verify=False)
+                            for n in degrees[1:])
+    return Corrections(predictor, degrees, order, exps, bool(first.verified), dict(first.checks), first.message)
 
 
 def _corrections_for(predictor, degrees, order, given):
@@ -195,7 +212,10 @@ def gap_zeros(predictor, degrees, order: int = 1, *, corrections: Corrections | 
         out[rows, j] = _refine_sign_changes(f, xs[idx], xs[idx + 1], r[rows, idx], r[rows, idx + 1])
     checks = {"gap_realness": worst_imag, "gap_sign_changes": float(most)}
     message = failure_message(checks, TOLERANCES, what=f"gap zeros at order {order}")
-    result = GapZeros(degrees, degrees.astype(float), out, not message, checks, message, order=int(order))
+    verified = not message
+    if cor is not None:
+        checks, verified, message = cor.merged(checks, message)
+    result = GapZeros(degrees, degrees.astype(float), out, verified, checks, message, order=int(order))
     return settle(result, on_failure)
 
 
