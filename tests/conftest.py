@@ -159,3 +159,48 @@ def _sweep_case_text() -> str:
     return "\n".join(['[case]', 'name = "sw"', '[field]', 'expression = "x**4/4 - t*x**2/2"',
                       'parameters = { t = 1.0 }', '[[sweep.axis]]', 'name = "t"', 'start = 0.0', 'stop = 1.0',
                       'num = 3', '[figures]', 'enabled = false']) + "\n"
+
+
+# ----------------------------------------------------------------------------- zeros
+@pytest.fixture(scope="session")
+def nearest_distance():
+    """Function ``(exact, predicted) -> max over predicted of the distance to the nearest exact zero``.
+
+    Each prediction is matched with its nearest neighbour among ``exact`` (no index bookkeeping
+    across bands, whose counts move with n Omega).
+    """
+    return _nearest_distance
+
+
+def _nearest_distance(exact, predicted) -> float:
+    import numpy as np
+
+    exact = np.sort(np.asarray(exact, dtype=float))
+    predicted = np.asarray(predicted, dtype=float)
+    place = np.searchsorted(exact, predicted)
+    below = exact[np.clip(place - 1, 0, exact.size - 1)]
+    above = exact[np.clip(place, 0, exact.size - 1)]
+    return float(np.max(np.minimum(np.abs(below - predicted), np.abs(above - predicted))))
+
+
+@pytest.fixture(scope="session")
+def jacobi_edge_offsets():
+    """Function ``(n, alpha, beta, edge, count) -> x_m - edge`` for the ``count`` zeros of the Jacobi
+    polynomial P_n^{(alpha, beta)} nearest ``edge`` (+1 or -1), from the edge inward.
+
+    scipy.special.roots_jacobi gives the zeros, each polished by Newton steps on mpmath.jacobi at
+    30 digits (``x_m - edge`` keeps its relative accuracy, which the float roots lose next to +-1).
+    """
+    return _jacobi_edge_offsets
+
+
+def _jacobi_edge_offsets(n: int, alpha: float, beta: float, edge: float, count: int = 3):
+    import mpmath
+    import numpy as np
+    from scipy.special import roots_jacobi
+
+    roots = np.sort(roots_jacobi(n, alpha, beta)[0])
+    near = roots[::-1][:count] if edge > 0 else roots[:count]
+    with mpmath.workdps(30):
+        return np.array([float(mpmath.findroot(lambda y: mpmath.jacobi(n, alpha, beta, y), mpmath.mpf(r),
+                                               verify=False) - edge) for r in near])

@@ -15,10 +15,9 @@ the zeros next to +-1), and direct zeros and values of workbench.polynomials for
 closed forms.
 """
 
-import mpmath
 import numpy as np
 import pytest
-from scipy.special import roots_genlaguerre, roots_hermite, roots_jacobi
+from scipy.special import roots_genlaguerre, roots_hermite
 
 from equilibrium import Field, IntervalSet, solve
 from gfunction import predictor
@@ -31,13 +30,6 @@ from workbench.polynomials import Weight, parse_factor, recurrence_coefficients,
 def _slope(ns, err):
     return np.polyfit(np.log(np.asarray(ns, float)), np.log(np.asarray(err, float)), 1)[0]
 
-
-def _nearest_distance(exact, predicted):
-    exact = np.sort(exact)
-    place = np.searchsorted(exact, predicted)
-    below = exact[np.clip(place - 1, 0, exact.size - 1)]
-    above = exact[np.clip(place, 0, exact.size - 1)]
-    return np.max(np.minimum(np.abs(below - predicted), np.abs(above - predicted)))
 
 
 @pytest.fixture(scope="module")
@@ -102,7 +94,7 @@ def test_hard_edge_zeros_of_laguerre_at_orders_1_and_2():
     assert abs(_slope(ns, err[2]) + 4) < 0.15, err[2]
 
 
-def test_hard_edge_zeros_of_jacobi_at_orders_1_and_2():
+def test_hard_edge_zeros_of_jacobi_at_orders_1_and_2(jacobi_edge_offsets):
     """(1-x)^0.5 (1+x)^-0.3 on [-1, 1], degree n (scipy.special.roots_jacobi, polished with mpmath.jacobi);
     relative errors of e - x_m at both edges.  Measured (n = 14, 28, 56, 112), right edge: order 1
     7.9e-6, 1.0e-6, 1.3e-7, 1.6e-8; order 2 3.2e-7, 2.1e-8, 1.3e-9, 8.2e-11; left edge: order 2
@@ -117,11 +109,7 @@ def test_hard_edge_zeros_of_jacobi_at_orders_1_and_2():
         e = pr.g.edge_points[index]
         err = {1: [], 2: []}
         for n in ns:
-            roots = np.sort(roots_jacobi(n, alpha, beta)[0])
-            near = roots[::-1][:3] if index == 1 else roots[:3]
-            with mpmath.workdps(30):
-                exact = np.array([float(mpmath.findroot(lambda y: mpmath.jacobi(n, alpha, beta, y), mpmath.mpf(r),
-                                                        verify=False) - e) for r in near])
+            exact = jacobi_edge_offsets(n, alpha, beta, e, 3)
             for K in (1, 2):
                 z = edge_zeros(pr, index, n, 3, order=K, corrections=corrections(pr, [n], K, jump=jump))
                 assert z.verified, z.message
@@ -199,7 +187,7 @@ def test_bulk_values_of_a_quartic_field_at_orders_0_1_2():
         assert abs(_slope(ns, err[K]) + K + 1) < 0.3, (K, err[K])
 
 
-def test_bulk_zeros_of_hermite_at_orders_1_and_2(hermite):
+def test_bulk_zeros_of_hermite_at_orders_1_and_2(hermite, nearest_distance):
     """Zeros of the corrected bulk form against the roots of H_n (scipy.special.roots_hermite), scaled
     (order 0: tests/gfunction/test_predict_direct.py).  Measured (n = 100, 200, 400): order 1 3.9e-8,
     4.9e-9, 6.1e-10; order 2 1.4e-10, 9.5e-12, 5.9e-13 (slopes -3, -4)."""
@@ -211,6 +199,6 @@ def test_bulk_zeros_of_hermite_at_orders_1_and_2(hermite):
         for K in (1, 2):
             found = bulk_zeros(pr, n, K, corrections=corrections(pr, [n], K, jump=jump))
             assert found.size >= 0.7 * n
-            err[K].append(_nearest_distance(exact, found))
+            err[K].append(nearest_distance(exact, found))
     for K in (1, 2):
         assert abs(_slope(ns, err[K]) + K + 2) < 0.15, (K, err[K])

@@ -11,7 +11,7 @@ slopes are within 0.01 of the integers), so +-0.1 is a tolerance on the exponent
 import mpmath
 import numpy as np
 import pytest
-from scipy.special import roots_genlaguerre, roots_hermite, roots_jacobi
+from scipy.special import roots_genlaguerre, roots_hermite
 
 from equilibrium import Field, IntervalSet, solve
 from gfunction import predictor
@@ -92,7 +92,7 @@ def test_hard_edge_zeros_of_laguerre(laguerre):
     assert form_err[-1] < 1e-6
 
 
-def test_hard_edge_zeros_of_jacobi_at_both_edges():
+def test_hard_edge_zeros_of_jacobi_at_both_edges(jacobi_edge_offsets):
     """V = 0 on [-1, 1] with h = (1-x)^0.5 (1+x)^-0.3, degree n: the Jacobi polynomial P_n^{(0.5,-0.3)}
     (scipy.special.roots_jacobi; near the edges e -+ x_m is polished with mpmath.jacobi). Both edges
     are hard, the left one with the conjugated Bessel parametrix."""
@@ -104,11 +104,7 @@ def test_hard_edge_zeros_of_jacobi_at_both_edges():
         e = pr.g.edge_points[index]
         scaling_err, form_err = [], []
         for n in ns:
-            roots = np.sort(roots_jacobi(n, alpha, beta)[0])
-            near = roots[::-1][:3] if index == 1 else roots[:3]
-            with mpmath.workdps(30):
-                exact = np.array([float(mpmath.findroot(lambda y: mpmath.jacobi(n, alpha, beta, y), mpmath.mpf(r),
-                                                        verify=False) - e) for r in near])
+            exact = jacobi_edge_offsets(n, alpha, beta, e, 3)
             s = edge_scaling_zeros(pr, index, n, 3)
             z = edge_zeros(pr, index, n, 3)
             assert z.alpha == pytest.approx(exponent) and z.verified, z.message

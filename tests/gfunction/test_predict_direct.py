@@ -55,15 +55,7 @@ def test_error_falls_like_one_over_n(name):
     assert err[-1] < 2e-3, err
 
 
-def _nearest_distance(zeros, predicted):
-    zeros = np.sort(zeros)
-    place = np.searchsorted(zeros, predicted)
-    below = zeros[np.clip(place - 1, 0, zeros.size - 1)]
-    above = zeros[np.clip(place, 0, zeros.size - 1)]
-    return np.max(np.minimum(np.abs(below - predicted), np.abs(above - predicted)))
-
-
-def test_bulk_zeros_of_the_semicircle_against_hermite_roots():
+def test_bulk_zeros_of_the_semicircle_against_hermite_roots(nearest_distance):
     """V = x²/2: p_n for exp(-n x²/2) is the Hermite polynomial H_n(x (n/2)^{1/2}), so
     its zeros are h_j (2/n)^{1/2} with h_j the roots of H_n (scipy.special.roots_hermite).
     The zeros of the bulk form are within O(1/n²) of them (DKMVZ 1999, Theorem 1.1 at
@@ -76,7 +68,7 @@ def test_bulk_zeros_of_the_semicircle_against_hermite_roots():
         exact = roots_hermite(n)[0] * np.sqrt(2.0 / n)
         bulk = pred.bulk_zeros(n)
         assert bulk.size >= 0.7 * n  # the inner 80% of the band holds most zeros
-        errors.append(_nearest_distance(exact, bulk))
+        errors.append(nearest_distance(exact, bulk))
         quantile = pred.quantile_zeros(n)
         quantile_errors.append(np.max(np.abs(quantile - exact)[np.abs(quantile) < 1.6]))
     slope = np.polyfit(np.log([50, 100, 200, 400]), np.log(errors), 1)[0]
@@ -85,7 +77,7 @@ def test_bulk_zeros_of_the_semicircle_against_hermite_roots():
     assert min(quantile_errors) > 10 * max(errors[1:]), (quantile_errors, errors)
 
 
-def test_bulk_zeros_of_two_bands_against_direct_polynomials():
+def test_bulk_zeros_of_two_bands_against_direct_polynomials(nearest_distance):
     """Two bands, Ω irrational: the zeros of p_n computed from the weight (workbench.polynomials)
     against the zeros of the bulk form; the distance falls like 1/n² (measured n²·error
     between 1.7 and 2.8 for n = 50..400), although the counts per band move with nΩ."""
@@ -97,7 +89,7 @@ def test_bulk_zeros_of_two_bands_against_direct_polynomials():
     errors = []
     for n in (50, 100, 200, 400):
         rc = recurrence_coefficients(Weight(field, n), n, measure=mu)
-        errors.append(_nearest_distance(zeros(rc, n), pred.bulk_zeros(n)))
+        errors.append(nearest_distance(zeros(rc, n), pred.bulk_zeros(n)))
     slope = np.polyfit(np.log([50, 100, 200, 400]), np.log(errors), 1)[0]
     assert -2.4 <= slope <= -1.6, (errors, slope)
     assert max(e * n * n for e, n in zip(errors, (50, 100, 200, 400))) < 5.0, errors
