@@ -69,6 +69,10 @@ class RecurrenceCoefficients:
         node counts, ...).
     log_mass : ``log ∫ w_n`` (so that ``p_0 = exp(-log_mass/2)``).
     verified : whether every check is within tolerance.
+    a_secondary, log_mass_secondary : ``a`` and ``log_mass`` from the second
+        discretisation (``None`` when it was not run); quantities built from the
+        coefficients (Hankel determinants, norms) take their error estimates
+        from the differences.
     """
 
     a: np.ndarray
@@ -80,6 +84,8 @@ class RecurrenceCoefficients:
     checks: Mapping[str, float] = dataclass_field(default_factory=dict)
     log_mass: float = 0.0
     verified: bool = True
+    a_secondary: np.ndarray | None = None
+    log_mass_secondary: float | None = None
 
     @property
     def count(self) -> int:
@@ -101,6 +107,8 @@ class RecurrenceCoefficients:
         return RecurrenceCoefficients(
             self.a[: count + 1].copy(), self.b[: count + 1].copy(), self.n, self.error_estimate,
             self.method, self.weight_description, dict(self.checks), self.log_mass, self.verified,
+            None if self.a_secondary is None else self.a_secondary[: count + 1].copy(),
+            self.log_mass_secondary,
         )
 
 
@@ -218,9 +226,12 @@ def recurrence_coefficients(weight: Weight, count: int, *, tolerance: float = 1e
     checks: dict[str, float] = {"nodes_primary": float(first.size), "cut_level": first.level}
     error = float("nan")
     verified = True
+    a2 = None
+    log_mass2 = None
     if verify:
         second = discretise(weight, degree, SECONDARY, measure)
         a2, b2 = stieltjes(second, count)
+        log_mass2 = second.log_mass
         delta = np.maximum(np.abs(a - a2), np.abs(b - b2))
         size = np.maximum(1.0, np.maximum(np.abs(a), np.abs(b)))
         error = float(np.max(delta))
@@ -244,5 +255,5 @@ def recurrence_coefficients(weight: Weight, count: int, *, tolerance: float = 1e
         method=f"discretised Stieltjes, per-node binary scaling, {first.size} nodes "
                f"({PRIMARY.name}), checked on {int(checks.get('nodes_secondary', 0))} ({SECONDARY.name})",
         weight_description=weight.description, checks=checks, log_mass=first.log_mass,
-        verified=verified,
+        verified=verified, a_secondary=a2, log_mass_secondary=log_mass2,
     )
