@@ -23,8 +23,16 @@ from gfunction.hankel import expansion_support, hankel_expansion
 from workbench.polynomials.hankel import hankel_determinant
 from workbench.polynomials.weight import Weight, parse_factor
 
-mpmath.mp.dps = 40
-ZETA1 = mpmath.zeta(-1, derivative=1)
+
+
+@pytest.fixture(autouse=True)
+def _forty_digits():
+    # other test modules set mpmath's global precision; these references need 40 digits
+    with mpmath.workdps(40):
+        yield
+
+with mpmath.workdps(40):
+    ZETA1 = mpmath.zeta(-1, derivative=1)
 
 
 def _log_g(z):

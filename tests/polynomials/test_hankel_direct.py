@@ -22,7 +22,14 @@ from workbench.polynomials.hankel import hankel_determinant, log_det_from_coeffi
 from workbench.polynomials.recurrence import recurrence_coefficients
 from workbench.polynomials.weight import Weight, parse_factor
 
-mpmath.mp.dps = 40
+
+
+@pytest.fixture(autouse=True)
+def _forty_digits():
+    # other test modules set mpmath's global precision; these references need 40 digits
+    with mpmath.workdps(40):
+        yield
+
 ALPHA, BETA = mpmath.mpf("0.5"), mpmath.mpf("-0.3")
 
 
