@@ -18,7 +18,7 @@ edges, Fisher–Hartwig roots inside the band, W smooth there), and
 
 Where each term comes from (everything "from memory" was checked numerically
 against the direct determinants of :mod:`workbench.polynomials.hankel`; the
-tests name the figures):
+tests name the measured values):
 
 * ``-n² I_V`` -- the energy of μ_V (common practice; e.g. Johansson, Duke
   Math. J. 91 (1998) 151–204, from memory).
@@ -104,6 +104,7 @@ import numpy as np
 from equilibrium.algebraic import band_sign
 from equilibrium.chebyshev import chebyshev_fit
 from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.verification import failure_message, failure_policy, settle
 
 from .szego import _singular_on_support
 
@@ -148,9 +149,9 @@ class HankelExpansion:
     sources : for each term, where its formula comes from (and "from memory" where so).
     theta_tau : ``τ' = -τ⁻¹`` of the theta term (g × g; empty for one band).
     theta_phases : ``ε``, the masses of bands 2..k.
-    checks : verification figures: ``measure_verified``, ``band_rule_mass_error``,
+    checks : ``measure_verified`` (1 or 0), ``band_rule_mass_error``,
         ``factor_chebyshev_tail``, ``curve_quadrature_agreement``, ``theta_truncation_bound``.
-    verified : every figure within tolerance.
+    verified : every check within tolerance (``measure_verified`` must be 1).
     message : what failed.
     """
 
@@ -288,15 +289,14 @@ def hankel_expansion(measure, factors: Sequence = (), *, tolerance: float = 1e-9
     measure : the equilibrium measure of V on Σ (:func:`equilibrium.solve`).
     factors : the factors of h, objects with ``singular_points`` and
         ``log_value(x, omit)`` (the protocol of :mod:`gfunction.szego`).
-    tolerance : largest accepted verification figure.
+    tolerance : largest accepted value of the checks (other than ``measure_verified``).
     on_failure : ``"raise"`` (:class:`NumericalFailure`) or ``"mark"`` (``verified = False``).
 
     Raises
     ------
     InputError : the weight is outside the formulas (:func:`expansion_support` names why).
     """
-    if on_failure not in ("raise", "mark"):
-        raise InputError("on_failure must be 'raise' or 'mark'")
+    failure_policy(on_failure)
     factors = tuple(factors)
     reason = expansion_support(measure, factors)
     if reason is not None:
@@ -306,15 +306,10 @@ def hankel_expansion(measure, factors: Sequence = (), *, tolerance: float = 1e-9
         result = _one_band(measure, factors, checks)
     else:
         result = _several_bands(measure, factors, checks)
-    problems = [name for name, value in checks.items()
-                if (name == "measure_verified" and value != 1.0)
-                or (name != "measure_verified" and not (abs(value) <= tolerance))]
-    if problems:
-        message = "not verified: " + ", ".join(f"{name} = {checks[name]:.2e}" for name in problems)
-        if on_failure == "raise":
-            raise NumericalFailure(f"the expansion of log D_n is {message}")
-        result = replace(result, verified=False, message=message)
-    return result
+    tolerances = {name: tolerance for name in checks}
+    tolerances["measure_verified"] = 1.0
+    message = failure_message(checks, tolerances, lower=("measure_verified",), what="the expansion of log D_n")
+    return settle(replace(result, verified=not message, message=message), on_failure)
 
 
 def _one_band(measure, factors, checks) -> HankelExpansion:

@@ -34,6 +34,7 @@ COMMAND_MODULES = {
     "recurrence": "workbench.commands.recurrence",
     "zeros": "workbench.commands.zeros",
     "predict": "workbench.commands.predict",
+    "hankel": "workbench.commands.hankel",
     "run": "workbench.commands.run",
     "sweep": "workbench.commands.sweep",
     "plot": "workbench.commands.plot",

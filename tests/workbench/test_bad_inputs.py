@@ -77,6 +77,7 @@ EQ = ["equilibrium", "--out", "{out}/mu.h5"]
 REC = ["recurrence", "--n", "5", "--count", "3", "--out", "{out}/rc.h5"]
 ZER = ["zeros", "--n", "5", "--out", "{out}/z.h5"]
 PRE = ["predict", "--degrees", "10:12"]
+HAN = ["hankel", "--n", "6"]
 RUN = ["--out", "{out}/run"]
 
 #: (id, argv, fragment of the one-line message)
@@ -92,6 +93,7 @@ BAD = [
     ("recurrence_cubic", REC + ["--potential", "x**3"], "does not confine"),
     ("zeros_log", ZER + ["--potential", "log(1+x^2)"], "does not confine"),
     ("predict_cubic", PRE + ["--potential", "x**3"], "does not confine"),
+    ("hankel_cubic", HAN + ["--potential", "x**3"], "does not confine"),
     # --- fields not real or not finite on the set
     ("log_on_interval", EQ + ["--potential", "log(x)", "--on=-1:1"], "not finite"),
     ("sqrt_on_interval", EQ + ["--potential", "sqrt(x)", "--on=-1:1"], "not finite"),
@@ -130,6 +132,10 @@ BAD = [
     ("degree_past_memory", ZER + ["--potential", "x**2/2", "--degree", "1000000000"], "GB"),
     ("degree_zero", ZER + ["--potential", "x**2/2", "--degree", "0"], "--degree = 0"),
     ("tolerance_negative", REC + ["--potential", "x**2/2", "--tolerance", "-1"], "--tolerance"),
+    ("hankel_n_zero", ["hankel", "--potential", "x**2/2", "--n", "0"], "--n = 0 must be >= 1"),
+    ("hankel_n_fraction", ["hankel", "--potential", "x**2/2", "--n", "2.5"], "must be an integer"),
+    ("hankel_n_huge", ["hankel", "--potential", "x**2/2", "--n", "1000000"], "hours"),
+    ("hankel_factor", HAN + ["--on=-1:1", "--factor", "(1-x)^-1"], "exponents must exceed -1"),
     ("degrees_reversed", PRE + ["--potential", "x^2", "--degrees", "10:5"], "1 <= LO < HI"),
     ("degrees_zero", PRE + ["--potential", "x^2", "--degrees", "0:5"], "1 <= LO < HI"),
     ("degrees_text", PRE + ["--potential", "x^2", "--degrees", "a:b"], "LO:HI with integers"),
@@ -213,11 +219,11 @@ BAD = [
 #: rows that also run as a real process (at least one per subcommand)
 SUBPROCESS = [
     "cubic", "pole_on_interval", "jacobi_minus_one", "param_unused", "count_past_memory", "zeros_pole",
-    "degrees_reversed", "lambda", "run_unknown_key", "run_nonconfining", "sweep_nonconfining",
+    "degrees_reversed", "hankel_n_huge", "lambda", "run_unknown_key", "run_nonconfining", "sweep_nonconfining",
     "plot_not_hdf5", "show_folder", "demo_out_under_file",
 ]
 
-COMMANDS = ("equilibrium", "recurrence", "zeros", "predict", "run", "sweep", "plot", "show", "demo")
+COMMANDS = ("equilibrium", "recurrence", "zeros", "predict", "hankel", "run", "sweep", "plot", "show", "demo")
 
 
 def test_the_table_covers_every_command():

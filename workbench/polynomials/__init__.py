@@ -16,6 +16,7 @@ highprecision   an mpmath referee for moderate degrees
 zeros           zeros of p_K and Gauss rules
 values          scaled values of p_k, π_k; Christoffel–Darboux kernel
 cauchy          second-kind functions, Cauchy transforms, Y(z)
+hankel          Hankel determinants log D_n and partition functions log Z_n from the norms
 """
 
 from .weight import (
@@ -30,6 +31,7 @@ from .weight import (
 from .recurrence import RecurrenceCoefficients, recurrence_coefficients, estimate_memory
 from .zeros import GaussRule, gauss_rule, zeros
 from .values import ScaledValues, orthonormal_values, monic_values, weighted_values, christoffel_darboux
+from .hankel import HankelDeterminant, hankel_determinant
 from .cauchy import OrthogonalityMatrix, second_kind_values, cauchy_transform, orthogonality_matrix
 
 __all__ = [
@@ -37,5 +39,6 @@ __all__ = [
     "RecurrenceCoefficients", "recurrence_coefficients", "estimate_memory",
     "GaussRule", "gauss_rule", "zeros",
     "ScaledValues", "orthonormal_values", "monic_values", "weighted_values", "christoffel_darboux",
+    "HankelDeterminant", "hankel_determinant",
     "OrthogonalityMatrix", "second_kind_values", "cauchy_transform", "orthogonality_matrix",
 ]

@@ -50,7 +50,8 @@ from typing import Any, Callable, Mapping
 
 import numpy as np
 
-from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.errors import InputError
+from equilibrium.verification import failure_message, failure_policy, settle
 
 from .recurrence import RecurrenceCoefficients, recurrence_coefficients
 from .weight import Weight
@@ -76,7 +77,7 @@ class HankelDeterminant:
         (module docstring).
     checks : ``discretisation_bound``, ``discretisation_difference`` (``|log D_n - log D_n'|``,
         the second discretisation), ``summation_rounding``, ``relative_error_estimate``,
-        ``terms_scale`` (``Σ|t_k|``),
+        ``terms_scale`` (``Σ|t_k|``), ``error_relative_to_terms`` (the one with a tolerance),
         ``coefficients_relative_error_estimate``, ``log_mass_difference``.
     log_mass : ``log h_0 = log ∫ w_n``.
     method : how the numbers were computed.
@@ -146,8 +147,7 @@ def hankel_determinant(weight: Weight, *, tolerance: float = 1e-12, coefficient_
     -------
     HankelDeterminant
     """
-    if on_failure not in ("raise", "mark"):
-        raise InputError("on_failure must be 'raise' or 'mark'")
+    failure_policy(on_failure)
     if not (isinstance(tolerance, (int, float)) and math.isfinite(tolerance) and tolerance > 0):
         raise InputError(f"tolerance must be a positive number, got {tolerance!r}")
     n = _size_of(weight)
@@ -184,18 +184,14 @@ def hankel_determinant(weight: Weight, *, tolerance: float = 1e-12, coefficient_
         "coefficients_relative_error_estimate": float(coefficients.checks.get("relative_error_estimate", math.nan)),
         "log_mass_difference": abs(coefficients.log_mass - coefficients.log_mass_secondary),
     }
-    problems = []
+    checks["error_relative_to_terms"] = against_scale if math.isfinite(log_det) else math.nan
+    message = failure_message(checks, {"error_relative_to_terms": tolerance}, what=f"log D_{n}")
     if not coefficients.verified:
-        problems.append("the recurrence coefficients are not verified")
-    if not (math.isfinite(log_det) and against_scale <= tolerance):
-        problems.append(f"the error estimate {error:.2e} of log D_{n} is {against_scale:.1e} of the size "
-                        f"{max(1.0, abs(log_det), scale):.3g} of its terms (tolerance {tolerance:.0e})")
-    message = "; ".join(problems)
-    if problems and on_failure == "raise":
-        raise NumericalFailure(f"log D_{n} not certified: {message}")
-    return HankelDeterminant(
+        message = "; ".join(m for m in (f"log D_{n} not verified: the recurrence coefficients are not verified "
+                                        f"({coefficients.method})", message) if m)
+    return settle(HankelDeterminant(
         n=n, log_det=log_det, log_partition=math.lgamma(n + 1.0) + log_det, error_estimate=error,
-        verified=not problems, checks=checks, log_mass=coefficients.log_mass,
+        verified=not message, checks=checks, log_mass=coefficients.log_mass,
         method=f"log D_n = n log h_0 + sum 2(n-k) log a_k (compensated summation) from {coefficients.method}",
         weight_description=coefficients.weight_description, message=message,
-    )
+    ), on_failure)
