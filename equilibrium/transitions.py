@@ -98,6 +98,7 @@ def locate_transition(
     upper: float,
     on: IntervalSet | None = None,
     tolerance: float = 1e-12,
+    steps: int = 64,
 ) -> Transition:
     """Locate the parameter in [lower, upper] where the number of bands changes.
 
@@ -106,6 +107,9 @@ def locate_transition(
     family : t ↦ Field.
     lower, upper : a bracket; the solutions at both ends must differ in
         their number of bands.
+    tolerance : absolute tolerance of Brent's method on the parameter.
+    steps : continuation steps from the side with fewer bands toward the other end
+        until the margin changes sign (a bracket of one cell of a sweep grid needs few).
     """
     on = IntervalSet.real_line() if on is None else on
     if not lower < upper:
@@ -136,7 +140,8 @@ def locate_transition(
 
     m_start = margin(start)
     # march toward the other end until the margin changes sign (continuation in small steps)
-    steps = 64
+    if steps < 1:
+        raise InputError("steps must be >= 1")
     previous = start
     found = None
     for s in np.linspace(start, other, steps + 1)[1:]:

@@ -84,6 +84,30 @@ def positivity_line(mu: EquilibriumMeasure) -> str:
             "on it instead (without --signed)")
 
 
+def density_grid(mu: EquilibriumMeasure, grid_points: int = 801, end_points: int = 64) -> np.ndarray:
+    """Points of Σ for the stored density: uniform, plus ``end_points`` clustered at each band end.
+
+    Near a soft end ψ ~ |x - e|^{1/2} and near a hard end ψ ~ |x - e|^{-1/2}; a uniform
+    grid stops short of the end and a plotted curve seems to jump there.  The clustered
+    points are x = e ± w sin²(πk/(4m)) (w the band width, k = 1..m), and soft ends are
+    points of the grid themselves.
+    """
+    support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
+    lo, hi = support[0, 0], support[-1, 1]
+    pad = 0.08 * (hi - lo)
+    pieces = [np.linspace(lo - pad, hi + pad, grid_points)]
+    steps = np.sin(0.25 * np.pi * np.arange(1, end_points + 1) / end_points) ** 2
+    for (a, b), (left, right) in zip(support, mu.edges):
+        width = b - a
+        pieces += [a + 0.5 * width * steps, b - 0.5 * width * steps]
+        pieces += [np.array([e]) for e, kind in ((a, left), (b, right)) if kind == "soft"]
+    x = np.unique(np.concatenate(pieces))
+    hard = [e for (a, b), (left, right) in zip(support, mu.edges) for e, kind in ((a, left), (b, right))
+            if kind == "hard"]
+    keep = mu.on.contains(x) & ~np.isin(x, hard)
+    return x[keep]
+
+
 def measure_group(mu: EquilibriumMeasure, grid_points: int = 801) -> Group:
     """The /equilibrium group of a results file: numbers, conventions, and the density on a grid."""
     node = Group()
@@ -121,11 +145,10 @@ def measure_group(mu: EquilibriumMeasure, grid_points: int = 801) -> Group:
         np.asarray(mu.omega, dtype=float).reshape(-1),
         "filling fractions Omega_j = mu([a_{j+1}, b_k]), the mass right of gap j",
     )
-    lo, hi = support[0, 0], support[-1, 1]
-    pad = 0.08 * (hi - lo)
-    x = np.linspace(lo - pad, hi + pad, grid_points)
-    x = x[mu.on.contains(x)]
-    node.add("x", x, "grid for the density and the effective potential")
+    x = density_grid(mu, grid_points)
+    node.add("x", x, "grid for the density and the effective potential: uniform over the support "
+                     "and a margin, plus points clustered at every band end (soft ends included, "
+                     "where the density is 0; hard ends, where it is infinite, left out)")
     node.add("density", np.asarray(mu.density(x), dtype=float), "density psi(x) of mu_V on the grid x")
     node.add("distribution", np.asarray(mu.distribution(x), dtype=float), "F(x) = mu((-inf, x])")
     node.add(

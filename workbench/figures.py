@@ -6,19 +6,25 @@ Every function here takes the tree read back from an HDF5 file
 a one-band case).  Nothing here imports the numerical packages: ``workbench
 plot`` redraws every figure from a file without recomputing anything.
 
-Figures (one journal column, :mod:`workbench.style`):
+Figures (one journal column, :mod:`workbench.style`; legends under the axes, inside
+the figure; tick labels that would collide are thinned):
 
-density       equilibrium density ψ against the histogram of the zeros of p_n
-              at the largest n, normalised to density (mass 1), band by band
-coefficients  direct a_n^{(n)}, b_n^{(n)} against the model prediction over n;
-              for several bands the prediction is quasi-periodic in n
-errors        errors against n on log-log axes with the fitted slope ± its
-              standard error
-gap_zeros     position of the zero of p_n in each gap against n, direct and predicted
+density       equilibrium density ψ (lines, reaching the band ends) against the
+              histogram of the zeros of p_n at the largest n, normalised to density
+              (mass 1), one colour per band; a signed measure set aside by the run
+              is drawn dashed, negative parts included
+coefficients  direct a_n^{(n)}, b_n^{(n)} (circles) against the model prediction
+              (dots, not joined: for several bands it is quasi-periodic in n); one
+              band: direct minus model (the model is constant in n)
+errors        errors against n on log-log axes with the fitted slope ± its standard
+              error; every err_* dataset of /comparison, each in its own colour
+gap_zeros     the zero of p_n in each gap against n, direct (squares) and predicted
+              (dots) in the colour of the gap
 edge_zeros    zeros next to the rightmost soft edge in the Airy scaling
               (n^{2/3} c (x_j - b) against the Airy zeros a_j)
-phase         (sweep files) number of bands over the parameter grid with the
-              transition curves, and Ω_1 where there is a gap
+phase         (sweep files) number of bands over the parameter grid; the transition
+              curves through the located transitions of the grid edges
+              (/grid/transition_*); Ω_1 contours inside each region of one band count
 """
 
 from __future__ import annotations
@@ -29,7 +35,8 @@ from typing import Callable, Iterable
 import numpy as np
 
 from workbench.results import Group
-from workbench.style import DASHES, MARKERS, SERIES, journal_style, new_figure
+from workbench.style import (DASHES, MARKERS, SERIES, journal_style, legend_below, new_figure,
+                             set_log_axis, thin_tick_labels)
 
 __all__ = [
     "FIGURES",
@@ -43,14 +50,16 @@ __all__ = [
     "save_figure",
 ]
 
+#: short legend labels of the error quantities of /comparison, in drawing order; any other
+#: ``err_*`` dataset is drawn too, labelled by its ``label`` attribute (or its name)
 ERROR_LABELS = {
-    "err_a": r"$|a_n - a_n^{\rm model}|$",
-    "err_b": r"$|b_n - b_n^{\rm model}|$",
-    "err_values": r"values of $p_n$ (bulk)",
+    "err_a": r"$a_n$",
+    "err_b": r"$b_n$",
+    "err_values": r"$p_n$, bulk",
     "err_zeros_bulk": "zeros, bulk",
     "err_zeros_edge": "zeros, edge",
     "err_zeros_gap": "zeros, gaps",
-    "small_norm": r"$\max|TM^{-1} - I|$ on circles",
+    "small_norm": r"$|TM^{-1} - I|$",
 }
 
 
@@ -62,102 +71,190 @@ def _largest_direct(tree: Group) -> Group | None:
     return direct.groups[name]
 
 
+def _genus(tree: Group) -> int:
+    eq = tree.groups.get("equilibrium", Group())
+    return int(np.atleast_2d(eq.get("support")).shape[0]) - 1 if eq.has("support") else 0
+
+
+def _legend_below(fig, handles, labels, entries_per_row: int = 2, **kwargs):
+    """The legend under the axes, inside the figure (constrained layout makes room for it)."""
+    return legend_below(fig, handles, labels, ncol=entries_per_row, **kwargs)
+
+
+def _band_density(x: np.ndarray, psi: np.ndarray, a: float, b: float):
+    """The stored ψ on [a, b] (ends included when stored), in ascending x."""
+    mask = (x >= a) & (x <= b) & np.isfinite(psi)
+    order = np.argsort(x[mask])
+    return x[mask][order], psi[mask][order]
+
+
+def _visible_top(x: np.ndarray, psi: np.ndarray, support: np.ndarray, edges: np.ndarray) -> float:
+    """Largest ψ away from hard ends (where ψ ~ |x - e|^{-1/2} would dwarf the rest)."""
+    keep = np.isfinite(psi)
+    for (a, b), (left, right) in zip(support, edges):
+        width = b - a
+        if str(left) == "hard":
+            keep &= ~((x >= a) & (x < a + 0.03 * width))
+        if str(right) == "hard":
+            keep &= ~((x > b - 0.03 * width) & (x <= b))
+    return float(np.max(psi[keep])) if np.any(keep) else 1.0
+
+
 def draw_density(tree: Group):
-    """ψ(x) on each band against the normalised histogram of the zeros of p_n."""
+    """ψ(x) on each band (line) against the normalised histogram of the zeros of p_n (bars)."""
     eq = tree.groups.get("equilibrium")
     last = _largest_direct(tree)
     if eq is None or not eq.has("x") or last is None or not last.has("zeros"):
         return None
-    x, psi = eq.get("x"), eq.get("density")
+    x = np.asarray(eq.get("x"), dtype=float)
+    psi = np.asarray(eq.get("density"), dtype=float)
     support = np.atleast_2d(eq.get("support"))
+    edges = (np.asarray(eq.get("edges")).reshape(-1, 2) if eq.has("edges")
+             else np.full(support.shape, "soft", dtype=object))
     zeros = np.asarray(last.get("zeros"), dtype=float)
     n = int(last.attrs.get("n", zeros.size))
-    fig, axes = new_figure()
+    fig, axes = new_figure(height=2.7)
     ax = axes[0, 0]
+    handles, labels = [], []
+    top = _visible_top(x, psi, support, edges)
     for j, (a, b) in enumerate(support):
         colour = SERIES[j % len(SERIES)]
         inside = zeros[(zeros >= a) & (zeros <= b)]
         # bins of about sqrt(count) per band; heights = count / (n * width) estimate ψ
         bins = max(4, int(np.sqrt(max(inside.size, 1))) + 2)
-        counts, edges = np.histogram(inside, bins=bins, range=(a, b))
-        ax.stairs(counts / (n * np.diff(edges)), edges, fill=True, alpha=0.35, color=colour,
-                  label=f"zeros, band {j + 1}" if support.shape[0] > 1 else "zeros of $p_n$")
-        mask = (x >= a) & (x <= b)
-        ax.plot(x[mask], psi[mask], color=colour, lw=1.0)
-    ax.plot([], [], color="k", lw=1.0, label=r"$\psi(x)$")
+        counts, bin_edges = np.histogram(inside, bins=bins, range=(a, b))
+        heights = counts / (n * np.diff(bin_edges))
+        top = max(top, float(np.max(heights)) if heights.size else 0.0)
+        bars = ax.stairs(heights, bin_edges, fill=True, alpha=0.35, color=colour, lw=0)
+        xs, ys = _band_density(x, psi, a, b)
+        (line,) = ax.plot(xs, ys, color=colour, lw=1.0)
+        if support.shape[0] == 1:
+            handles += [line, bars]
+            labels += [r"$\psi(x)$", f"zeros of $p_{{{n}}}$"]
+        else:
+            handles.append((bars, line))
+            labels.append(f"band {j + 1}")
+    bottom = 0.0
+    signed = tree.groups.get("equilibrium_signed")
+    if signed is not None and signed.has("x"):
+        # the signed measure the case asked for, set aside because it is negative somewhere
+        xs_signed = np.asarray(signed.get("x"), dtype=float)
+        psi_signed = np.asarray(signed.get("density"), dtype=float)
+        (line,) = ax.plot(xs_signed, np.where(np.isfinite(psi_signed), psi_signed, np.nan), color="0.35",
+                          lw=0.8, ls=DASHES[1])
+        handles.append(line)
+        labels.append("signed measure (not the model)")
+        finite = psi_signed[np.isfinite(psi_signed)]
+        if finite.size and finite.min() < 0:
+            bottom = -0.5 * top  # ψ of the signed measure tends to -inf at a hard end
+    ax.set_ylim(bottom, 1.15 * top)
+    if bottom < 0:
+        ax.axhline(0.0, color="k", lw=0.5)
     ax.set_xlabel("$x$")
     ax.set_ylabel("density")
-    ax.set_title(f"equilibrium density and zeros, $n = {n}$")
-    ax.set_ylim(bottom=0)
-    ax.legend(loc="best")
+    ax.set_title(f"$\\psi$ (lines) and zeros (bars), $n = {n}$" if len(handles) > 2
+                 else f"equilibrium density and zeros, $n = {n}$")
+    from matplotlib.legend_handler import HandlerTuple
+
+    _legend_below(fig, handles, labels, entries_per_row=3,
+                  handler_map={tuple: HandlerTuple(ndivide=None, pad=0.0)})
     return fig
 
 
 def draw_coefficients(tree: Group):
-    """a_n^{(n)}, b_n^{(n)}: direct (markers) and model (line) against n."""
+    """a_n^{(n)}, b_n^{(n)}: direct (circles) and model (dots); one band: their difference."""
     comp = tree.groups.get("comparison")
     if comp is None or not comp.has("a_direct"):
         return None
     model = tree.groups.get("model", Group())
-    n = comp.get("n")
-    fig, axes = new_figure(height=3.0, nrows=2, sharex=True)
-    for ax, key, label in ((axes[0, 0], "a", "$a_n^{(n)}$"), (axes[1, 0], "b", "$b_n^{(n)}$")):
-        if model.has(f"{key}_dense"):
-            ax.plot(model.get("n_dense"), model.get(f"{key}_dense"), color=SERIES[0], lw=0.5,
-                    marker=".", ms=1.5, label="model problem")
-        elif comp.has(f"{key}_model"):
-            ax.plot(n, comp.get(f"{key}_model"), color=SERIES[0], lw=0.8, ls="--",
-                    label="model problem")
-        ax.plot(n, comp.get(f"{key}_direct"), ls="none", marker="o", mfc="none",
-                color=SERIES[1], label="direct")
-        ax.set_ylabel(label)
-    axes[0, 0].legend(loc="lower center", bbox_to_anchor=(0.5, 1.12), ncol=2)
+    n = np.asarray(comp.get("n"))
+    genus = _genus(tree)
+    fig, axes = new_figure(height=3.1, nrows=2, sharex=True)
+    handles, labels = {}, []
+    for ax, key, symbol in ((axes[0, 0], "a", "a"), (axes[1, 0], "b", "b")):
+        direct = np.asarray(comp.get(f"{key}_direct"), dtype=float)
+        have_model = comp.has(f"{key}_model")
+        if genus == 0 and have_model:
+            # one band: the model is (nearly) constant in n; plot what differs from it
+            difference = direct - np.asarray(comp.get(f"{key}_model"), dtype=float)
+            handles["model"] = ax.axhline(0.0, color=SERIES[0], lw=0.8, ls=DASHES[1])
+            handles["direct"], = ax.plot(n, difference, ls="none", marker="o", mfc="none", color=SERIES[1])
+            ax.set_ylabel(f"${symbol}_n - {symbol}_n^{{\\rm model}}$")
+            value = float(np.asarray(comp.get(f"{key}_model"))[-1])
+            ax.text(0.98, 0.92, f"model ${symbol} = {value:.8g}$", transform=ax.transAxes,
+                    ha="right", va="top", fontsize=7)
+            ax.ticklabel_format(axis="y", style="sci", scilimits=(-2, 3), useMathText=True, useOffset=False)
+        else:
+            if model.has(f"{key}_dense"):
+                # dots, not a line: with several bands the prediction jumps between consecutive n
+                handles["model"], = ax.plot(model.get("n_dense"), model.get(f"{key}_dense"), ls="none",
+                                            marker=".", ms=2.0, color=SERIES[0])
+            elif have_model:
+                handles["model"], = ax.plot(n, comp.get(f"{key}_model"), ls="none", marker=".", ms=3.0,
+                                            color=SERIES[0])
+            handles["direct"], = ax.plot(n, direct, ls="none", marker="o", mfc="none", color=SERIES[1])
+            ax.set_ylabel(f"${symbol}_n^{{(n)}}$")
+            ax.ticklabel_format(axis="y", useOffset=False)
     axes[1, 0].set_xlabel("$n$")
-    fig.suptitle("recurrence coefficients, direct and predicted", fontsize=9)
+    names = {"model": "model problem", "direct": "direct"}
+    _legend_below(fig, [handles[k] for k in names if k in handles], [names[k] for k in names if k in handles])
+    fig.suptitle("recurrence coefficients, direct minus predicted" if genus == 0 and comp.has("a_model")
+                 else "recurrence coefficients, direct and predicted", fontsize=9)
     return fig
 
 
 def draw_errors(tree: Group):
-    """Errors against n (log-log) with the fitted slope s ± standard error."""
+    """Errors against n (log-log) with the fitted slope s ± standard error, one marker per quantity."""
     comp = tree.groups.get("comparison")
     if comp is None or not comp.has("n"):
         return None
     n = np.asarray(comp.get("n"), dtype=float)
     rates = comp.groups.get("rates", Group())
-    fig, axes = new_figure(height=3.6)
+    fig, axes = new_figure(height=3.2)
     ax = axes[0, 0]
-    drawn = 0
-    for k, (key, label) in enumerate(ERROR_LABELS.items()):
-        if not comp.has(key):
-            continue
+    # every quantity the file has: the known ones in their order, then any other err_* (data-driven)
+    keys = [k for k in ERROR_LABELS if comp.has(k)] + sorted(
+        k for k in comp.datasets if k.startswith("err_") and k not in ERROR_LABELS)
+    handles, labels = [], []
+    drawn_n = []
+    for k, key in enumerate(keys):
+        # a quantity keeps its colour and marker from figure to figure (its place in ERROR_LABELS)
+        k = list(ERROR_LABELS).index(key) if key in ERROR_LABELS else k
         err = np.asarray(comp.get(key), dtype=float)
+        if err.shape != n.shape:
+            continue
         ok = np.isfinite(err) & (err > 0)
         if ok.sum() == 0:
             continue
         colour, marker = SERIES[k % len(SERIES)], MARKERS[k % len(MARKERS)]
-        text = label
+        text = ERROR_LABELS.get(key) or comp.datasets[key].attrs.get("label", key)
         fit = rates.groups.get(key)
         if fit is not None and np.isfinite(fit.attrs.get("slope", np.nan)):
-            s, se, c = fit.attrs["slope"], fit.attrs["stderr"], fit.attrs["intercept"]
+            s, se, c = fit.attrs["slope"], fit.attrs.get("stderr", np.nan), fit.attrs["intercept"]
             grid = np.geomspace(n[ok].min(), n[ok].max(), 20)
             ax.plot(grid, np.exp(c) * grid ** s, color=colour, lw=0.7, ls=DASHES[1])
-            text += f": slope ${s:.2f} \\pm {se:.2f}$" if np.isfinite(se) else f": slope ${s:.2f}$"
-        ax.plot(n[ok], err[ok], ls="none", marker=marker, color=colour, mfc="none", label=text)
-        drawn += 1
-    if not drawn:
+            text += f": ${s:.2f} \\pm {se:.2f}$" if np.isfinite(se) else f": ${s:.2f}$"
+        (points,) = ax.plot(n[ok], err[ok], ls="none", marker=marker, color=colour, mfc="none")
+        handles.append(points)
+        labels.append(text)
+        drawn_n.append(n[ok])
+    if not handles:
         return None
     ax.set_xscale("log")
     ax.set_yscale("log")
+    used = np.concatenate(drawn_n)
+    set_log_axis(ax.xaxis, float(used.min()), float(used.max()))
     ax.set_xlabel("$n$")
-    ax.set_ylabel("error")
-    ax.set_title("errors against $n$ with fitted rates")
-    # below the axes: the legend never hides a point
-    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.2), ncol=1, fontsize=6.5)
+    ax.set_ylabel("|direct $-$ model|")
+    ax.set_title("errors against $n$ and fitted slopes")
+    _legend_below(fig, handles, labels, entries_per_row=2 if len(labels) <= 8 else 3, fontsize=6.5,
+                  columnspacing=1.0, handletextpad=0.3)
+    thin_tick_labels(fig, ax.xaxis)
     return fig
 
 
 def draw_gap_zeros(tree: Group):
-    """The zero of p_n in each gap against n (direct markers, model line)."""
+    """The zero of p_n in each gap against n: direct (squares) and predicted (dots), one colour per gap."""
     comp = tree.groups.get("comparison")
     if comp is None or not comp.has("gap_zeros_direct"):
         return None
@@ -166,27 +263,36 @@ def draw_gap_zeros(tree: Group):
         return None
     n = comp.get("n")
     model = tree.groups.get("model", Group())
+    if model.has("gap_zeros_dense"):
+        model_n, predicted = model.get("n_dense"), np.atleast_2d(model.get("gap_zeros_dense"))
+    elif comp.has("gap_zeros_model"):
+        model_n, predicted = n, np.atleast_2d(comp.get("gap_zeros_model"))
+    else:
+        model_n, predicted = n, np.full(direct.shape, np.nan)
+    predicted = np.asarray(predicted, dtype=float)
+    if not (np.isfinite(direct).any() or np.isfinite(predicted).any()):
+        return None  # nothing to show (e.g. the model failed and no zero fell in a gap)
     eq = tree.groups.get("equilibrium", Group())
     support = np.atleast_2d(eq.get("support")) if eq.has("support") else None
-    fig, axes = new_figure(height=2.4)
+    fig, axes = new_figure(height=2.7)
     ax = axes[0, 0]
+    handles, labels = [], []
     for j in range(direct.shape[1]):
         colour = SERIES[j % len(SERIES)]
-        if model.has("gap_zeros_dense"):
+        if np.isfinite(predicted[:, j]).any():
             # dots, not a line: the zero jumps across the gap between consecutive n
-            ax.plot(model.get("n_dense"), np.atleast_2d(model.get("gap_zeros_dense"))[:, j],
-                    ls="none", marker=".", ms=2.0, color=colour, label="model" if j == 0 else None)
-        elif comp.has("gap_zeros_model"):
-            ax.plot(n, np.atleast_2d(comp.get("gap_zeros_model"))[:, j], color=colour, lw=0.8,
-                    ls="--", label="model" if j == 0 else None)
-        ax.plot(n, direct[:, j], ls="none", marker=MARKERS[(j + 1) % len(MARKERS)], mfc="none",
-                ms=5, color=SERIES[(j + 1) % len(SERIES)], label=f"gap {j + 1}, direct")
+            (dots,) = ax.plot(model_n, predicted[:, j], ls="none", marker=".", ms=2.5, color=colour)
+            handles.append(dots)
+            labels.append(f"gap {j + 1}, model")
+        (squares,) = ax.plot(n, direct[:, j], ls="none", marker="s", mfc="none", ms=4.5, color=colour)
+        handles.append(squares)
+        labels.append(f"gap {j + 1}, direct")
         if support is not None and support.shape[0] > j + 1:
             ax.axhspan(support[j, 1], support[j + 1, 0], color=colour, alpha=0.08, lw=0)
     ax.set_xlabel("$n$")
     ax.set_ylabel("zero of $p_n$ in the gap")
     ax.set_title("zeros in the gaps (no marker: no zero there)")
-    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.22), ncol=3)
+    _legend_below(fig, handles, labels)
     return fig
 
 
@@ -198,22 +304,62 @@ def draw_edge_zeros(tree: Group):
     scaled = np.atleast_2d(np.asarray(comp.get("edge_scaled_direct"), dtype=float))
     airy = np.asarray(comp.get("airy_zeros"), dtype=float)
     n = comp.get("n")
-    fig, axes = new_figure(height=2.4)
+    fig, axes = new_figure(height=2.7)
     ax = axes[0, 0]
     j = np.arange(1, airy.size + 1)
-    ax.plot(j, airy, color="k", lw=0.8, label="Airy zeros $a_j$")
+    (line,) = ax.plot(j, airy, color="k", lw=0.8)
+    handles, labels = [line], ["Airy zeros $a_j$"]
     for i in range(scaled.shape[0]):
-        ax.plot(j, scaled[i], ls="none", marker=MARKERS[i % len(MARKERS)], mfc="none",
-                color=SERIES[i % len(SERIES)], label=f"$n = {int(n[i])}$")
+        (points,) = ax.plot(j, scaled[i], ls="none", marker=MARKERS[i % len(MARKERS)], mfc="none",
+                            color=SERIES[i % len(SERIES)])
+        handles.append(points)
+        labels.append(f"$n = {int(n[i])}$")
     ax.set_xlabel("$j$ (counted from the edge)")
     ax.set_ylabel(r"$n^{2/3} c\,(x_j - b)$")
     ax.set_title("zeros at the soft edge, Airy scaling")
-    ax.legend(loc="best", ncol=2)
+    ax.xaxis.set_major_locator(__import__("matplotlib.ticker", fromlist=["MaxNLocator"]).MaxNLocator(integer=True))
+    _legend_below(fig, handles, labels, entries_per_row=4)
     return fig
 
 
+def _snap_to_transitions(line: np.ndarray, x: np.ndarray, y: np.ndarray, grid: Group, names) -> np.ndarray:
+    """Move each vertex of a band-count contour onto the located transition of its grid edge.
+
+    A contour of the integer band count at level k + 1/2 passes through grid edges only
+    (midway between two points of different counts); where the sweep located the change
+    on that edge (``transition_<name>``), the vertex moves there, so the curve runs through
+    located points instead of a staircase of midpoints.
+    """
+    out = line.copy()
+    along_x = np.asarray(grid.get(f"transition_{names[0]}"), dtype=float) if grid.has(f"transition_{names[0]}") else None
+    along_y = np.asarray(grid.get(f"transition_{names[1]}"), dtype=float) if grid.has(f"transition_{names[1]}") else None
+    tiny_x, tiny_y = 1e-9 * np.ptp(x), 1e-9 * np.ptp(y)
+    for v, (px, py) in enumerate(line):
+        j = int(np.argmin(np.abs(y - py)))
+        i = int(np.argmin(np.abs(x - px)))
+        if abs(y[j] - py) <= tiny_y and along_x is not None:  # on an edge along the first axis
+            i = int(np.clip(np.searchsorted(x, px) - 1, 0, x.size - 2))
+            if np.isfinite(along_x[i, j]):
+                out[v, 0] = along_x[i, j]
+        elif abs(x[i] - px) <= tiny_x and along_y is not None:  # on an edge along the second axis
+            j = int(np.clip(np.searchsorted(y, py) - 1, 0, y.size - 2))
+            if np.isfinite(along_y[i, j]):
+                out[v, 1] = along_y[i, j]
+    return out
+
+
+def _label_point(line: np.ndarray, x: np.ndarray, y: np.ndarray):
+    """A vertex near the middle of ``line`` and away from the frame (a contour label there is not cut)."""
+    inner = ((line[:, 0] > x.min() + 0.12 * np.ptp(x)) & (line[:, 0] < x.max() - 0.12 * np.ptp(x))
+             & (line[:, 1] > y.min() + 0.1 * np.ptp(y)) & (line[:, 1] < y.max() - 0.1 * np.ptp(y)))
+    candidates = np.nonzero(inner)[0]
+    if candidates.size == 0:
+        return None
+    return tuple(line[candidates[candidates.size // 2]])
+
+
 def draw_phase_diagram(tree: Group):
-    """Sweep file: band count over the grid (1-D: against the parameter) and Ω_1."""
+    """Sweep file: band count over the grid (1-D: against the parameter), transitions and Ω_1."""
     if tree.attrs.get("format") != "workbench-sweep" or not tree.has("grid/bands"):
         return None
     grid = tree.groups["grid"]
@@ -222,21 +368,34 @@ def draw_phase_diagram(tree: Group):
     from matplotlib.colors import BoundaryNorm, ListedColormap
 
     if bands.ndim == 1:
-        x = grid.get(f"axis_{names[0]}")
+        x = np.asarray(grid.get(f"axis_{names[0]}"), dtype=float)
         fig, axes = new_figure(height=2.8, nrows=2, sharex=True)
-        axes[0, 0].step(x, np.where(bands > 0, bands, np.nan), where="mid", color=SERIES[0])
+        axes[0, 0].plot(x, np.where(bands > 0, bands, np.nan), ls="none", marker="o", ms=2.5,
+                        color=SERIES[0])
         axes[0, 0].set_ylabel("bands")
+        axes[0, 0].yaxis.set_major_locator(__import__("matplotlib.ticker", fromlist=["x"]).MaxNLocator(integer=True))
         support = np.asarray(grid.get("support")) if grid.has("support") else np.zeros((x.size, 0, 2))
-        for j in range(support.shape[1]):
-            for e in (0, 1):
-                axes[1, 0].plot(x, support[:, j, e], color=SERIES[j % len(SERIES)], lw=0.8)
+        # band j of one band count is another interval than band j of the next: one curve per run
+        # of equal counts, never joined across a transition
+        runs = np.split(np.arange(x.size), np.nonzero(np.diff(bands))[0] + 1)
+        for run in runs:
+            for j in range(support.shape[1]):
+                for e in (0, 1):
+                    axes[1, 0].plot(x[run], support[run, j, e], color=SERIES[j % len(SERIES)], lw=0.8,
+                                    marker="." if run.size == 1 else None, ms=2.0)
+        if grid.has(f"transition_{names[0]}"):
+            located = np.asarray(grid.get(f"transition_{names[0]}"), dtype=float)
+            for value in located[np.isfinite(located)]:
+                for ax in axes[:, 0]:
+                    ax.axvline(value, color="k", lw=0.6, ls=DASHES[3])
         axes[1, 0].set_ylabel("support edges")
         axes[1, 0].set_xlabel(f"${names[0]}$")
-        axes[0, 0].set_title("phase diagram")
+        axes[0, 0].set_title("phase diagram (dotted: located transitions)")
         return fig
-    x, y = grid.get(f"axis_{names[0]}"), grid.get(f"axis_{names[1]}")
+    x = np.asarray(grid.get(f"axis_{names[0]}"), dtype=float)
+    y = np.asarray(grid.get(f"axis_{names[1]}"), dtype=float)
     top = int(max(1, bands.max()))
-    fig, axes = new_figure(height=2.8)
+    fig, axes = new_figure(height=2.9)
     ax = axes[0, 0]
     # grey: point failed or not computed (stored as -1); one Okabe-Ito colour per band count
     colours = [SERIES[(k - 1) % len(SERIES)] for k in range(1, top + 1)]
@@ -248,18 +407,33 @@ def draw_phase_diagram(tree: Group):
                          norm=BoundaryNorm(boundaries, len(colours)), shading="nearest",
                          rasterized=True)
     if bands.shape[0] > 1 and bands.shape[1] > 1 and top > 1:
-        ax.contour(x, y, bands.T.astype(float), levels=np.arange(1.5, top, 1.0), colors="k",
-                   linewidths=0.7)
+        import contourpy
+
+        counts = np.where(bands > 0, bands, np.nan).astype(float)
+        generator = contourpy.contour_generator(x, y, counts.T)
+        for level in np.arange(1.5, top, 1.0):
+            for line in generator.lines(level):
+                snapped = _snap_to_transitions(np.asarray(line), x, y, grid, names)
+                ax.plot(snapped[:, 0], snapped[:, 1], color="k", lw=0.8)
     cbar = fig.colorbar(mesh, ax=ax, ticks=list(range(1, top + 1)))
     cbar.set_label("number of bands")
     if grid.has("omega") and np.isfinite(np.asarray(grid.get("omega"), dtype=float)[..., 0]).any():
         omega = np.asarray(grid.get("omega"), dtype=float)[..., 0]
-        cs = ax.contour(x, y, omega.T, levels=[0.2, 0.4, 0.6, 0.8], colors="w", linewidths=0.5,
-                        linestyles=":")
-        ax.clabel(cs, fontsize=5.5, fmt=r"$\Omega_1=%.1f$")
+        # Ω_1 is the mass right of the first gap: a different mass for each band count, so
+        # its contours are drawn in each region of one band count and stop at its border
+        for k in range(2, top + 1):
+            region = np.where(bands == k, omega, np.nan)
+            if np.count_nonzero(np.isfinite(region)) < 4:
+                continue
+            cs = ax.contour(x, y, region.T, levels=[0.2, 0.4, 0.6, 0.8], colors="w", linewidths=0.5,
+                            linestyles=":")
+            places = [p for segs in cs.allsegs for seg in segs
+                      if (p := _label_point(np.asarray(seg), x, y)) is not None]
+            if places:
+                ax.clabel(cs, fontsize=5.5, fmt=r"$\Omega_1=%.1f$", manual=places, inline=True)
     ax.set_xlabel(f"${names[0]}$")
     ax.set_ylabel(f"${names[1]}$")
-    ax.set_title("phase diagram: bands of the equilibrium measure")
+    ax.set_title("bands of $\\mu_V$, transitions, $\\Omega_1$")
     return fig
 
 

@@ -19,6 +19,7 @@ globally.
 from __future__ import annotations
 
 import contextlib
+import math
 from typing import Iterator
 
 #: Okabe & Ito (2008) palette, in their order (black first)
@@ -90,3 +91,118 @@ def new_figure(height: float = DEFAULT_HEIGHT_IN, ncols: int = 1, nrows: int = 1
     fig = Figure(figsize=(COLUMN_WIDTH_IN, height), layout="constrained")
     axes = fig.subplots(nrows, ncols, squeeze=False, **kwargs)
     return fig, axes
+
+
+# --------------------------------------------------------------------------- axes helpers
+def _plain_number(value: float) -> str:
+    """A tick label without offset or exponent notation for the sizes we plot (n up to 10⁵)."""
+    if value >= 1e5:
+        exponent = int(round(math.log10(value)))
+        mantissa = value / 10.0 ** exponent
+        return f"$10^{{{exponent}}}$" if abs(mantissa - 1) < 1e-9 else f"${mantissa:g}\\times 10^{{{exponent}}}$"
+    return f"{value:g}"
+
+
+def log_ticks(lo: float, hi: float) -> list[float]:
+    """Tick positions for a logarithmic axis over [lo, hi]: 1-2-5 per decade, finer when the
+    range is short, and at least two (common practice of journal figures)."""
+    if not (lo > 0 and hi >= lo):
+        return []
+    for mantissas in ((1.0,), (1.0, 2.0, 5.0), (1.0, 1.5, 2.0, 3.0, 4.0, 5.0, 6.0, 8.0)):
+        ticks = [m * 10.0 ** e for e in range(int(math.floor(math.log10(lo))) - 1, int(math.ceil(math.log10(hi))) + 1)
+                 for m in mantissas]
+        ticks = [t for t in ticks if lo * (1 - 1e-9) <= t <= hi * (1 + 1e-9)]
+        if len(ticks) >= 3 or (len(ticks) >= 2 and mantissas != (1.0,)):
+            return ticks
+    # a range shorter than the finest mantissas: evenly spaced round numbers
+    from matplotlib.ticker import MaxNLocator
+
+    values = MaxNLocator(nbins=3, steps=[1, 2, 2.5, 5, 10]).tick_values(lo, hi)
+    return [float(t) for t in values if lo * (1 - 1e-9) <= t <= hi * (1 + 1e-9)]
+
+
+def set_log_axis(axis, lo: float, hi: float) -> None:
+    """A log axis whose major ticks are plain numbers (``50, 100, 200``), minor ones unlabelled."""
+    from matplotlib.ticker import FixedLocator, FuncFormatter, NullFormatter
+
+    ticks = log_ticks(lo, hi)
+    axis.set_major_locator(FixedLocator(ticks))
+    axis.set_major_formatter(FuncFormatter(lambda v, _: _plain_number(v)))
+    axis.set_minor_formatter(NullFormatter())
+
+
+def overlapping_labels(fig, axis) -> list[tuple[str, str]]:
+    """Pairs of visible tick labels of ``axis`` whose boxes overlap once ``fig`` is drawn."""
+    renderer = _renderer(fig)
+    labels = _shown_tick_labels(axis)
+    boxes = [t.get_window_extent(renderer) for t in labels]
+    return [(labels[i].get_text(), labels[j].get_text())
+            for i in range(len(boxes)) for j in range(i + 1, len(boxes)) if boxes[i].overlaps(boxes[j])]
+
+
+def thin_tick_labels(fig, axis) -> None:
+    """Keep every second, third, ... major tick label until no two of them overlap."""
+    ticks = list(axis.get_majorticklocs())
+    for keep in range(2, max(len(ticks), 2) + 1):
+        if not overlapping_labels(fig, axis):
+            return
+        from matplotlib.ticker import FixedLocator
+
+        axis.set_major_locator(FixedLocator(ticks[::keep]))
+
+
+def _renderer(fig):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
+    canvas.draw()
+    return canvas.get_renderer()
+
+
+def legend_below(fig, handles, labels, ncol: int = 2, **kwargs):
+    """A legend under the axes, inside the figure: fewer columns until it is no wider than the figure."""
+    ncol = max(1, min(ncol, len(labels)))
+    while True:
+        legend = fig.legend(handles, labels, loc="outside lower center", ncol=ncol, **kwargs)
+        if ncol == 1:
+            return legend
+        width = legend.get_window_extent(_renderer(fig)).width
+        if width <= fig.bbox.width * 0.98:
+            return legend
+        legend.remove()
+        ncol -= 1
+
+
+def _shown_tick_labels(axis) -> list:
+    """Tick labels matplotlib draws: visible, with text, at a tick inside the view limits."""
+    lo, hi = sorted(axis.get_view_interval())
+    span = hi - lo
+    out = []
+    for tick in axis.get_major_ticks() + axis.get_minor_ticks():
+        inside = lo - 1e-9 * span <= tick.get_loc() <= hi + 1e-9 * span
+        for label in (tick.label1, tick.label2):
+            if inside and label.get_visible() and label.get_text():
+                out.append(label)
+    return out
+
+
+def clipped_artists(fig) -> list[str]:
+    """Texts and legends of ``fig`` that reach outside the figure once drawn (empty: nothing is cut)."""
+    renderer = _renderer(fig)
+    box = fig.bbox
+    out = []
+    candidates = list(fig.legends) + list(fig.texts)
+    for ax in fig.axes:
+        candidates += [ax.title, ax._left_title, ax._right_title, ax.xaxis.label, ax.yaxis.label]
+        candidates += _shown_tick_labels(ax.xaxis) + _shown_tick_labels(ax.yaxis)
+        candidates += list(ax.texts) + ([ax.get_legend()] if ax.get_legend() else [])
+    for artist in candidates:
+        if not artist.get_visible() or (hasattr(artist, "get_text") and not artist.get_text()):
+            continue
+        extent = artist.get_window_extent(renderer)
+        if extent.width == 0 and extent.height == 0:
+            continue
+        if (extent.x0 < box.x0 - 0.5 or extent.x1 > box.x1 + 0.5 or extent.y0 < box.y0 - 0.5
+                or extent.y1 > box.y1 + 0.5):
+            out.append(artist.get_text() if hasattr(artist, "get_text") else type(artist).__name__)
+    return out

@@ -478,6 +478,85 @@ def assemble(results: Mapping[int, Mapping[str, Any]], shape: tuple[int, ...]) -
     }
 
 
+# ---------------------------------------------------------------- transition curves
+def transition_edges(bands: np.ndarray) -> list[tuple[int, tuple[int, ...]]]:
+    """Grid edges across which the number of bands changes: ``(axis, index of the lower end)``.
+
+    Both ends must have a result (band count >= 1).  The order is deterministic (axis
+    first, then C order), so a journal of located transitions can be matched to it.
+    """
+    edges = []
+    for axis in range(bands.ndim):
+        lower = np.moveaxis(bands, axis, 0)[:-1]
+        upper = np.moveaxis(bands, axis, 0)[1:]
+        crossing = (lower >= 1) & (upper >= 1) & (lower != upper)
+        for index in zip(*np.nonzero(np.moveaxis(crossing, 0, axis))):
+            edges.append((axis, tuple(int(i) for i in index)))
+    return edges
+
+
+def transition_point(payload: Mapping[str, Any], task: Mapping[str, Any]) -> dict[str, Any]:
+    """Locate the transition on one grid edge (:func:`equilibrium.transitions.locate_transition`).
+
+    ``task`` holds the varying parameter (``name``, ``lower``, ``upper``) and the fixed
+    values of the others (``fixed``).  A bracket of one grid cell needs few continuation
+    steps; the parameter is located to 1e-9 of the cell.
+    """
+    from equilibrium.transitions import locate_transition
+
+    on = _interval_set(tuple(tuple(p) for p in payload["intervals"]))
+
+    def family(value: float):
+        values = dict(payload["parameters"])
+        values.update(task["fixed"])
+        values[task["name"]] = float(value)
+        return _fast_field(payload, values)
+
+    lower, upper = float(task["lower"]), float(task["upper"])
+    found = locate_transition(family, lower, upper, on=on, tolerance=1e-9 * (upper - lower), steps=2)
+    return {"edge": task["edge"], "parameter": found.parameter, "bands_before": found.bands_before,
+            "bands_after": found.bands_after, "kind": found.kind, "evaluations": found.evaluations}
+
+
+def locate_transitions(case, axes, bands: np.ndarray, directory: Path, *, workers=None, scheduler=None,
+                       retries: int = 2, progress: bool = True) -> tuple[dict[str, np.ndarray], dict[str, int]]:
+    """Transition parameters on every grid edge where the band count changes (journalled, resumable).
+
+    Returns one array per axis, ``transition_<name>`` (the axis one shorter, NaN where the
+    count does not change or the location failed), and the counts located / failed.
+    """
+    edges = transition_edges(bands)
+    names = [name for name, _ in axes]
+    tasks = []
+    for axis, index in edges:
+        name, values = axes[axis]
+        fixed = {names[k]: float(axes[k][1][index[k]]) for k in range(len(axes)) if k != axis}
+        tasks.append({"edge": [axis, *index], "name": name, "lower": float(values[index[axis]]),
+                      "upper": float(values[index[axis] + 1]), "fixed": fixed})
+    journal = Journal(directory / "transitions.jsonl", case.digest)
+    # a journal written for another edge list (the grid was recomputed) is not mixed in
+    if any(journal.results.get(i, {}).get("edge", task["edge"]) != task["edge"]
+           for i, task in enumerate(tasks)):
+        journal.path.unlink()
+        journal = Journal(directory / "transitions.jsonl", case.digest)
+    outcome = run_points(tasks, functools.partial(transition_point, field_payload(case)), journal,
+                         workers=workers, scheduler=scheduler, retries=retries, progress=progress,
+                         description=f"{case.name}: transitions")
+    located = {}
+    for axis, (name, _) in enumerate(axes):
+        shape = list(bands.shape)
+        shape[axis] -= 1
+        located[name] = np.full(shape, np.nan)
+    failed = 0
+    for i, (axis, index) in enumerate(edges):
+        result = outcome.results.get(i, {})
+        if "parameter" in result:
+            located[axes[axis][0]][index] = float(result["parameter"])
+        else:
+            failed += 1
+    return located, {"edges": len(edges), "located": len(edges) - failed, "failed": failed}
+
+
 # ---------------------------------------------------------------- sweep of a case
 def _fast_field(payload: Mapping[str, Any], values: Mapping[str, float]):
     """Field of the payload's expression at ``values``.
@@ -594,6 +673,7 @@ def sweep_case(case, out: str | os.PathLike[str] | None = None, *, workers: int 
     make_output_directory(directory)
     remove_stale_temporaries(directory)
     points = grid_points(axes)
+    custom_function = function is not None
     if function is None:
         function = functools.partial(equilibrium_point_fast, field_payload(case))
     journal = Journal(directory / "points.jsonl", case.digest)
@@ -632,6 +712,21 @@ def sweep_case(case, out: str | os.PathLike[str] | None = None, *, workers: int 
     grid.add("positive", grids["positive"], "density >= 0 on every band (false: a signed measure "
                                             "negative somewhere, no model of orthogonal polynomials)")
     grid.add("errors", grids["errors"], "error message of a failed point ('' when fine)")
+    if not case.set.signed and not custom_function:
+        # the band count changes between grid points: locate each change on its grid edge, so
+        # the phase diagram draws the transition curves through located points, not the grid
+        t = time.perf_counter()
+        located, counts = locate_transitions(case, axes, grids["bands"], directory, workers=workers,
+                                             scheduler=scheduler, retries=retries, progress=progress)
+        for name, values in located.items():
+            grid.add(f"transition_{name}", values,
+                     f"parameter {name} where the number of bands changes between neighbouring grid "
+                     f"points along axis {name} (equilibrium.transitions.locate_transition; "
+                     "NaN: no change there, or not located)")
+        grid.attrs.update({"transition_edges": counts["edges"], "transitions_located": counts["located"],
+                           "transitions_failed": counts["failed"]})
+        tree.attrs["timings_s"] = json.dumps({"sweep": round(outcome.seconds, 4),
+                                              "transitions": round(time.perf_counter() - t, 4)})
     draw = case.figures.enabled if draw is None else draw
     figure_files: dict[str, list[Path]] = {}
     if draw:

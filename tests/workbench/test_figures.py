@@ -154,3 +154,217 @@ def test_one_dimensional_phase_diagram(tmp_path):
     grid.add("support", support, "support")
     written = draw_all(tree, tmp_path, formats=("png",), dpi=100)
     assert list(written) == ["phase"] and written["phase"][0].stat().st_size > 1000
+
+
+# ------------------------------------------------------------- as a referee reads them
+from workbench.figures import draw_coefficients, draw_errors, draw_gap_zeros, draw_phase_diagram  # noqa: E402
+from matplotlib.contour import ContourSet  # noqa: E402
+
+from workbench.style import clipped_artists, journal_style, overlapping_labels  # noqa: E402
+
+
+def _errors_tree(ns) -> Group:
+    """Every error quantity of a run at the given n, as C n^s (slopes of the common rates)."""
+    tree = semicircle_tree(ns=(20,))
+    comp = tree.groups["comparison"] = Group()
+    ns = np.asarray(ns)
+    comp.add("n", ns, "n")
+    rates = comp.group("rates")
+    for k, (key, slope) in enumerate([("err_a", -2), ("err_b", -1), ("err_values", -1), ("err_zeros_bulk", -2),
+                                      ("err_zeros_edge", -1), ("err_zeros_gap", -2), ("small_norm", -1)]):
+        comp.add(key, 10.0 ** (-k) * ns ** float(slope), key)
+        rates.group(key).attrs.update({"slope": float(slope), "stderr": 0.01, "intercept": -k * np.log(10)})
+    return tree
+
+
+def _drawn(draw, tree):
+    with journal_style():
+        return draw(tree)
+
+
+def test_errors_tick_labels_never_collide():
+    # 60 ... 800 used to print "6x10^1 10^2 2x10^2 3x10^2 4x10^2 ..." on top of each other
+    for lo, hi in [(60, 800), (40, 640), (40, 320), (16, 32), (100, 120), (20, 28), (1000, 10000), (50, 5000)]:
+        fig = _drawn(draw_errors, _errors_tree(np.unique(np.geomspace(lo, hi, 7).round().astype(int))))
+        axis = fig.axes[0].xaxis
+        labels = [t.get_text() for t in axis.get_ticklabels() if t.get_visible() and t.get_text()]
+        assert len(labels) >= 2, (lo, hi, labels)
+        assert overlapping_labels(fig, axis) == [], (lo, hi)
+        assert all("times" not in t for t in labels), labels  # plain numbers at these sizes
+        assert clipped_artists(fig) == [], (lo, hi)
+
+
+def test_errors_legend_is_compact():
+    fig = _drawn(draw_errors, _errors_tree([60, 120, 240, 480, 800]))
+    legend = fig.legends[0]
+    assert len(legend.get_texts()) == 7
+    height = legend.get_window_extent(fig.canvas.get_renderer()).height
+    assert height < 0.3 * fig.bbox.height  # it took more than a third before
+
+
+def test_density_reaches_soft_edges_and_legend_colours():
+    from equilibrium import Field, IntervalSet, solve
+    from workbench.equilibrium_io import measure_group
+    from matplotlib.colors import to_rgb
+
+    tree = semicircle_tree(ns=(200,))
+    # two soft-edged bands (the symmetric quartic x^4/4 - 3x^2/2: bands [-√5, -1] ∪ [1, √5])
+    mu = solve(Field.from_expression("x**4/4 - 3*x**2/2"))
+    tree.groups["equilibrium"] = measure_group(mu)
+    fig = _drawn(draw_density, tree)
+    ax = fig.axes[0]
+    lines = [line for line in ax.lines if len(line.get_xdata()) > 10]
+    assert len(lines) == 2
+    for line, (a, b) in zip(lines, mu.support):
+        xs, ys = np.asarray(line.get_xdata()), np.asarray(line.get_ydata())
+        assert xs[0] == a and xs[-1] == b  # the curve reaches both soft ends ...
+        assert ys[0] == 0.0 and ys[-1] == 0.0  # ... where the density is 0 (no jump)
+    # legend: one entry per band, showing its bars and its line in the band's colour
+    legend = fig.legends[0]
+    assert [t.get_text() for t in legend.get_texts()] == ["band 1", "band 2"]
+    for line, bars in zip(lines, ax.patches):
+        assert to_rgb(bars.get_facecolor()[:3]) == to_rgb(line.get_color())
+    assert len({to_rgb(line.get_color()) for line in lines}) == 2
+    assert clipped_artists(fig) == []
+
+
+def test_density_near_a_hard_edge():
+    from equilibrium import Field, IntervalSet, solve
+    from workbench.equilibrium_io import measure_group
+
+    tree = semicircle_tree(ns=(80,))
+    mu = solve(Field.from_expression("3*x"), IntervalSet.parse("-1:1"))  # hard edge at -1, soft at 1/3
+    tree.groups["equilibrium"] = measure_group(mu)
+    fig = _drawn(draw_density, tree)
+    (line,) = [line for line in fig.axes[0].lines if len(line.get_xdata()) > 10]
+    xs = np.asarray(line.get_xdata())
+    assert xs[0] - (-1.0) < 1e-3 * 2 and xs[-1] == mu.support[0][1]
+    top = fig.axes[0].get_ylim()[1]
+    assert top < 10  # the hard-edge singularity does not squash the rest of the curve
+
+
+def test_signed_density_is_not_clipped_at_zero():
+    from equilibrium import Field, IntervalSet, solve, solve_signed
+    from workbench.equilibrium_io import measure_group
+
+    tree = semicircle_tree(ns=(80,))
+    field, on = Field.from_expression("2*x**2 - x"), IntervalSet.parse("-1:0.3,0.35:1")
+    tree.groups["equilibrium"] = measure_group(solve(field, on))
+    tree.groups["equilibrium_signed"] = measure_group(solve_signed(field, on))
+    fig = _drawn(draw_density, tree)
+    assert fig.axes[0].get_ylim()[0] < 0
+    assert "signed measure (not the model)" in [t.get_text() for t in fig.legends[0].get_texts()]
+    assert clipped_artists(fig) == []
+
+
+def _gap_tree(genus=2, ns=(40, 57, 80)) -> Group:
+    tree = semicircle_tree(ns=(20,))
+    tree.groups["equilibrium"].datasets["support"].data = np.array([[-3.0, -2.0], [-1.0, 1.0], [2.0, 3.0]])[:genus + 1]
+    comp = tree.groups["comparison"]
+    ns = np.asarray(ns)
+    comp.datasets["n"].data = ns
+    direct = np.array([[-1.5 + 0.1 * i, 1.5 - 0.1 * i] for i in range(ns.size)])[:, :genus]
+    direct[1, 0] = np.nan  # no zero in gap 1 at the second n
+    comp.add("gap_zeros_direct", direct, "direct")
+    comp.add("gap_zeros_model", direct + 1e-3, "model")
+    for key in ("a_direct", "a_model", "b_direct", "b_model"):
+        comp.add(key, np.linspace(0.5, 1.5, ns.size), key)
+    return tree
+
+
+def test_gap_zeros_legend_colours_match_the_gaps():
+    from matplotlib.colors import to_rgb
+
+    fig = _drawn(draw_gap_zeros, _gap_tree())
+    ax = fig.axes[0]
+    legend = fig.legends[0]
+    labels = [t.get_text() for t in legend.get_texts()]
+    assert labels == ["gap 1, model", "gap 1, direct", "gap 2, model", "gap 2, direct"]
+    colours = [to_rgb(h.get_color()) for h in legend.legend_handles]
+    assert colours[0] == colours[1] != colours[2] == colours[3]  # one colour per gap
+    # ... and it is the colour of that gap's marks and of its shading
+    marks = [to_rgb(line.get_color()) for line in ax.lines]
+    assert marks == colours
+    shades = [to_rgb(p.get_facecolor()[:3]) for p in ax.patches]
+    assert shades == [colours[0], colours[2]]
+
+
+def test_no_empty_gap_figure_for_a_failed_model():
+    tree = _gap_tree()
+    comp = tree.groups["comparison"]
+    del comp.datasets["gap_zeros_model"]
+    comp.datasets["gap_zeros_direct"].data = np.full((3, 2), np.nan)
+    assert draw_gap_zeros(tree) is None
+
+
+def test_coefficients_one_band_plots_the_difference_without_offset():
+    tree = semicircle_tree()
+    comp = tree.groups["comparison"]
+    comp.datasets["a_direct"].data = 0.8394 + np.array([1.8e-5, 1.0e-5, 0.8e-5])
+    comp.datasets["a_model"].data = np.full(3, 0.8394)
+    fig = _drawn(draw_coefficients, tree)
+    fig.canvas.draw()
+    for ax in fig.axes:
+        assert "+" not in ax.yaxis.get_offset_text().get_text()  # "1e-5+8.394e-1" was unreadable
+    # the top panel shows direct - model
+    (points,) = [line for line in fig.axes[0].lines if line.get_marker() == "o"]
+    np.testing.assert_allclose(points.get_ydata(), [1.8e-5, 1.0e-5, 0.8e-5], rtol=1e-9)
+    assert clipped_artists(fig) == []
+
+
+def test_coefficients_several_bands_are_not_joined():
+    tree = _gap_tree()
+    model = tree.group("model")
+    dense = np.arange(40, 81)
+    model.add("n_dense", dense, "n")
+    model.add("a_dense", 1 + 0.5 * np.sin(2.4 * dense), "a")
+    model.add("b_dense", 0.5 * np.cos(1.7 * dense), "b")
+    fig = _drawn(draw_coefficients, tree)
+    for ax in fig.axes:
+        for line in ax.lines:
+            assert line.get_linestyle() == "None"  # model dots and direct circles: no zigzag
+
+
+def test_phase_diagram_draws_located_transitions_and_keeps_text_inside():
+    tree = sweep_tree()
+    grid = tree.groups["grid"]
+    t, s = grid.get("axis_t"), grid.get("axis_s")
+    bands = np.asarray(grid.get("bands"))
+    # the transition t* = 2 + s located on every edge along t where the count changes
+    located = np.full((t.size - 1, s.size), np.nan)
+    for i in range(t.size - 1):
+        for j in range(s.size):
+            if bands[i, j] >= 1 and bands[i + 1, j] >= 1 and bands[i, j] != bands[i + 1, j]:
+                located[i, j] = 2 + s[j]
+    grid.add("transition_t", located, "t*")
+    grid.add("transition_s", np.full((t.size, s.size - 1), np.nan), "s*")
+    fig = _drawn(draw_phase_diagram, tree)
+    ax = fig.axes[0]
+    curves = [line for line in ax.lines if line.get_color() in ("k", "black", (0, 0, 0, 1))]
+    assert curves
+    for line in curves:
+        xs, ys = np.asarray(line.get_xdata()), np.asarray(line.get_ydata())
+        on_grid = np.isin(ys, s)
+        # every vertex on an edge along t sits at the located t*, not midway between grid points
+        np.testing.assert_allclose(xs[on_grid], 2 + ys[on_grid], atol=1e-12)
+    assert clipped_artists(fig) == []
+
+
+def test_phase_omega_contours_stay_in_their_region():
+    tree = sweep_tree(nt=20, ns=12)
+    grid = tree.groups["grid"]
+    t, s = grid.get("axis_t"), grid.get("axis_s")
+    bands = np.where(t[:, None] < 1, 1, np.where(t[:, None] < 2, 2, 3)) + 0 * s[None, :]
+    grid.datasets["bands"].data = bands
+    # Omega_1 continuous across t = 2 in value, but a different mass on each side
+    grid.datasets["omega"].data = np.where(bands > 1, 0.1 + 0.25 * t[:, None] + 0 * s[None, :], np.nan)[..., None]
+    fig = _drawn(draw_phase_diagram, tree)
+    ax = fig.axes[0]
+    paths = [path for collection in ax.collections if isinstance(collection, ContourSet)
+             for path in collection.get_paths() if path.vertices.size]
+    assert paths
+    for path in paths:
+        nearest = np.abs(path.vertices[:, 0][:, None] - t[None, :]).argmin(axis=1)
+        # a contour of Omega_1 lies in one region of one band count, never across a border
+        assert len(set(bands[nearest, 0])) == 1
+    assert clipped_artists(fig) == []

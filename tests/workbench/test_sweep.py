@@ -199,3 +199,31 @@ def test_dask_worker_restart_is_counted(tmp_path):
     assert (tmp_path / "died-once").exists()  # the worker really died
     assert outcome.complete and outcome.failed == 0
     assert outcome.retried >= 2  # at least the chunk of two points that was running
+
+
+def test_transitions_are_located_on_the_grid_edges(tmp_path):
+    # x^4/4 - t x^2/2 + s x at s = 0: the one-band density (x^2 + b^2/2 - t) sqrt(b^2 - x^2)/(2 pi)
+    # with 3 b^4/16 - t b^2/4 = 1 (normalisation, derived by hand) vanishes at x = 0 when
+    # b^2 = 2t, i.e. t = 2 (common practice; the symmetric quartic splits at t = 2).
+    from workbench.case import load_case, shipped_case
+    from workbench.results import read_run
+    from workbench.sweep import sweep_case, transition_edges
+
+    case = load_case(shipped_case("sweep_quartic"), reduced=True)
+    result = sweep_case(case, tmp_path / "out", workers=1, progress=False, draw=False)
+    grid = read_run(result.path).groups["grid"]
+    bands = np.asarray(grid.get("bands"))
+    located = np.asarray(grid.get("transition_t"))
+    assert located.shape == (bands.shape[0] - 1, bands.shape[1])
+    edges = transition_edges(bands)
+    assert grid.attrs["transitions_located"] == len(edges) > 0 and grid.attrs["transitions_failed"] == 0
+    s = np.asarray(grid.get("axis_s"))
+    (i,) = np.nonzero(np.isfinite(located[:, 0]))
+    assert s[0] == 0.0 and abs(located[i[0], 0] - 2.0) < 1e-8
+    t = np.asarray(grid.get("axis_t"))
+    finite = np.isfinite(located)
+    rows = np.nonzero(finite)[0]
+    assert np.all(t[rows] < located[finite]) and np.all(located[finite] < t[rows + 1])  # inside its edge
+    # resumable: a second call takes every located transition from the journal
+    again = sweep_case(case, tmp_path / "out", workers=1, progress=False, draw=False)
+    np.testing.assert_array_equal(np.asarray(read_run(again.path).groups["grid"].get("transition_t")), located)

@@ -135,8 +135,14 @@ def _sweep_lines(tree) -> list[str]:
     values, counts = np.unique(bands, return_counts=True)
     parts = [f"{'failed' if v < 0 else f'{v} band(s)'}: {c}" for v, c in zip(values, counts)]
     lines.append(f"  {bands.size} points; " + ", ".join(parts))
+    if "transition_edges" in grid.attrs:
+        lines.append(f"  transitions located on {grid.attrs.get('transitions_located')} of "
+                     f"{grid.attrs.get('transition_edges')} grid edges where the number of bands changes"
+                     + (f" ({grid.attrs['transitions_failed']} not located: drawn midway)"
+                        if grid.attrs.get("transitions_failed") else ""))
     timings = json.loads(tree.attrs.get("timings_s", "{}") or "{}")
     if timings:
         lines.append(f"  sweep time {timings.get('sweep', float('nan')):.1f} s "
-                     f"({tree.attrs.get('executor', '')})")
+                     f"({tree.attrs.get('executor', '')})"
+                     + (f", transitions {timings['transitions']:.1f} s" if "transitions" in timings else ""))
     return lines
