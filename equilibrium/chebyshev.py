@@ -136,7 +136,8 @@ def chebyshev_fit(
         if np.any(bad):
             where = x[np.argmax(bad)]
             raise InputError(
-                f"{name} is not finite at x = {where:.6g}; the field must be finite on the set (restrict the set with --on)"
+                f"{name} is not finite at x = {where:.6g}; the field must be finite on the set (restrict the set)",
+                about="set",
             )
         return values
 

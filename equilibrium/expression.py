@@ -320,7 +320,7 @@ _REFUSED = {
     "]": "brackets '[ ]' are not allowed (no lists or subscripts); use ( ) for grouping",
     "{": "braces '{ }' are not allowed; use ( ) for grouping",
     "}": "braces '{ }' are not allowed; use ( ) for grouping",
-    "=": "'=' is not allowed: give only the expression (e.g. x**2/2) and parameter values with --param NAME=VALUE",
+    "=": "'=' is not allowed: give only the expression (e.g. x**2/2); parameter values are given apart from it",
     ";": "';' is not allowed: give a single expression",
     "\\": "backslashes are not allowed",
     "%": "'%' is not allowed; the operators are + - * / ** ^",
@@ -599,9 +599,9 @@ class _Parser:
             raise ExpressionError(f"'{name}' {where} is not allowed: constants must be finite real numbers")
         if name in ("e", "E"):
             raise ExpressionError(f"unknown name '{name}' {where}; write exp(1) for Euler's number, or give "
-                                  f"a parameter with --param {name}=VALUE")
+                                  f"a value for the parameter {name}", about="parameter", name=name)
         raise ExpressionError(f"unknown name '{name}' {where}; allowed are {self._allowed_names()}; if "
-                              f"'{name}' is a parameter, give it with --param {name}=VALUE")
+                              f"'{name}' is a parameter, give its value", about="parameter", name=name)
 
     def _function(self, token: _Token) -> str:
         name, where = token.text, f"at column {token.column}"
@@ -1063,8 +1063,8 @@ def parse_expression(text: str, parameters: Mapping[str, float] | None = None,
         real = isinstance(value, (int, float, np.integer, np.floating)) and not isinstance(value, (bool, np.bool_))
         if not real or not math.isfinite(float(value)):
             shown = repr(float(value)) if real else f"a {type(value).__name__}"
-            raise ExpressionError(f"parameter {name} is {shown}; give a finite real number, e.g. "
-                                  f"--param {name}=1.5")
+            raise ExpressionError(f"parameter {name} is {shown}; give a finite real number, e.g. {name} = 1.5",
+                                  about="parameter", name=name)
         values[name] = float(value)
     if not isinstance(text, str):
         raise ExpressionError(f"an expression must be text, got {type(text).__name__}")

@@ -82,6 +82,7 @@ from .quadrature import (
     theta_of_x,
 )
 from .sets import IntervalSet
+from .verification import failure_message
 
 #: checks above these thresholds make a result unverified
 TOLERANCES = {
@@ -93,6 +94,9 @@ TOLERANCES = {
     "field_approximation": 1e-8,
     "discretisation_agreement": 1e-9,
 }
+
+#: the figures of TOLERANCES that are lower bounds (margins)
+LOWER_BOUNDS = ("density_margin", "min_effective_potential")
 
 #: a margin below this (relative) marks the measure as singular rather than regular
 SINGULAR_THRESHOLD = 1e-7
@@ -608,25 +612,14 @@ def build_measure(
     if extra_checks:
         checks.update(extra_checks)
 
-    failed = [name for name, value in checks.items() if _fails(name, value)]
+    failed = failure_message(checks, TOLERANCES, LOWER_BOUNDS)
     verified = not failed
     if failed:
-        message = (message + "; " if message else "") + "unverified: " + ", ".join(
-            f"{name} = {checks[name]:.3g}" for name in failed
-        )
+        message = (message + "; " if message else "") + failed
     classification = Classification(not singularities, tuple(singularities))
     return replace(
         provisional, verified=verified, checks=checks, classification=classification, message=message
     )
-
-
-def _fails(name: str, value: float) -> bool:
-    if name not in TOLERANCES or not math.isfinite(value) and name != "min_effective_potential":
-        return not math.isfinite(value)
-    bound = TOLERANCES[name]
-    if name in ("density_margin", "min_effective_potential"):
-        return not value >= bound
-    return not value <= bound
 
 
 class _Pieces:

@@ -45,6 +45,7 @@ from .algebraic import (
 )
 from .chebyshev import COLLEAGUE_MAX, real_roots
 from .errors import InputError, NumericalFailure
+from .verification import failure_policy, settle
 from .field import Field
 from .measure import EquilibriumMeasure, band_masses, build_measure
 from .sets import IntervalSet
@@ -56,7 +57,8 @@ MAX_SEARCH_BANDS = 12
 # ============================================================== validation
 def _check_field_on(field: Field, on: IntervalSet) -> None:
     if field.is_zero and not on.is_compact:
-        raise InputError("V = 0 needs a compact set; give --on=a:b (or a union a:b,c:d) or a confining potential")
+        raise InputError("V = 0 needs a compact set; give a bounded set a:b (or a union a:b,c:d) or a confining potential",
+                         about="set")
     for side, sign in (("left", -1.0), ("right", 1.0)):
         end = on.hull[0] if sign < 0 else on.hull[1]
         if math.isfinite(end):
@@ -66,7 +68,7 @@ def _check_field_on(field: Field, on: IntervalSet) -> None:
             values = np.asarray(field.V(xs), dtype=complex if np.iscomplexobj(field.V(xs)) else float)
         values = np.real_if_close(values)
         if np.iscomplexobj(values) or np.any(np.isnan(values)):
-            raise InputError(f"V is not real and finite far to the {side} of the set; restrict the set with --on")
+            raise InputError(f"V is not real and finite far to the {side} of the set; restrict the set", about="set")
         growth = np.where(values == np.inf, np.inf, values - 2 * np.log(np.abs(xs)))
         steps_ok = all(
             (g1 == np.inf) or (g1 - g0 > 0.5) for g0, g1 in zip(growth[1:-1], growth[2:])
@@ -74,7 +76,8 @@ def _check_field_on(field: Field, on: IntervalSet) -> None:
         if np.any(growth == -np.inf) or not (steps_ok and growth[-1] > growth[0] + 1.0):
             raise InputError(
                 f"V does not confine on the {side}: V(x) - 2 log|x| must grow to +infinity as x -> {'-' if sign < 0 else '+'}inf "
-                f"(here it is {growth[-1]:.3g} at x = {xs[-1]:.0e}); use a confining field or a bounded set --on=a:b"
+                f"(here it is {growth[-1]:.3g} at x = {xs[-1]:.0e}); use a confining field or a bounded set a:b",
+                about="set",
             )
 
 
@@ -94,7 +97,7 @@ def _check_values_on(field: Field, on: IntervalSet, lower: float, upper: float) 
     if np.any(bad):
         raise InputError(
             f"V' is not finite at x = {x[np.argmax(bad)]:.6g} in the set; the field must be differentiable there "
-            "(restrict the set with --on)"
+            "(restrict the set)", about="set"
         )
 
 
@@ -122,7 +125,8 @@ def _sample_V(field: Field, x: np.ndarray) -> np.ndarray:
     bad = ~np.isfinite(values)
     if np.any(bad):
         raise InputError(
-            f"V is not finite at x = {x[np.argmax(bad)]:.6g} in the set; restrict the set with --on to where V is finite"
+            f"V is not finite at x = {x[np.argmax(bad)]:.6g} in the set; restrict the set to where V is finite",
+            about="set",
         )
     return values
 
@@ -169,14 +173,19 @@ def _all_hard(intervals) -> BandStructure:
     return BandStructure(ends, np.ones(ends.size, dtype=bool))
 
 
-def solve_signed(field: Field, on: IntervalSet) -> EquilibriumMeasure:
+def solve_signed(field: Field, on: IntervalSet, *, on_failure: str = "raise") -> EquilibriumMeasure:
     """The signed equilibrium measure of a compact union of intervals E = ``on``.
 
     The measure ν has ν(E) = 1, 2U^ν + V = ℓ on all of E (one constant), and
     an inverse square-root singularity at every end of E.
+
+    ``on_failure`` -- ``"raise"`` (NumericalFailure when a verification figure
+    fails) or ``"mark"`` (the measure with ``verified = False`` and the failed
+    figures in ``message``); see :mod:`equilibrium.verification`.
     """
+    failure_policy(on_failure)
     if not on.is_compact:
-        raise InputError("the signed problem needs a compact set; give --on=a:b or a union a:b,c:d")
+        raise InputError("the signed problem needs a compact set: a bounded a:b or a union a:b,c:d", about="set")
     structure = _all_hard(on.intervals)
     lo, hi = on.hull
     _check_values_on(field, on, lo, hi)
@@ -186,9 +195,10 @@ def solve_signed(field: Field, on: IntervalSet) -> EquilibriumMeasure:
     solution2 = solve_structure(second, structure)
     masses = band_masses(window, solution.state)
     agreement = _ends_and_masses_agreement(solution.state, masses, solution2.state, band_masses(second, solution2.state))
-    return build_measure(
+    measure = build_measure(
         window, solution.state, field, on, "signed", extra_checks={"discretisation_agreement": agreement}, masses=masses
     )
+    return settle(measure, on_failure, what="the signed equilibrium measure")
 
 
 def _variant_window(field: Field, lo: float, hi: float) -> Window:
@@ -366,12 +376,15 @@ def solve(
     field: Field,
     on: IntervalSet | None = None,
     guess: EquilibriumMeasure | BandStructure | None = None,
+    *,
+    on_failure: str = "raise",
 ) -> EquilibriumMeasure:
     """The equilibrium measure μ_V of ``field`` on ``on`` (default: the real line).
 
     The number of bands, their ends and the kind of each end are found
-    automatically.  The result carries its checks; when they
-    fail, ``verified`` is False and ``message`` names the failed checks.
+    automatically.  The result carries its checks; when they fail,
+    NumericalFailure is raised (or, with ``on_failure="mark"``, ``verified``
+    is False and ``message`` names the failed checks).
 
     Parameters
     ----------
@@ -379,11 +392,16 @@ def solve(
         point of a sweep.  Newton's method then starts from its structure;
         when that does not lead to a verified measure the full search runs,
         so a guess never changes the answer, only the time to it.
+    on_failure : ``"raise"`` (NumericalFailure when a verification figure
+        fails) or ``"mark"`` (the measure with ``verified = False`` and the
+        failed figures in ``message``); see :mod:`equilibrium.verification`.
     """
+    failure_policy(on_failure)
     on = IntervalSet.real_line() if on is None else on
     # intermediate structures may overflow; every check of the answer is tested for finiteness
     with np.errstate(all="ignore"):
-        return _solve(field, on, guess)
+        measure = _solve(field, on, guess)
+    return settle(measure, on_failure, what="the equilibrium measure")
 
 
 def _solve(field: Field, on: IntervalSet, guess) -> EquilibriumMeasure:

@@ -21,7 +21,8 @@ finds no support, a theta series beyond its point budget, a recurrence that
 overflows) raises ``NumericalFailure``: there is nothing to mark.
 
 A check that is NaN never passes: ``NaN <= tolerance`` is false, and every
-comparison here is written so that a NaN fails it.
+comparison here is written so that a NaN fails it.  A check without a
+tolerance is informative and fails only when it is not finite.
 """
 
 from __future__ import annotations
@@ -87,13 +88,14 @@ def failed_checks(checks: Mapping[str, float], tolerances: Mapping[str, float],
                   lower: Collection[str] = ()) -> list[str]:
     """Names of the checks that fail: above their tolerance, or below it for ``lower`` ones, or NaN.
 
-    A check without a tolerance is informative; it fails only when it is NaN.
+    A check without a tolerance is informative; it fails only when it is not
+    finite (NaN or an overflow to ±inf).
     """
     out = []
     for name, value in checks.items():
         value = float(value)
         if name not in tolerances:
-            ok = not math.isnan(value)
+            ok = math.isfinite(value)
         elif name in lower:
             ok = value >= tolerances[name]
         else:
@@ -128,9 +130,10 @@ def failure_message(checks: Mapping[str, float], tolerances: Mapping[str, float]
     return f"{head}: " + ", ".join(parts)
 
 
-def settle(result: T, on_failure: str) -> T:
+def settle(result: T, on_failure: str, *, what: str = "") -> T:
     """Return ``result``, or raise NumericalFailure with its message when it is not verified and
-    ``on_failure == "raise"``."""
+    ``on_failure == "raise"`` (``what`` names the object at the head of the message)."""
     if failure_policy(on_failure) == "raise" and not getattr(result, "verified"):
-        raise NumericalFailure(getattr(result, "message", "") or "result not verified")
+        message = getattr(result, "message", "") or "not verified"
+        raise NumericalFailure(f"{what}: {message}" if what else message)
     return result

@@ -107,9 +107,10 @@ from typing import Sequence
 import numpy as np
 from numpy.typing import ArrayLike
 
-from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.errors import InputError
 from equilibrium.quadrature import graded_jacobi_rule
 from equilibrium.radical import sqrt_R as _radical
+from equilibrium.verification import failure_message, failure_policy, settle
 
 __all__ = ["HyperellipticCurve", "curve_of_bands", "MAX_GENUS"]
 
@@ -211,6 +212,9 @@ class HyperellipticCurve:
         (relative; loop around all bands = 0), ``quadrature_agreement``
         (max |Δτ| between two rule sizes), ``infinity_paths_agreement``
         (A(∞_1) reached along (b_k, +∞) and along (-∞, a_1)).
+    verified, message : bool, str
+        Whether τ is certified (``quadrature_agreement`` within tolerance, Im τ
+        positive definite), and the failed figures otherwise.
     """
 
     branch_points: np.ndarray
@@ -220,6 +224,8 @@ class HyperellipticCurve:
     b_periods_raw: np.ndarray
     tau: np.ndarray
     checks: dict = field(default_factory=dict)
+    verified: bool = True
+    message: str = ""
     branch_abel: np.ndarray = field(default=None, repr=False)   # (2k, g) half-period table
     infinity_abel: np.ndarray = field(default=None, repr=False)  # A(∞_1)
     # ω_j = Σ_l D[j, l] L_l(z) dz/R^{1/2}, L_l Lagrange polynomials on basis_nodes: the
@@ -382,7 +388,7 @@ def _ray_to_infinity(e: np.ndarray, D: np.ndarray, basis, g: int, right: bool, n
     return D @ raw
 
 
-def curve_of_bands(bands: Sequence[tuple[float, float]]) -> HyperellipticCurve:
+def curve_of_bands(bands: Sequence[tuple[float, float]], *, on_failure: str = "raise") -> HyperellipticCurve:
     r"""Build the curve of the bands ``[(a_1, b_1), …, (a_k, b_k)]``, ``k ≥ 2``.
 
     Periods are real integrals over bands and gaps of ``x^l |R(x)|^{-1/2}`` by
@@ -395,8 +401,11 @@ def curve_of_bands(bands: Sequence[tuple[float, float]]) -> HyperellipticCurve:
         Fewer than two bands, unsorted/overlapping/degenerate bands, non-finite ends.
     NumericalFailure
         Two quadrature sizes disagree by more than 1e-11 in τ, or Im τ is not
-        positive definite (which would signal a quadrature failure).
+        positive definite (which would signal a quadrature failure), unless
+        ``on_failure="mark"``: then the curve is returned with ``verified = False``
+        (:mod:`equilibrium.verification`).
     """
+    failure_policy(on_failure)
     try:
         arr = np.asarray(bands, dtype=float)
     except (TypeError, ValueError):
@@ -451,11 +460,13 @@ def curve_of_bands(bands: Sequence[tuple[float, float]]) -> HyperellipticCurve:
         "infinity_paths_agreement": float(np.max(np.abs(a_inf_right - a_inf_left))),
     }
     scale = max(1.0, float(np.max(np.abs(tau))))
-    if not (agree <= _PERIOD_TOL * scale) or not (ev > 0):
-        raise NumericalFailure(
-            f"period matrix not certified: two quadrature sizes differ by {agree:.3e} "
-            f"(need <= {_PERIOD_TOL * scale:.1e}), min eigenvalue of Im tau {ev:.3e}")
-    return HyperellipticCurve(
+    # certified: the two rule sizes agree and Im τ is positive definite (its least eigenvalue
+    # at least the smallest normal float); the other figures are informative
+    tolerances = {"quadrature_agreement": _PERIOD_TOL * scale, "im_tau_min_eigenvalue": np.finfo(float).tiny}
+    message = failure_message(checks, tolerances, lower=("im_tau_min_eigenvalue",), what="the period matrix")
+    curve = HyperellipticCurve(
         branch_points=e.copy(), genus=g, normalisation=C, a_periods_raw=a_raw,
         b_periods_raw=B_mono.astype(complex), tau=tau_s, checks=checks, branch_abel=table,
-        infinity_abel=a_inf_right, basis_nodes=nodes, basis_normalisation=D)
+        infinity_abel=a_inf_right, basis_nodes=nodes, basis_normalisation=D,
+        verified=not message, message=message)
+    return settle(curve, on_failure)

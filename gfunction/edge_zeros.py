@@ -60,10 +60,10 @@ import numpy as np
 from scipy.special import ai_zeros, airy, jn_zeros, jv, jvp
 
 from equilibrium.errors import InputError
-from equilibrium.verification import failure_message, failure_policy, settle
+from equilibrium.verification import failure_policy, settle
 
 from .local import _A0, _B0, _S3, EdgeParametrix, edge_parametrix
-from .predict import TOLERANCES, EdgeZeros, _refine_sign_changes
+from .predict import EdgeZeros, _refine_sign_changes
 
 __all__ = ["EdgeZeros", "bessel_zeros", "edge_zeros", "edge_scaling_zeros"]
 
@@ -178,8 +178,9 @@ def edge_scaling_zeros(predictor, index: int, degree: int, count: int = 5, *,
     residual = np.abs(scale * f - model) / np.abs(model)
     checks = {"local_variable_residual": float(np.max(residual)) if np.all(np.isfinite(residual)) else float("nan"),
               "outside_disc": float(np.sum(~(np.abs(x - ep.edge) < ep.radius)))}
-    message = failure_message(checks, TOLERANCES, what=f"scaling zeros at edge {index}")
-    result = EdgeZeros(int(index), degree, x, "scaling", not message, checks, message, order=0, kind=ep.kind,
+    # built on the predictor: an unverified g-function or model problem makes the zeros unverified
+    verified, message = ep.predictor._verdict(checks, f"scaling zeros at edge {index}")
+    result = EdgeZeros(int(index), degree, x, "scaling", verified, checks, message, order=0, kind=ep.kind,
                        position=ep.edge, alpha=ep.alpha, offsets=x - ep.edge, zeta=scale * f, model_zeros=model)
     return settle(result, on_failure)
 
@@ -242,8 +243,8 @@ def edge_zeros(predictor, index: int, degree: int, count: int = 5, *, order: int
     checks = {"imag_ratio": imag[0], "missing_sign_change": float(np.sum(missing)),
               "outside_disc": float(np.sum(~(np.abs(x - ep.edge) < ep.radius)))}
     name = "Airy form" if ep.kind == "soft" else "Bessel form"
-    message = failure_message(checks, TOLERANCES, what=f"{name} zeros at edge {index} (order {order})")
-    verified = not message
+    # built on the predictor: an unverified g-function or model problem makes the zeros unverified
+    verified, message = ep.predictor._verdict(checks, f"{name} zeros at edge {index} (order {order})")
     if cor is not None:
         checks, verified, message = cor.merged(checks, message)
     result = EdgeZeros(int(index), degree, x, name, verified, checks, message, order=order, kind=ep.kind,

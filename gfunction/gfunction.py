@@ -71,8 +71,9 @@ from typing import Any
 
 import numpy as np
 
-from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.errors import InputError
 from equilibrium.quadrature import graded_jacobi_rule
+from equilibrium.verification import failure_message, failure_policy, float_checks, settle
 
 __all__ = ["GFunction", "g_function", "EdgeVariable", "trusted_radius"]
 
@@ -122,6 +123,9 @@ class GFunction:
         two evaluations of g on rings around each band; ``'jump'``:
         max |g_+ + g_- − V + ℓ| on sample points of the bands; ``'gap_phase'``:
         max |g_+ − g_- − 2πiΩ_j| in the gaps.
+    verified, message :
+        Whether every figure is within tolerance, and the failed ones
+        (:mod:`equilibrium.verification`).
     """
 
     measure: Any
@@ -133,6 +137,8 @@ class GFunction:
     moments: np.ndarray
     edges: tuple
     checks: dict = field(default_factory=dict)
+    verified: bool = True
+    message: str = ""
     far_rho: float = _FAR_RHO  # Bernstein parameter (per band) beyond which the direct sum is used
     _nodes: np.ndarray = field(default=None, repr=False)
     _weights: np.ndarray = field(default=None, repr=False)
@@ -314,7 +320,8 @@ def _edge_derivative(measure, pts, kinds, i) -> float:
     return float(he ** 2 * others / (4.0 * dq ** 2))
 
 
-def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10) -> GFunction:
+def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10,
+               on_failure: str = "raise") -> GFunction:
     """Build the g-function of ``measure`` and its checks.
 
     Parameters
@@ -325,8 +332,12 @@ def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10) -
         Gauss–Jacobi nodes per band for the far-field sum (at least; more when the
         switch to it is closer than ρ = 1.6, see :func:`_switch_rho`).
     tolerance :
-        Largest accepted value of a check; beyond it ``NumericalFailure``.
+        Largest accepted value of a check.
+    on_failure :
+        ``"raise"`` (NumericalFailure beyond tolerance) or ``"mark"`` (the result
+        with ``verified = False``); see :mod:`equilibrium.verification`.
     """
+    failure_policy(on_failure)
     support = tuple(tuple(map(float, ab)) for ab in measure.support)
     if len(support) == 0:
         raise InputError("the equilibrium measure has no bands; a g-function needs a support")
@@ -348,14 +359,12 @@ def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10) -
     gf = GFunction(measure=measure, support=support, edge_points=pts, edge_kinds=kinds,
                    omega=omega, lagrange=float(measure.lagrange), moments=moments,
                    edges=tuple(edges), far_rho=far_rho, _nodes=x, _weights=w)
-    checks = _verify(gf)
+    checks = float_checks(_verify(gf))
+    message = failure_message(checks, {key: tolerance for key in checks}, what="the g-function")
     object.__setattr__(gf, "checks", checks)
-    worst = max(checks.values())
-    if not np.isfinite(worst) or worst > tolerance:
-        raise NumericalFailure(
-            "g-function not certified: " + ", ".join(f"{k}={v:.2e}" for k, v in checks.items())
-            + f" (tolerance {tolerance:.0e})")
-    return gf
+    object.__setattr__(gf, "verified", not message)
+    object.__setattr__(gf, "message", message)
+    return settle(gf, on_failure)
 
 
 def _switch_rho(support, window, h_rho: float) -> float:

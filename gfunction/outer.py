@@ -76,6 +76,7 @@ from typing import Any
 import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.verification import failure_message, failure_policy, float_checks, settle
 
 __all__ = ["ModelProblem", "model_problem", "gamma_factor", "lattice_decomposition", "jump_residuals",
            "GapAbelMap", "gap_abel_map"]
@@ -122,6 +123,7 @@ class ModelProblem:
     phase_map : float ndarray (g, g)  ``W = phase_map @ w`` (mod 1)
     lam : complex ndarray             λ_1, λ_2, λ_3
     checks : dict                     lattice rounding, vanishing of θ(-u(z_j)+d), ...
+    verified, message : bool, str     every figure within tolerance; the failed ones otherwise
     """
 
     support: tuple
@@ -138,6 +140,8 @@ class ModelProblem:
     tau: np.ndarray = None
     basis_change: np.ndarray = None
     checks: dict = field(default_factory=dict)
+    verified: bool = True
+    message: str = ""
 
     # -- theta helpers -----------------------------------------------------
     def _theta(self, v):
@@ -329,12 +333,18 @@ def _gap_points(support) -> np.ndarray:
     return r
 
 
-def model_problem(support, *, tolerance: float = 1e-9) -> ModelProblem:
+def model_problem(support, *, tolerance: float = 1e-9, on_failure: str = "raise") -> ModelProblem:
     """Build the outer parametrix data for ``support`` (any number of bands).
 
-    Raises ``NumericalFailure`` when the band/gap constants are not lattice
-    vectors to ``tolerance`` or no vector ``d`` passes the vanishing test.
+    The band/gap constants must be lattice vectors to ``tolerance``
+    (``lattice_rounding``, ``band_integrality``) and the period matrix must be
+    certified (``gfunction.curve``); otherwise ``on_failure="raise"`` raises
+    NumericalFailure and ``"mark"`` returns the result with ``verified = False``
+    (:mod:`equilibrium.verification`).  Without a vector ``d`` that passes the
+    vanishing test, or with gap jumps that cannot carry the phases, there is no
+    model problem: NumericalFailure in both modes.
     """
+    failure_policy(on_failure)
     support = tuple((float(a), float(b)) for a, b in support)
     if not support or any(not a < b for a, b in support) or any(
             support[j][1] >= support[j + 1][0] for j in range(len(support) - 1)):
@@ -350,7 +360,7 @@ def model_problem(support, *, tolerance: float = 1e-9) -> ModelProblem:
                             np.zeros((1, 0), int), np.zeros((0, 0), int), np.zeros((0, 0)),
                             lam.astype(complex), np.zeros(0), {})
     from .curve import curve_of_bands
-    curve = curve_of_bands(support)
+    curve = curve_of_bands(support, on_failure=on_failure)
     # The curve's A-cycles surround bands 2..k, so the Abel map jumps by integers
     # on the gaps.  The theta quotient needs the dual choice (A-cycles through
     # the gaps, B-cycles around the bands, as in DKMVZ 1999 §4): the symplectic
@@ -381,8 +391,6 @@ def model_problem(support, *, tolerance: float = 1e-9) -> ModelProblem:
         _, q, err = lattice_decomposition(D[j], tau)
         gap_q[j], worst = q, max(worst, err)
     checks["lattice_rounding"] = worst
-    if worst > tolerance:
-        raise NumericalFailure(f"band/gap constants of the Abel map are not lattice vectors (off by {worst:.2e})")
     if abs(np.linalg.det(gap_q)) < 0.5:
         raise NumericalFailure(
             "the homology basis gives gap jumps of the Abel map without τ-part; the theta quotient "
@@ -391,8 +399,6 @@ def model_problem(support, *, tolerance: float = 1e-9) -> ModelProblem:
     # band conditions q_jᵀ W ∈ Z for all phases: q_jᵀ gap_q^{-1} must be integer
     bad = np.max(np.abs(band_q @ phase_map - np.round(band_q @ phase_map))) if k else 0.0
     checks["band_integrality"] = float(bad)
-    if bad > 1e-9:
-        raise NumericalFailure(f"band constants incompatible with the phases (non-integral by {bad:.2e})")
 
     u_inf = S @ np.asarray(curve.abel_infinity(1), dtype=complex).reshape(g)
     # v1 = lim z (u(z) - u∞) from two large radii (Richardson, O(1/z) corrections)
@@ -438,8 +444,15 @@ def model_problem(support, *, tolerance: float = 1e-9) -> ModelProblem:
     d, zero, nonzero = chosen
     checks["d_vanishing"] = zero
     checks["d_nonvanishing"] = nonzero
-    return ModelProblem(support, g, curve, d, u_inf, v1, band_q, gap_q, phase_map,
-                        lam.astype(complex), zj, tau, S, checks)
+    checks = float_checks(checks)
+    # the band/gap constants are lattice vectors, and the band conditions hold for all phases
+    message = failure_message(checks, {"lattice_rounding": tolerance, "band_integrality": tolerance},
+                              what="the model problem")
+    if not curve.verified:
+        message = "; ".join(m for m in (message, curve.message) if m)
+    result = ModelProblem(support, g, curve, d, u_inf, v1, band_q, gap_q, phase_map,
+                          lam.astype(complex), zj, tau, S, checks, not message, message)
+    return settle(result, on_failure)
 
 
 def jump_residuals(mp: ModelProblem, phases=None, *, samples: int = 7) -> dict:

@@ -176,9 +176,9 @@ def gap_zeros(predictor, degrees, order: int = 1, *, corrections: Corrections | 
     sign changes in one gap: at most one zero; such rows are NaN).  ``on_failure``:
     ``"raise"`` or ``"mark"`` (:mod:`equilibrium.verification`).
     """
-    from equilibrium.verification import failure_message, failure_policy, settle
+    from equilibrium.verification import failure_policy, settle
 
-    from .predict import TOLERANCES, GapZeros, _refine_sign_changes
+    from .predict import GapZeros, _refine_sign_changes
 
     failure_policy(on_failure)
 
@@ -211,8 +211,7 @@ def gap_zeros(predictor, degrees, order: int = 1, *, corrections: Corrections | 
 
         out[rows, j] = _refine_sign_changes(f, xs[idx], xs[idx + 1], r[rows, idx], r[rows, idx + 1])
     checks = {"gap_realness": worst_imag, "gap_sign_changes": float(most)}
-    message = failure_message(checks, TOLERANCES, what=f"gap zeros at order {order}")
-    verified = not message
+    verified, message = predictor._verdict(checks, f"gap zeros at order {order}")
     if cor is not None:
         checks, verified, message = cor.merged(checks, message)
     result = GapZeros(degrees, degrees.astype(float), out, verified, checks, message, order=int(order))

@@ -74,9 +74,6 @@ TOLERANCES = {
 LOWER = ("a2_positivity",)
 
 
-def _verdict(checks: dict, what: str) -> tuple[bool, str]:
-    message = failure_message(checks, TOLERANCES, LOWER, what=what)
-    return not message, message
 
 
 @dataclass(frozen=True)
@@ -233,7 +230,12 @@ class Prediction:
 
 @dataclass(frozen=True)
 class Predictor:
-    """g-function, model problem and harmonic phases of one equilibrium measure."""
+    """g-function, model problem and harmonic phases of one equilibrium measure.
+
+    ``verified`` is True when the measure, the g-function, the model problem
+    and the Szegő function (if any) are; ``message`` names what is not.  A
+    prediction made from an unverified predictor is not verified either.
+    """
 
     measure: Any
     g: GFunction
@@ -244,6 +246,25 @@ class Predictor:
     @property
     def genus(self) -> int:
         return self.model.genus
+
+    def _parts(self):
+        return (("the equilibrium measure", self.measure), ("", self.g), ("", self.model), ("", self.szego))
+
+    @property
+    def verified(self) -> bool:
+        return all(getattr(part, "verified", True) for _, part in self._parts())
+
+    @property
+    def message(self) -> str:
+        return "; ".join((f"{what} not verified: {part.message}" if what else part.message)
+                         for what, part in self._parts() if not getattr(part, "verified", True))
+
+    def _verdict(self, checks: dict, what: str) -> tuple[bool, str]:
+        """``(verified, message)`` of a prediction with ``checks``, built on this predictor."""
+        message = failure_message(checks, TOLERANCES, LOWER, what=what)
+        if not self.verified:
+            message = "; ".join(m for m in (message, f"{what} rest on: {self.message}") if m)
+        return not message, message
 
     def phases(self, degrees, scalings=None) -> np.ndarray:
         """``w = n Ω + (N - n) Ω̂ - c`` (mod 1) for degree ``N``, scaling ``n``; shape (len, g).
@@ -284,7 +305,7 @@ class Predictor:
             "imag_b": float(np.max(np.abs(b.imag) / np.maximum(np.sqrt(size), np.abs(b)).clip(min=1e-300))),
             "a2_positivity": float(np.min(a2.real / max(float(np.max(size)), 1e-300))),
         }
-        verified, message = _verdict(checks, "predicted recurrence coefficients")
+        verified, message = self._verdict(checks, "predicted recurrence coefficients")
         result = RecurrencePrediction(N, n, w, a, b.real.copy(), verified, checks, message)
         return settle(result, on_failure)
 
@@ -422,7 +443,7 @@ class Predictor:
             out[rows, j] = gap_abel.x(tr)
         checks = {"gap_realness": worst_imag, "gap_abel_interpolation": float(abel_error),
                   "gap_sign_changes": float(most_changes)}
-        verified, message = _verdict(checks, "predicted gap zeros")
+        verified, message = self._verdict(checks, "predicted gap zeros")
         return settle(GapZeros(degrees, scalings, out, verified, checks, message), on_failure)
 
 
@@ -493,7 +514,7 @@ class Predictor:
                 c = c - ((~np.isnan(z)) & (z < x0s[:, band])).astype(int)
             counts[:, band] = c
         checks = {"count_rounding": worst}
-        verified, message = _verdict(checks, "predicted zero counts per band")
+        verified, message = self._verdict(checks, "predicted zero counts per band")
         return settle(BandCounts(N, n, counts, verified, checks, message), on_failure)
 
 
@@ -578,7 +599,7 @@ def _refine_sign_changes(function, left, right, f_left, f_right, iterations: int
     return np.where(np.isfinite(previous), previous, 0.5 * (left + right))
 
 
-def predictor(measure, factor: Sequence | None = None) -> Predictor:
+def predictor(measure, factor: Sequence | None = None, *, on_failure: str = "raise") -> Predictor:
     """Assemble g-function, model problem and harmonic phases for ``measure``.
 
     ``factor`` -- the n-independent factor ``h`` of the weight ``e^{-nV} h`` as
@@ -589,20 +610,26 @@ def predictor(measure, factor: Sequence | None = None) -> Predictor:
     Raises ``InputError`` for a measure that is not positive (a signed equilibrium
     measure negative somewhere): the orthogonal polynomials of a weight on Σ follow
     the positive equilibrium measure constrained to Σ, ``equilibrium.solve(field, on)``.
-    """
-    if not getattr(measure, "positive", True):
-        from equilibrium.errors import InputError
 
+    ``on_failure`` -- ``"raise"``: NumericalFailure when the measure or a part
+    is not verified; ``"mark"``: the predictor is returned and every prediction
+    made from it is marked not verified (:mod:`equilibrium.verification`).
+    """
+    failure_policy(on_failure)
+    if not getattr(measure, "positive", True):
         pieces, mass = measure.negative_part()
         where = " U ".join(f"[{a:.6g}, {b:.6g}]" for a, b in pieces)
         raise InputError(f"the {measure.kind} measure is negative on {where} (negative mass {mass:.3g}); "
                          "it is no model of orthogonal polynomials: use the positive equilibrium "
                          "measure on the set (equilibrium.solve)")
-    gf = g_function(measure)
-    mp = model_problem(measure.support)
+    gf = g_function(measure, on_failure=on_failure)
+    mp = model_problem(measure.support, on_failure=on_failure)
     oh = harmonic_phases(measure.support)
     D = None
     if factor:
         from .szego import szego_function
-        D = szego_function(tuple(factor), measure.support)
-    return Predictor(measure, gf, mp, oh, D)
+        D = szego_function(tuple(factor), measure.support, on_failure=on_failure)
+    result = Predictor(measure, gf, mp, oh, D)
+    if on_failure == "raise" and not result.verified:
+        raise NumericalFailure(f"predictions not certified: {result.message}")
+    return result

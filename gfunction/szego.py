@@ -91,13 +91,14 @@ parametrix, whose ``D`` behaves like ``(z - c)^{γ}``.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Sequence
 
 import numpy as np
 from scipy.fft import dct
 
 from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.verification import failure_message, failure_policy, float_checks, settle
 from equilibrium.radical import sqrt_R
 
 __all__ = ["SzegoFunction", "szego_function", "chebyshev_cauchy"]
@@ -155,6 +156,8 @@ class SzegoFunction:
         ``'gap_ratio'`` (max ``|D_+/D_- - e^{2πic_j}|``), ``'infinity'``
         (``|2D(2z) - D(z) - D_∞|/D_∞`` at ``|z| ≈ 10^3`` band widths: O(z^{-2}),
         accepted up to 1e-6), ``'moment_imag'`` (imaginary parts that must vanish).
+    verified, message : whether every figure is within tolerance, and the failed ones
+        (:mod:`equilibrium.verification`).
     """
 
     support: tuple
@@ -162,6 +165,8 @@ class SzegoFunction:
     phase_shift: np.ndarray
     limit: float
     checks: dict
+    verified: bool = True
+    message: str = ""
     _factors: tuple = field(repr=False, default=())
     _harmonic: Any = field(repr=False, default=None)
     _lagrange_hat: float = 0.0
@@ -296,7 +301,8 @@ def _singular_on_support(factors, support) -> tuple:
     return tuple(sorted((c, p) for c, p in merged.items() if p != 0.0))
 
 
-def szego_function(factors: Sequence, support, *, harmonic=None, tolerance: float = 1e-11) -> SzegoFunction:
+def szego_function(factors: Sequence, support, *, harmonic=None, tolerance: float = 1e-11,
+                   on_failure: str = "raise") -> SzegoFunction:
     """Build the Szegő function of ``h = ∏ factors`` on ``support``.
 
     Parameters
@@ -305,8 +311,11 @@ def szego_function(factors: Sequence, support, *, harmonic=None, tolerance: floa
     support : the bands ``((a_1, b_1), …)``.
     harmonic : optionally the ``GFunction`` of the harmonic measure of the support
         (built from ``equilibrium.solve(Field.zero(), on=support)`` otherwise).
-    tolerance : largest accepted value of a check (``NumericalFailure`` beyond).
+    tolerance : largest accepted value of a check (``'infinity'``: 1e-6, an O(z^{-2}) check).
+    on_failure : ``"raise"`` (NumericalFailure beyond tolerance) or ``"mark"`` (the
+        result with ``verified = False``); see :mod:`equilibrium.verification`.
     """
+    failure_policy(on_failure)
     support = tuple((float(a), float(b)) for a, b in support)
     if not support or any(not a < b for a, b in support):
         raise InputError(f"the support must be increasing bands (a_j < b_j); got {support}")
@@ -372,7 +381,8 @@ def szego_function(factors: Sequence, support, *, harmonic=None, tolerance: floa
         if harmonic is None:
             from equilibrium import Field, IntervalSet, solve
             from .gfunction import g_function
-            harmonic = g_function(solve(Field.zero(), on=IntervalSet(list(support))))
+            harmonic = g_function(solve(Field.zero(), on=IntervalSet(list(support)), on_failure=on_failure),
+                                  on_failure=on_failure)
         lag_hat = float(harmonic.lagrange)
         P = sum(p for _, p in points)
         omega_hat = np.asarray(harmonic.omega, dtype=float)
@@ -388,14 +398,13 @@ def szego_function(factors: Sequence, support, *, harmonic=None, tolerance: floa
                       _band_coefs=tuple(band_coefs), _gap_coefs=tuple(gap_coefs),
                       _gap_smooth=cs, _log_limit_smooth=float(log_lim_s.real))
     _verify(D)
-    worst = max(v for key, v in D.checks.items() if key != "infinity")
-    if D.checks["infinity"] > 1e-6:
-        worst = max(worst, D.checks["infinity"])
-    if not np.isfinite(worst) or worst > tolerance:
-        raise NumericalFailure("Szegő function not certified: "
-                               + ", ".join(f"{k}={v:.2e}" for k, v in D.checks.items())
-                               + f" (tolerance {tolerance:.0e})")
-    return D
+    checks = float_checks(D.checks)
+    tolerances = {key: tolerance for key in checks}
+    tolerances["infinity"] = max(tolerance, 1e-6)
+    message = failure_message(checks, tolerances, what="the Szegő function")
+    if harmonic is not None and not getattr(harmonic, "verified", True):
+        message = "; ".join(m for m in (message, f"its harmonic measure: {harmonic.message}") if m)
+    return settle(replace(D, checks=checks, verified=not message, message=message), on_failure)
 
 
 def _verify(D: SzegoFunction) -> None:

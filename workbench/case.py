@@ -607,7 +607,11 @@ def _check_expression(check: _Validator, spec: FieldSpec) -> None:
     try:
         Field.from_expression(spec.expression, parameters=dict(spec.parameters))
     except InputError as exc:
-        raise check.fail(f"in [field] expression: {exc}", "field", "expression") from None
+        hint = ""
+        if getattr(exc, "about", None) == "parameter":
+            name = exc.name or "t"
+            hint = f" (give it in [field], e.g. parameters = {{ {name} = 1.0 }})"
+        raise check.fail(f"in [field] expression: {exc}{hint}", "field", "expression") from None
     from equilibrium.expression import parse_expression
 
     # a value for a name the expression does not use is a misspelling, not a choice

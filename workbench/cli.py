@@ -96,6 +96,21 @@ def _silence_stdout() -> None:
         pass
 
 
+def command_line_hint(exc: InputError) -> str:
+    """How the input an InputError is about is written on the command line ('' when it names none).
+
+    The numerical packages speak of the set and the parameters, not of options
+    (``equilibrium.errors``); the command line adds its spelling here.
+    """
+    about = getattr(exc, "about", None)
+    if about == "set":
+        return " (the set is given as --on=a:b,c:d, e.g. --on=-1:1)"
+    if about == "parameter":
+        name = getattr(exc, "name", None) or "NAME"
+        return f" (on the command line: --param {name}=VALUE)"
+    return ""
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     try:
         return _main(argv)
@@ -124,7 +139,7 @@ def _main(argv: Sequence[str] | None) -> int:
             sys.stdout.flush()  # a broken pipe shows here, inside main, not at interpreter exit
             return status
     except InputError as exc:
-        print(f"workbench {args.command}: error: {_one_line(exc)}", file=sys.stderr)
+        print(f"workbench {args.command}: error: {_one_line(exc)}{command_line_hint(exc)}", file=sys.stderr)
         return 2
     except NumericalFailure as exc:
         print(f"workbench {args.command}: numerical failure: {_one_line(exc)}", file=sys.stderr)

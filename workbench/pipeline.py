@@ -132,9 +132,9 @@ def solve_case(case: Case):
     on = case.build_set()
     set_aside = None
     try:
-        mu = (solve_signed if case.set.signed else solve)(field_, on=on)
+        mu = (solve_signed if case.set.signed else solve)(field_, on=on, on_failure="mark")
         if not mu.positive:
-            set_aside, mu = mu, solve(field_, on=on)
+            set_aside, mu = mu, solve(field_, on=on, on_failure="mark")
     except InputError as exc:
         # name the file and the tables the refused field and set come from
         raise InputError(f"{case.source} [field] on [set]: {exc}") from None
@@ -436,6 +436,11 @@ class RunOutcome:
     messages: tuple[str, ...] = ()   # why the run is not verified (empty when it is)
     notes: tuple[str, ...] = ()      # what was switched or skipped, and why (not failures)
 
+    @property
+    def message(self) -> str:
+        """The messages on one line (empty when verified)."""
+        return "; ".join(self.messages)
+
 
 def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True,
              draw: bool | None = None, after_each_n: Callable[[int], None] | None = None) -> RunOutcome:
@@ -593,12 +598,12 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
                         "available": True})
     # the factor h enters through its Szegő function (the same factor objects as the direct side)
     factors = build_weight(case, mu.field, mu.on, 1.0).factors if case.factor.kind != "none" else None
-    pred = predictor(mu, factor=factors)
+    pred = predictor(mu, factor=factors, on_failure="mark")
     prediction = pred.predict(ns_arr, on_failure="mark")
     unverified = [prediction.message] if not prediction.verified else []
     node.attrs["checks"] = dict(prediction.checks)
-    node.attrs["g_function_checks"] = {k: float(v) for k, v in dict(pred.g.checks).items()}
-    node.attrs["model_checks"] = _numbers(pred.model.checks)
+    node.attrs["g_function_checks"] = dict(pred.g.checks)
+    node.attrs["model_checks"] = dict(pred.model.checks)
     node.attrs["genus"] = int(pred.genus)
     node.attrs["h_factor"] = case.factor.describe()
     if case.factor.kind != "none":
@@ -722,17 +727,6 @@ def _small_norm_check(pred, mu, n: int, circles: np.ndarray, radii: np.ndarray, 
         return {"radii": radii, "deviation": dev, "det_error": Y.checks["det_error"]}
 
     return check
-
-
-def _numbers(checks: Mapping[str, Any]) -> dict[str, float]:
-    """Checks as plain floats (largest modulus of array-valued ones)."""
-    out = {}
-    for key, value in dict(checks).items():
-        try:
-            out[key] = float(np.max(np.abs(np.asarray(value, dtype=complex))))
-        except (TypeError, ValueError):
-            continue
-    return out
 
 
 def _dense_description(dense: np.ndarray) -> str:

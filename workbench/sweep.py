@@ -430,7 +430,7 @@ def equilibrium_point(payload: Mapping[str, Any], params: Mapping[str, float]) -
     values.update(params)
     field_ = Field.from_expression(payload["expression"], parameters=values)
     on = _interval_set(tuple(tuple(p) for p in payload["intervals"]))
-    mu = (solve_signed if payload["signed"] else solve)(field_, on=on)
+    mu = (solve_signed if payload["signed"] else solve)(field_, on=on, on_failure="mark")
     return _measure_summary(mu)
 
 
@@ -589,10 +589,10 @@ def equilibrium_point_fast(payload: Mapping[str, Any], params: Mapping[str, floa
     field_ = _fast_field(payload, values)
     on = _interval_set(tuple(tuple(p) for p in payload["intervals"]))
     if payload["signed"]:
-        mu = solve_signed(field_, on=on)
+        mu = solve_signed(field_, on=on, on_failure="mark")
     else:
         key = json.dumps([payload["expression"], payload["intervals"]], default=str)
-        mu = solve(field_, on=on, guess=_WARM_START.get(key))
+        mu = solve(field_, on=on, guess=_WARM_START.get(key), on_failure="mark")
         _WARM_START.clear()
         _WARM_START[key] = mu
     return _measure_summary(mu)

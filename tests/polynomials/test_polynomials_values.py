@@ -90,10 +90,10 @@ def test_christoffel_darboux(hermite_rc):
 def test_stieltjes_transform_against_faddeeva(hermite_rc):
     # q_0(z) = p_0 ∫ e^{-t^2}/(z - t) dt = -iπ w(z) π^{-1/4} for Im z > 0 (DLMF 7.7.2; scipy.special.wofz)
     z = np.array([0.5 + 0.6j, -2.0 + 1.0j, 10j, 3.0 + 2.0j])
-    q, convergence = second_kind_values(hermite_rc, z, 0)
+    q = second_kind_values(hermite_rc, z, 0)
     ref = -1j * math.pi * wofz(z) * math.pi ** -0.25
-    assert np.max(np.abs(q.value() - ref) / np.abs(ref)) < 1e-13
-    assert np.max(convergence) < 1e-12
+    assert np.max(np.abs(q.values.value() - ref) / np.abs(ref)) < 1e-13
+    assert q.verified and np.max(q.convergence) < 1e-12 and q.checks["convergence"] == np.max(q.convergence)
 
 
 def test_cauchy_transform_against_quadrature_far_from_the_set(hermite_rc):
@@ -102,9 +102,10 @@ def test_cauchy_transform_against_quadrature_far_from_the_set(hermite_rc):
     disc = discretise(HERMITE, 201)
     rc = hermite_rc
     for k in (0, 1, 2):
-        by_fraction, _ = cauchy_transform(rc, z, k, monic=False)
+        by_fraction = cauchy_transform(rc, z, k, monic=False)
         by_sum = cauchy_transform_by_quadrature(rc, disc, z, k)
-        assert np.max(np.abs(by_fraction.value() - by_sum) / np.abs(by_sum)) < 1e-11
+        assert by_fraction.verified
+        assert np.max(np.abs(by_fraction.values.value() - by_sum) / np.abs(by_sum)) < 1e-11
 
 
 def test_determinant_of_Y_gaussian_and_two_band():
@@ -136,5 +137,11 @@ def test_Y_large_z_asymptotics_give_a_n():
 
 def test_Y_too_close_to_the_set_fails_loudly(hermite_rc):
     rc = hermite_rc.truncated(300)
-    with pytest.raises(NumericalFailure):
-        orthogonality_matrix(rc, np.array([0.5 + 1e-3j]), 100)
+    z = np.array([0.5 + 1e-3j])
+    with pytest.raises(NumericalFailure, match="continued fraction with 300 coefficients"):
+        orthogonality_matrix(rc, z, 100)
+    marked = orthogonality_matrix(rc, z, 100, on_failure="mark")
+    assert not marked.verified and marked.checks["convergence"] > 1e-12 and "convergence = " in marked.message
+    with pytest.raises(NumericalFailure, match="convergence"):
+        second_kind_values(rc, z, 100)
+    assert not second_kind_values(rc, z, 100, on_failure="mark").verified

@@ -279,3 +279,50 @@ def test_bad_input_in_a_real_process(tmp_path, case_text, sweep_case_text):
     for name, process, fragment, out in started:
         stdout, stderr = process.communicate(timeout=120)
         _check(process.returncode, stdout, stderr, f"{fragment}", out)
+
+
+# ------------------------------------------------------------- hints belong to the front end
+def _string_literals(path: Path):
+    import tokenize
+
+    with open(path, "rb") as handle:
+        for token in tokenize.tokenize(handle.readline):
+            if token.type == tokenize.STRING or token.type == getattr(tokenize, "FSTRING_MIDDLE", -1):
+                yield token.start[0], token.string
+
+
+def test_core_messages_name_no_command_line_option():
+    # equilibrium, gfunction and the polynomial engine are libraries: their messages speak of the
+    # set and the parameters; the CLI (workbench.cli.command_line_hint) adds --on / --param
+    import re
+
+    root = Path(__file__).resolve().parents[2]
+    option = re.compile(r"--[a-z]")
+    found = []
+    for package in ("equilibrium", "gfunction", "workbench/polynomials"):
+        for path in sorted((root / package).rglob("*.py")):
+            for line, text in _string_literals(path):
+                if option.search(text) and not text.lstrip("rbfuRBFU").startswith(('"""', "'''")):
+                    found.append(f"{path.relative_to(root)}:{line}: {text[:60]}")
+    assert not found, found
+
+
+@pytest.mark.parametrize("argv, core, hint", [
+    (["equilibrium", "--potential", "1/x", "--on=-1:1"], "not finite at x = 0", "(the set is given as --on=a:b,c:d, e.g. --on=-1:1)"),
+    (["equilibrium", "--potential", "x**4 - t*x**2"], "if 't' is a parameter, give its value", "(on the command line: --param t=VALUE)"),
+])
+def test_the_command_line_adds_its_hint(argv, core, hint, capsys):
+    assert main(argv) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and core in err[0] and hint in err[0]
+
+
+def test_a_case_file_gets_its_own_hint(tmp_path):
+    from equilibrium.errors import InputError
+    from workbench.case import parse_case
+
+    text = '[case]\nname = "c"\n[field]\nexpression = "x**4 - t*x**2"\n[polynomials]\nn = [10]\n'
+    with pytest.raises(InputError) as info:
+        parse_case(text, source="c.toml")
+    message = str(info.value)
+    assert "give it in [field], e.g. parameters = { t = 1.0 }" in message and "--param" not in message

@@ -63,7 +63,7 @@ def run(args: argparse.Namespace) -> int:
         field = (Field.zero() if expression == "0"
                  else Field.from_expression(expression, {"c": 0.5} if "c" in expression else {}))
         on = IntervalSet.parse(interval) if interval else IntervalSet.real_line()
-        mu = solve(field, on=on)
+        mu = solve(field, on=on, on_failure="mark")
         support = " U ".join(f"[{a:.4f}, {b:.4f}]" for a, b in mu.support)
         reference = ""
         if exact is not None:

@@ -26,7 +26,8 @@ def register(subparsers) -> None:
 def run(args: argparse.Namespace) -> int:
     check_output(args)
     field, on = field_and_set_from_args(args)
-    mu = solve_signed(field, on) if args.signed else solve(field, on)
+    # marked, not raised: an unverified measure is printed (and written) with its failed figures, exit 3
+    mu = solve_signed(field, on, on_failure="mark") if args.signed else solve(field, on, on_failure="mark")
     if args.out:
         from workbench.results import write_group_file
 

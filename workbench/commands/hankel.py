@@ -48,7 +48,7 @@ def run(args: argparse.Namespace) -> int:
     weight, field, on, _ = build_weight(args)
     check_memory(weight, n)
     direct = hankel_determinant(weight, on_failure="mark")
-    measure = solve(field, on=on)
+    measure = solve(field, on=on, on_failure="mark")  # an unverified measure: no model, said why
     model_message = "" if measure.verified else f"equilibrium measure not verified: {measure.message}"
     expansion = None
     if not model_message:

@@ -59,11 +59,10 @@ def run(args) -> int:
     text = getattr(args, "factor", None)
     if text not in (None, "", "1"):
         factors = parse_factor(text, parse_parameters(args.param), on)
-    mu = solve(field, on=on)
-    pred = predictor(mu, factors).predict(degrees, on_failure="mark")
-    verified = bool(mu.verified and pred.verified)
-    message = "; ".join(m for m in (
-        "" if mu.verified else f"equilibrium measure not verified: {mu.message}", pred.message) if m)
+    mu = solve(field, on=on, on_failure="mark")
+    # marked, not raised: the table is printed with the failed checks, exit 3
+    pred = predictor(mu, factors, on_failure="mark").predict(degrees, on_failure="mark")
+    verified, message = pred.verified, pred.message
     result = {
         "degrees": [int(d) for d in pred.degrees],
         "a": [_number(x) for x in pred.a],

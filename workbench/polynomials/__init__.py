@@ -32,7 +32,7 @@ from .recurrence import RecurrenceCoefficients, recurrence_coefficients, estimat
 from .zeros import GaussRule, gauss_rule, zeros
 from .values import ScaledValues, orthonormal_values, monic_values, weighted_values, christoffel_darboux
 from .hankel import HankelDeterminant, hankel_determinant
-from .cauchy import OrthogonalityMatrix, second_kind_values, cauchy_transform, orthogonality_matrix
+from .cauchy import OrthogonalityMatrix, SecondKindValues, second_kind_values, cauchy_transform, orthogonality_matrix
 
 __all__ = [
     "Factor", "JacobiFactor", "PowerFactor", "SmoothFactor", "ConstantFactor", "Weight", "parse_factor",
@@ -40,5 +40,5 @@ __all__ = [
     "GaussRule", "gauss_rule", "zeros",
     "ScaledValues", "orthonormal_values", "monic_values", "weighted_values", "christoffel_darboux",
     "HankelDeterminant", "hankel_determinant",
-    "OrthogonalityMatrix", "second_kind_values", "cauchy_transform", "orthogonality_matrix",
+    "OrthogonalityMatrix", "SecondKindValues", "second_kind_values", "cauchy_transform", "orthogonality_matrix",
 ]

@@ -45,6 +45,7 @@ from typing import Mapping, Sequence
 import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.verification import failure_message, failure_policy, settle, worst
 
 from .recurrence import RecurrenceCoefficients, recurrence_coefficients
 from .values import ScaledValues, orthonormal_values
@@ -74,13 +75,53 @@ def _log_ratios_sum(rc: RecurrenceCoefficients, z: np.ndarray, start: int, degre
     return q0, partial
 
 
+@dataclass(frozen=True)
+class SecondKindValues:
+    """Values of ``q_k(z)`` (or of a Cauchy transform) with the convergence of their continued fraction.
+
+    Attributes
+    ----------
+    values : the numbers as :class:`ScaledValues` (``mantissa · exp(log_scale)``).
+    convergence : relative change of each value between the starts ``ν = rc.count``
+        and ``ν' = (ν + max k)/2`` of the backward recurrence (module docstring).
+    verified, checks, message : ``checks = {"convergence": max convergence}``, verified
+        when it is within the tolerance (:mod:`equilibrium.verification`).
+    """
+
+    values: ScaledValues
+    convergence: np.ndarray
+    verified: bool
+    checks: dict[str, float]
+    message: str = ""
+
+
 def second_kind_values(rc: RecurrenceCoefficients, z, degrees: Sequence[int] | int,
-                       start: int | None = None) -> tuple[ScaledValues, np.ndarray]:
+                       start: int | None = None, *, tolerance: float = 1e-12,
+                       on_failure: str = "raise") -> SecondKindValues:
     """``q_k(z) = ∫ p_k w/(z - s) ds`` for ``k`` in ``degrees`` (stacked on a first axis).
 
-    Returns ``(values, convergence)``; ``convergence`` is the relative change of
-    ``q_k`` between the starts ``ν = rc.count`` and ``ν' = (ν + max k)/2``.
+    The continued fraction must have converged to ``tolerance`` (relative) with
+    the coefficients in ``rc``; near Σ it needs more of them.  ``on_failure``:
+    ``"raise"`` (NumericalFailure) or ``"mark"`` (``verified = False``).
+
+    Examples
+    --------
+    Hermite weight ``e^{-x²}``: ``q_0(z) = ∫ e^{-s²} π^{-1/4}/(z - s) ds``
+    (``p_0 = π^{-1/4}``), which is ``-i π^{3/4} w(z)`` for ``Im z > 0`` with the
+    Faddeeva function ``w`` (DLMF 7.7.2; ``scipy.special.wofz``):
+
+    >>> import numpy as np
+    >>> from scipy.special import wofz
+    >>> from workbench.polynomials import RecurrenceCoefficients
+    >>> k = np.arange(81)
+    >>> rc = RecurrenceCoefficients(a=np.sqrt(k / 2), b=np.zeros(81), n=1.0, error_estimate=0.0,
+    ...                             method="closed form", weight_description="exp(-x^2)",
+    ...                             log_mass=0.5 * np.log(np.pi))
+    >>> q = second_kind_values(rc, 1 + 2j, 0)
+    >>> bool(abs(q.values.value() / (-1j * np.pi ** 0.75 * wofz(1 + 2j)) - 1) < 1e-13)
+    True
     """
+    failure_policy(on_failure)
     single = np.isscalar(degrees)
     degrees = [int(degrees)] if single else [int(k) for k in degrees]
     z = np.asarray(z, dtype=complex)
@@ -98,14 +139,29 @@ def second_kind_values(rc: RecurrenceCoefficients, z, degrees: Sequence[int] | i
     if single:
         values = ScaledValues(values.mantissa[0], values.log_scale[0])
         convergence = convergence[0]
-    return values, convergence
+    return _settled(values, convergence, tolerance, rc, on_failure)
 
 
-def cauchy_transform(rc: RecurrenceCoefficients, z, degree: int, *, monic: bool = True) -> tuple[ScaledValues, np.ndarray]:
-    """``C(π_k w)(z)`` (or ``C(p_k w)(z)`` with ``monic=False``) as scaled values, with convergence."""
-    q, convergence = second_kind_values(rc, z, int(degree))
+def _settled(values: ScaledValues, convergence: np.ndarray, tolerance: float, rc, on_failure: str) -> SecondKindValues:
+    checks = {"convergence": worst(convergence)}
+    message = failure_message(checks, {"convergence": tolerance},
+                              what=f"the continued fraction with {rc.count} coefficients")
+    if message:
+        message += "; z is too close to the set: use more coefficients"
+    return settle(SecondKindValues(values, convergence, not message, checks, message), on_failure)
+
+
+def cauchy_transform(rc: RecurrenceCoefficients, z, degree: int, *, monic: bool = True,
+                     tolerance: float = 1e-12, on_failure: str = "raise") -> SecondKindValues:
+    """``C(π_k w)(z)`` (or ``C(p_k w)(z)`` with ``monic=False``) as scaled values, with convergence.
+
+    ``C(p_k w) = -q_k/(2πi)`` (module docstring); ``tolerance`` and ``on_failure``
+    as in :func:`second_kind_values`.
+    """
+    q = second_kind_values(rc, z, int(degree), tolerance=tolerance, on_failure=on_failure)
     shift = -float(rc.log_leading()[degree]) if monic else 0.0
-    return ScaledValues(-q.mantissa / _TWO_PI_I, q.log_scale + shift), convergence
+    values = ScaledValues(-q.values.mantissa / _TWO_PI_I, q.values.log_scale + shift)
+    return SecondKindValues(values, q.convergence, q.verified, q.checks, q.message)
 
 
 def cauchy_transform_by_quadrature(rc: RecurrenceCoefficients, disc, z, degree: int) -> np.ndarray:
@@ -131,6 +187,8 @@ class OrthogonalityMatrix:
     mantissa, log_scale : arrays (2, 2, *z.shape): ``Y_ij = mantissa · exp(log_scale)``.
     det : ``det Y`` computed from the scaled factors (should be 1).
     checks : ``det_error = max |det Y - 1|``, ``convergence`` of the continued fraction.
+    verified, message : the continued fraction converged to the tolerance asked for
+        (``det_error`` is informative: it is O(1) rounding of the scaled factors).
     """
 
     z: np.ndarray
@@ -139,6 +197,8 @@ class OrthogonalityMatrix:
     log_scale: np.ndarray
     det: np.ndarray
     checks: Mapping[str, float] = dataclass_field(default_factory=dict)
+    verified: bool = True
+    message: str = ""
 
     def value(self) -> np.ndarray:
         """Plain entries (overflow to inf for large n far from Σ)."""
@@ -146,12 +206,16 @@ class OrthogonalityMatrix:
             return self.mantissa * np.exp(self.log_scale)
 
 
-def orthogonality_matrix(rc: RecurrenceCoefficients, z, n: int, *, tolerance: float = 1e-12) -> OrthogonalityMatrix:
+def orthogonality_matrix(rc: RecurrenceCoefficients, z, n: int, *, tolerance: float = 1e-12,
+                         on_failure: str = "raise") -> OrthogonalityMatrix:
     """``Y(z)`` for the weight of ``rc`` (needs ``rc.count > n``; more near Σ).
 
-    Raises NumericalFailure when the continued fraction has not converged to
-    ``tolerance`` with the coefficients available.
+    When the continued fraction has not converged to ``tolerance`` with the
+    coefficients available, ``on_failure="raise"`` raises NumericalFailure
+    (:func:`orthogonality_matrix_for_weight` then adds coefficients) and
+    ``"mark"`` returns Y with ``verified = False``.
     """
+    failure_policy(on_failure)
     n = int(n)
     if n < 1:
         raise InputError(f"Y needs n >= 1, got {n}")
@@ -161,7 +225,8 @@ def orthogonality_matrix(rc: RecurrenceCoefficients, z, n: int, *, tolerance: fl
     p = orthonormal_values(rc, z, n, all_degrees=True)
     pn = ScaledValues(p.mantissa[n], p.log_scale[n])
     pm = ScaledValues(p.mantissa[n - 1], p.log_scale[n - 1])
-    q, convergence = second_kind_values(rc, z, [n, n - 1])
+    second = second_kind_values(rc, z, [n, n - 1], tolerance=tolerance, on_failure="mark")
+    q = second.values
     qn = ScaledValues(q.mantissa[0], q.log_scale[0])
     qm = ScaledValues(q.mantissa[1], q.log_scale[1])
     log_gamma = rc.log_leading()
@@ -175,14 +240,9 @@ def orthogonality_matrix(rc: RecurrenceCoefficients, z, n: int, *, tolerance: fl
     with np.errstate(over="ignore", under="ignore"):
         det = rc.a[n] * (pn.mantissa * qm.mantissa * np.exp(pn.log_scale + qm.log_scale)
                          - pm.mantissa * qn.mantissa * np.exp(pm.log_scale + qn.log_scale))
-    checks = {"det_error": float(np.max(np.abs(det - 1.0))), "convergence": float(np.max(convergence))}
-    if checks["convergence"] > tolerance:
-        raise NumericalFailure(
-            f"the continued fraction for the second-kind functions changed by {checks['convergence']:.1e} "
-            f"(tolerance {tolerance:.0e}) with {rc.count} coefficients; z is too close to the set: "
-            "use more coefficients (orthogonality_matrix_for_weight adds them)"
-        )
-    return OrthogonalityMatrix(z, n, mantissa, scale, det, checks)
+    checks = {"det_error": worst(det - 1.0), **second.checks}
+    message = second.message and second.message + " (orthogonality_matrix_for_weight adds them)"
+    return settle(OrthogonalityMatrix(z, n, mantissa, scale, det, checks, not message, message), on_failure)
 
 
 def orthogonality_matrix_for_weight(weight: Weight, z, n: int, *, tolerance: float = 1e-12,

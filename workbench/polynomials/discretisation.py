@@ -162,7 +162,11 @@ class Discretisation:
 def measure_for(weight: Weight, degree: int, solver: Callable[..., Any] | None = None):
     """The equilibrium measure of ``(n/degree) V`` on Σ (``V`` itself when V = 0)."""
     if solver is None:
-        from equilibrium import solve as solver  # imported late: the package may be optional
+        from equilibrium import solve  # imported late: the package may be optional
+
+        def solver(field, on):
+            # marked, not raised: the message below says what the measure was for
+            return solve(field, on=on, on_failure="mark")
     field = weight.field
     if not getattr(field, "is_zero", False):
         field = field.scaled(weight.n / max(degree, 1))

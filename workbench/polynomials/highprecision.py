@@ -33,6 +33,7 @@ import mpmath
 import numpy as np
 
 from equilibrium.errors import InputError
+from equilibrium.verification import failure_message, failure_policy, settle
 
 from .recurrence import RecurrenceCoefficients
 from .weight import ConstantFactor, JacobiFactor, PowerFactor, Weight
@@ -161,7 +162,8 @@ def _stieltjes_fixed(xs, logs, count: int, bits: int):
 
 
 def recurrence_coefficients_mp(weight: Weight, count: int, *, dps: int = 34, level: int = 5,
-                               panels_per_unit: float | None = None) -> RecurrenceCoefficients:
+                               panels_per_unit: float | None = None,
+                               on_failure: str = "raise") -> RecurrenceCoefficients:
     """Referee values of ``a_k, b_k`` (k ≤ count) with their own error estimate.
 
     Parameters
@@ -171,7 +173,10 @@ def recurrence_coefficients_mp(weight: Weight, count: int, *, dps: int = 34, lev
     dps : decimal digits of the arithmetic.
     level : tanh–sinh step ``2^-level`` of the fine rule (the coarse rule uses ``2^-(level-1)``).
     panels_per_unit : panels per unit length (default from the support width and K).
+    on_failure : ``"raise"`` (NumericalFailure when the step-halving difference exceeds
+        1e-15) or ``"mark"`` (``verified = False``); see :mod:`equilibrium.verification`.
     """
+    failure_policy(on_failure)
     if weight.field.polynomial is None:
         raise InputError("the high-precision referee needs a polynomial field")
     if count < 0 or count > 200:
@@ -191,11 +196,13 @@ def recurrence_coefficients_mp(weight: Weight, count: int, *, dps: int = 34, lev
         diff = max(max(abs(x - y) for x, y in zip(a0, a1)), max(abs(x - y) for x, y in zip(b0, b1)))
         a = np.array([float(v) for v in a1])
         b = np.array([float(v) for v in b1])
-        return RecurrenceCoefficients(
+        checks = {"nodes": float(len(xs)), "step_halving_difference": float(diff),
+                  "fine_rule_error_heuristic": float(diff) ** 2}
+        message = failure_message(checks, {"step_halving_difference": 1e-15},
+                                  what="the high-precision recurrence coefficients")
+        return settle(RecurrenceCoefficients(
             a=a, b=b, n=weight.n, error_estimate=float(diff),
             method=f"mpmath {dps} digits, composite tanh-sinh (step 2^-{level}), fixed-point Stieltjes",
             weight_description=weight.description,
-            checks={"nodes": float(len(xs)), "step_halving_difference": float(diff),
-                    "fine_rule_error_heuristic": float(diff) ** 2},
-            log_mass=float(log_mass), verified=bool(diff < 1e-15),
-        )
+            checks=checks, log_mass=float(log_mass), verified=not message, message=message,
+        ), on_failure)

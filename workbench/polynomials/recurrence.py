@@ -42,6 +42,7 @@ from typing import Any, Callable, Mapping
 import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.verification import failure_message, failure_policy, float_checks, settle
 
 from .discretisation import PRIMARY, SECONDARY, Discretisation, discretise, estimate_size, measure_for
 from .weight import Weight
@@ -73,6 +74,7 @@ class RecurrenceCoefficients:
         discretisation (``None`` when it was not run); quantities built from the
         coefficients (Hankel determinants, norms) take their error estimates
         from the differences.
+    message : empty when verified, else the failed checks (:mod:`equilibrium.verification`).
     """
 
     a: np.ndarray
@@ -86,6 +88,7 @@ class RecurrenceCoefficients:
     verified: bool = True
     a_secondary: np.ndarray | None = None
     log_mass_secondary: float | None = None
+    message: str = ""
 
     @property
     def count(self) -> int:
@@ -108,7 +111,7 @@ class RecurrenceCoefficients:
             self.a[: count + 1].copy(), self.b[: count + 1].copy(), self.n, self.error_estimate,
             self.method, self.weight_description, dict(self.checks), self.log_mass, self.verified,
             None if self.a_secondary is None else self.a_secondary[: count + 1].copy(),
-            self.log_mass_secondary,
+            self.log_mass_secondary, self.message,
         )
 
 
@@ -203,7 +206,8 @@ def recurrence_coefficients(weight: Weight, count: int, *, tolerance: float = 1e
     tolerance : allowed ``|Δ_k| / max(1, |a_k|, |b_k|)`` between the two discretisations.
     measure : the equilibrium measure of ``(n/K) V`` if already known (node placement only).
     solver : the equilibrium solver (default :func:`equilibrium.solve`).
-    on_failure : ``"raise"`` (NumericalFailure) or ``"mark"`` (``verified = False``).
+    on_failure : ``"raise"`` (NumericalFailure) or ``"mark"`` (``verified = False``);
+        see :mod:`equilibrium.verification`.
     verify : run the second discretisation (default True).
 
     Returns
@@ -215,8 +219,7 @@ def recurrence_coefficients(weight: Weight, count: int, *, tolerance: float = 1e
     count = int(count)
     if count < 0:
         raise InputError(f"count = {count} must be >= 0")
-    if on_failure not in ("raise", "mark"):
-        raise InputError("on_failure must be 'raise' or 'mark'")
+    failure_policy(on_failure)
     check_memory(weight, count)
     degree = count + 1  # the layout covers p_0 .. p_{K+1}
     if measure is None:
@@ -225,7 +228,7 @@ def recurrence_coefficients(weight: Weight, count: int, *, tolerance: float = 1e
     a, b = stieltjes(first, count)
     checks: dict[str, float] = {"nodes_primary": float(first.size), "cut_level": first.level}
     error = float("nan")
-    verified = True
+    message = ""
     a2 = None
     log_mass2 = None
     if verify:
@@ -241,19 +244,18 @@ def recurrence_coefficients(weight: Weight, count: int, *, tolerance: float = 1e
             relative_error_estimate=relative,
             log_mass_difference=abs(first.log_mass - second.log_mass),
         )
-        verified = relative <= tolerance and checks["log_mass_difference"] <= max(tolerance, 1e-9)
-        if not verified and on_failure == "raise":
+        message = failure_message(
+            checks, {"relative_error_estimate": tolerance, "log_mass_difference": max(tolerance, 1e-9)},
+            what="the recurrence coefficients")
+        if message:
             worst = int(np.argmax(delta / size))
-            raise NumericalFailure(
-                f"two discretisations of the weight disagree by {relative:.2e} (tolerance {tolerance:.1e}) "
-                f"at k = {worst}; the recurrence coefficients are not certified"
-            )
+            message += f"; two discretisations of the weight disagree most at k = {worst}"
     if not (np.all(np.isfinite(a)) and np.all(np.isfinite(b)) and np.all(a[1:] > 0)):
         raise NumericalFailure("the Stieltjes procedure produced non-finite or non-positive a_k")
-    return RecurrenceCoefficients(
+    return settle(RecurrenceCoefficients(
         a=a, b=b, n=weight.n, error_estimate=error,
         method=f"discretised Stieltjes, per-node binary scaling, {first.size} nodes "
                f"({PRIMARY.name}), checked on {int(checks.get('nodes_secondary', 0))} ({SECONDARY.name})",
-        weight_description=weight.description, checks=checks, log_mass=first.log_mass,
-        verified=verified, a_secondary=a2, log_mass_secondary=log_mass2,
-    )
+        weight_description=weight.description, checks=float_checks(checks), log_mass=first.log_mass,
+        verified=not message, message=message, a_secondary=a2, log_mass_secondary=log_mass2,
+    ), on_failure)

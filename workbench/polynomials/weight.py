@@ -247,14 +247,14 @@ class Weight:
         object.__setattr__(self, "n", n)
         object.__setattr__(self, "factors", tuple(self.factors))
         if getattr(self.field, "is_zero", False) and not self.on.is_compact:
-            raise InputError("V = 0 needs a compact set; give --on=a:b (e.g. --on=-1:1)")
+            raise InputError("V = 0 needs a compact set; give a bounded set a:b (e.g. -1:1)", about="set")
         lo, hi = self.on.hull
         for factor in self.factors:
             d_lo, d_hi = factor.domain()
             if lo < d_lo or hi > d_hi:
                 raise InputError(
                     f"the factor {factor.description} is defined on [{d_lo:g}, {d_hi:g}] but the set "
-                    f"is {self.on}; restrict the set (e.g. --on={max(lo, d_lo):g}:{min(hi, d_hi):g})"
+                    f"is {self.on}; restrict the set (e.g. to {max(lo, d_lo):g}:{min(hi, d_hi):g})", about="set"
                 )
 
     # -- singular structure ---------------------------------------------------
