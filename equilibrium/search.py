@@ -179,9 +179,9 @@ def solve_signed(field: Field, on: IntervalSet, *, on_failure: str = "raise") ->
     The measure ν has ν(E) = 1, 2U^ν + V = ℓ on all of E (one constant), and
     an inverse square-root singularity at every end of E.
 
-    ``on_failure`` -- ``"raise"`` (NumericalFailure when a verification figure
+    ``on_failure`` -- ``"raise"`` (NumericalFailure when a check
     fails) or ``"mark"`` (the measure with ``verified = False`` and the failed
-    figures in ``message``); see :mod:`equilibrium.verification`.
+    checks in ``message``); see :mod:`equilibrium.verification`.
     """
     failure_policy(on_failure)
     if not on.is_compact:
@@ -392,9 +392,9 @@ def solve(
         point of a sweep.  Newton's method then starts from its structure;
         when that does not lead to a verified measure the full search runs,
         so a guess never changes the answer, only the time to it.
-    on_failure : ``"raise"`` (NumericalFailure when a verification figure
+    on_failure : ``"raise"`` (NumericalFailure when a check
         fails) or ``"mark"`` (the measure with ``verified = False`` and the
-        failed figures in ``message``); see :mod:`equilibrium.verification`.
+        failed checks in ``message``); see :mod:`equilibrium.verification`.
     """
     failure_policy(on_failure)
     on = IntervalSet.real_line() if on is None else on

@@ -124,7 +124,7 @@ class GFunction:
         max |g_+ + g_- − V + ℓ| on sample points of the bands; ``'gap_phase'``:
         max |g_+ − g_- − 2πiΩ_j| in the gaps.
     verified, message :
-        Whether every figure is within tolerance, and the failed ones
+        Whether every check is within tolerance, and the failed ones
         (:mod:`equilibrium.verification`).
     """
 

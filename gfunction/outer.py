@@ -123,7 +123,7 @@ class ModelProblem:
     phase_map : float ndarray (g, g)  ``W = phase_map @ w`` (mod 1)
     lam : complex ndarray             λ_1, λ_2, λ_3
     checks : dict                     lattice rounding, vanishing of θ(-u(z_j)+d), ...
-    verified, message : bool, str     every figure within tolerance; the failed ones otherwise
+    verified, message : bool, str     every check within tolerance; the failed ones otherwise
     """
 
     support: tuple

@@ -156,7 +156,7 @@ class SzegoFunction:
         ``'gap_ratio'`` (max ``|D_+/D_- - e^{2πic_j}|``), ``'infinity'``
         (``|2D(2z) - D(z) - D_∞|/D_∞`` at ``|z| ≈ 10^3`` band widths: O(z^{-2}),
         accepted up to 1e-6), ``'moment_imag'`` (imaginary parts that must vanish).
-    verified, message : whether every figure is within tolerance, and the failed ones
+    verified, message : whether every check is within tolerance, and the failed ones
         (:mod:`equilibrium.verification`).
     """
 

@@ -35,7 +35,7 @@ def test_nan_never_passes():
     tolerances = {"residual": 1e-10, "margin": 0.0}
     assert failed_checks({"residual": math.nan}, tolerances) == ["residual"]
     assert failed_checks({"margin": math.nan}, tolerances, lower=("margin",)) == ["margin"]
-    # a figure without a tolerance is informative, but a NaN (or an overflow) there fails too
+    # a check without a tolerance is informative, but a NaN (or an overflow) there fails too
     assert failed_checks({"nodes": 300.0, "other": math.nan, "big": math.inf}, tolerances) == ["other", "big"]
     # a margin bounded below may be +inf (nothing to bound: no region off the support)
     assert failed_checks({"margin": math.inf}, tolerances, lower=("margin",)) == []
