@@ -106,7 +106,8 @@ def locate_transition(
     ----------
     family : t ↦ Field.
     lower, upper : a bracket; the solutions at both ends must differ in
-        their number of bands.
+        their number of bands, and both must be verified (their band counts
+        are trusted): NumericalFailure otherwise.
     tolerance : absolute tolerance of Brent's method on the parameter.
     steps : continuation steps from the side with fewer bands toward the other end
         until the margin changes sign (a bracket of one cell of a sweep grid needs few).
