@@ -120,6 +120,7 @@ def measure_group(mu: EquilibriumMeasure, grid_points: int = 801) -> Group:
             "kind": mu.kind,
             "positive": bool(mu.positive),
             "density_minimum": float(mu.to_dict()["density_minimum"]),
+            "negative_mass": 0.0 if mu.positive else float(mu.negative_part()[1]),
             "bands": int(support.shape[0]),
             "lagrange": float(mu.lagrange),
             "energy": float(mu.energy),

@@ -186,7 +186,7 @@ def test_negative_signed_measure_is_not_positive_closed_form():
     F = 2 * math.asin(root) + (2 * root - 1) * math.sqrt(1 - root**2)
     exact = -(F + math.pi) / (2 * math.pi)
     assert mass == pytest.approx(exact, rel=1e-11)
-    assert mu.checks["negative_mass"] == pytest.approx(exact, rel=1e-11)
+    assert mu.to_dict()["negative_mass"] == pytest.approx(exact, rel=1e-11)
     # regular part 4 - 4x² + x: -1 at x = -1 against its largest value 4 + 1/16 at x = 1/8
     assert mu.checks["density_minimum"] == pytest.approx(-1 / 4.0625, rel=1e-4)
     data = mu.to_dict()
@@ -216,4 +216,4 @@ def test_unweighted_sets_are_positive():
     (harmonic measure at infinity; Ransford 1995, Thm 4.3.14, from memory)."""
     mu = solve_signed(Field.zero(), IntervalSet.parse("-1:-0.25,0.4:1"))
     assert mu.positive and mu.negative_part() == ((), 0.0)
-    assert mu.checks["negative_mass"] == 0.0 and mu.checks["density_minimum"] > 0
+    assert mu.to_dict()["negative_mass"] == 0.0 and mu.checks["density_minimum"] > 0
