@@ -114,23 +114,35 @@ def _zeta_scale(ep: EdgeParametrix, degree: int) -> float:
 
 
 def _invert_local_variable(ep: EdgeParametrix, targets: np.ndarray) -> np.ndarray:
-    """Real points ``x`` near the edge with ``f_e(x) = targets`` (secant steps from ``e + t/f'(e)``)."""
+    """Real points ``x`` near the edge with ``f_e(x) = targets`` (secant steps from ``e + t/f'(e)``).
+
+    ``targets`` grow in modulus (moving from the edge into the band).  Where the steps do not
+    reach the target (relative residual above 1e-8: far from the edge, where ``f_e`` need not be
+    one-to-one on the real line), or the points stop moving away from the edge, the entries are
+    NaN.
+    """
     gf = ep.predictor.g
     e = ep.edge
     targets = np.asarray(targets, dtype=float)
     x = e + targets / gf.edges[ep.index].derivative
     eps = np.finfo(float).eps
-    for _ in range(40):
-        d = x - e
-        h = 1e-7 * d
-        f0 = gf.local_variable(ep.index, x + 0j).real - targets
-        f1 = gf.local_variable(ep.index, x + h + 0j).real - targets
-        step = f0 * h / (f1 - f0)
-        step = np.where(np.isfinite(step), step, 0.0)
-        x = x - step
-        if np.all(np.abs(step) <= 4 * eps * np.abs(x - e)):
-            break
-    return x
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        for _ in range(40):
+            d = x - e
+            h = 1e-7 * d
+            f0 = gf.local_variable(ep.index, x + 0j).real - targets
+            f1 = gf.local_variable(ep.index, x + h + 0j).real - targets
+            step = f0 * h / (f1 - f0)
+            step = np.where(np.isfinite(step), step, 0.0)
+            x = x - step
+            if np.all(np.abs(step) <= 4 * eps * np.abs(x - e)):
+                break
+        residual = np.abs(gf.local_variable(ep.index, x + 0j).real - targets) / np.abs(targets)
+    good = np.isfinite(x) & (residual <= 1e-8)
+    distance = np.abs(x - e)
+    good &= np.concatenate([[True], np.diff(distance) > 0])
+    good = np.logical_and.accumulate(good)       # nothing beyond the first failure
+    return np.where(good, x, np.nan)
 
 
 def _form_coefficient(ep: EdgeParametrix, x: np.ndarray, degree: int, cor) -> tuple[np.ndarray, np.ndarray]:
@@ -164,8 +176,8 @@ def edge_scaling_zeros(predictor, index: int, degree: int, count: int = 5, *,
 
     The model zeros with the exact local variable ``f_e`` of ``gfunction.gfunction``
     (``ι_m``: ``scipy.special.ai_zeros``; ``j_{α,m}``: :func:`bessel_zeros`), from the edge
-    inward.  Errors (module docstring): ``O(n^{-1})`` at soft and ``O(n^{-3})`` (relative
-    ``O(n^{-1})``) at hard edges.  Check: ``local_variable_residual``, the relative residual of
+    inward; those beyond the matching disc are NaN (``checks['outside_disc']``).  Errors (module
+    docstring): ``O(n^{-1})`` at soft and ``O(n^{-3})`` (relative ``O(n^{-1})``) at hard edges.  Check: ``local_variable_residual``, the relative residual of
     ``f_e(x_m) = ζ_m/scale``.  ``on_failure``: ``"raise"`` or ``"mark"``
     (:mod:`equilibrium.verification`).
     """
@@ -174,15 +186,26 @@ def edge_scaling_zeros(predictor, index: int, degree: int, count: int = 5, *,
     model, _ = _model_zeros(ep, count)
     scale = _zeta_scale(ep, degree)
     x = _invert_local_variable(ep, model / scale)
-    f = ep.predictor.g.local_variable(index, x + 0j).real
-    residual = np.abs(scale * f - model) / np.abs(model)
-    checks = {"local_variable_residual": float(np.max(residual)) if np.all(np.isfinite(residual)) else float("nan"),
-              "outside_disc": float(np.sum(~(np.abs(x - ep.edge) < ep.radius)))}
+    inside = _in_disc(ep, x)
+    x = np.where(inside, x, np.nan)
+    f = np.full(x.shape, np.nan)
+    f[inside] = ep.predictor.g.local_variable(index, x[inside] + 0j).real
+    residual = np.abs(scale * f[inside] - model[inside]) / np.abs(model[inside])
+    checks = {"local_variable_residual": float(np.max(residual, initial=0.0)) if np.all(np.isfinite(residual))
+              else float("nan"),
+              "outside_disc": float(np.sum(~inside))}
     # built on the predictor: an unverified g-function or model problem makes the zeros unverified
     verified, message = ep.predictor._verdict(checks, f"scaling zeros at edge {index}")
     result = EdgeZeros(int(index), degree, x, "scaling", verified, checks, message, order=0, kind=ep.kind,
                        position=ep.edge, alpha=ep.alpha, offsets=x - ep.edge, zeta=scale * f, model_zeros=model)
     return settle(result, on_failure)
+
+
+def _in_disc(ep: EdgeParametrix, x: np.ndarray) -> np.ndarray:
+    """Finite points on the band side of the edge inside its matching disc, where the forms hold."""
+    x = np.asarray(x, dtype=float)
+    with np.errstate(invalid="ignore"):
+        return np.isfinite(x) & (np.abs(x - ep.edge) < ep.radius) & (ep.side * (x - ep.edge) < 0)
 
 
 def _checked(predictor, index: int, degree: int, count: int):
@@ -202,7 +225,8 @@ def edge_zeros(predictor, index: int, degree: int, count: int = 5, *, order: int
     ``J_α(u) + (κ/2) u J_α'(u)`` (hard edge with Jacobi exponent α) in the exact local
     variable (module docstring).  Each zero is bracketed between the images of the
     midpoints of consecutive model zeros (``ι_m`` or ``j_{α,m}``) and refined by the
-    Illinois method to rounding.
+    Illinois method to rounding.  Zeros whose bracket reaches beyond the matching disc (small
+    ``n``) are NaN: the forms are derived inside it (``checks['outside_disc']`` counts them).
 
     ``order`` 0 uses ``R = I``; order ``K ≥ 1`` the residual matrix
     ``R(z) = I + R^{(1)}(z)/n + … + R^{(K)}(z)/n^K`` inside the disc at this degree
@@ -221,7 +245,9 @@ def edge_zeros(predictor, index: int, degree: int, count: int = 5, *, order: int
     model, mids = _model_zeros(ep, count)
     scale = _zeta_scale(ep, degree)
     ends = _invert_local_variable(ep, mids / scale)         # x at the bracket ends, from the edge inward
-    inner, outer = ends[:-1], ends[1:]
+    # the forms hold in the matching disc: brackets reaching beyond it give no prediction (NaN)
+    usable = _in_disc(ep, ends[1:]) & _in_disc(ep, ends[:-1])
+    inner, outer = ends[:-1][usable], ends[1:][usable]
     imag = [0.0]
 
     def form(x):
@@ -232,16 +258,21 @@ def edge_zeros(predictor, index: int, degree: int, count: int = 5, *, order: int
             return ai + coef.real * aip
         return jv(ep.alpha, var) + 0.5 * coef.real * var * jvp(ep.alpha, var)
 
-    f_inner, f_outer = form(inner), form(outer)
-    missing = ~(np.sign(f_inner) * np.sign(f_outer) < 0)
-    swap = inner > outer                                     # the Illinois brackets run left to right
-    lo, hi = np.where(swap, outer, inner), np.where(swap, inner, outer)
-    f_lo, f_hi = np.where(swap, f_outer, f_inner), np.where(swap, f_inner, f_outer)
-    x = _refine_sign_changes(lambda t, rows: form(t), lo, hi, f_lo, f_hi)
-    x = np.where(missing, np.nan, x)
-    zeta = scale * ep.predictor.g.local_variable(index, np.nan_to_num(x, nan=ep.edge) + 0j).real
+    x = np.full(count, np.nan)
+    missing = np.zeros(0, dtype=bool)
+    if inner.size:
+        f_inner, f_outer = form(inner), form(outer)
+        missing = ~(np.sign(f_inner) * np.sign(f_outer) < 0)
+        swap = inner > outer                                 # the Illinois brackets run left to right
+        lo, hi = np.where(swap, outer, inner), np.where(swap, inner, outer)
+        f_lo, f_hi = np.where(swap, f_outer, f_inner), np.where(swap, f_inner, f_outer)
+        found = _refine_sign_changes(lambda t, rows: form(t), lo, hi, f_lo, f_hi)
+        x[usable] = np.where(missing, np.nan, found)
+    zeta = np.full(count, np.nan)
+    ok = np.isfinite(x)
+    zeta[ok] = scale * ep.predictor.g.local_variable(index, x[ok] + 0j).real
     checks = {"imag_ratio": imag[0], "missing_sign_change": float(np.sum(missing)),
-              "outside_disc": float(np.sum(~(np.abs(x - ep.edge) < ep.radius)))}
+              "outside_disc": float(np.sum(~usable))}
     name = "Airy form" if ep.kind == "soft" else "Bessel form"
     # built on the predictor: an unverified g-function or model problem makes the zeros unverified
     verified, message = ep.predictor._verdict(checks, f"{name} zeros at edge {index} (order {order})")

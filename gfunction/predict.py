@@ -146,7 +146,9 @@ class EdgeZeros:
     of a hard edge; ``offsets`` are ``x_m - e``; ``zeta`` the local variable at the zeros and
     ``model_zeros`` its values at the scaling level (``ι_m`` or ``-j_{α,m}²/4``).  Checks:
     ``local_variable_residual`` (scaling), ``imag_ratio``, ``missing_sign_change`` (forms),
-    ``outside_disc`` (zeros beyond the matching circle; informative: the form is derived inside it).
+    ``outside_disc`` (how many of the ``count`` zeros would lie beyond the matching circle, where the
+    forms are not derived, or where the local variable could not be inverted: those entries are NaN,
+    no prediction; informative, not a failure).
     """
 
     edge: int
@@ -584,7 +586,8 @@ def _refine_sign_changes(function, left, right, f_left, f_right, iterations: int
         previous = np.where(active, x, previous)
         active &= ~converged
         fx = np.zeros(x.shape)
-        fx[active] = function(x[active], np.nonzero(active)[0])
+        if np.any(active):   # no call with empty points (a function need not accept them)
+            fx[active] = function(x[active], np.nonzero(active)[0])
         same_as_left = np.sign(fx) == np.sign(f_left)
         move_left = active & same_as_left
         move_right = active & ~same_as_left

@@ -20,8 +20,9 @@ errors        errors against n on log-log axes with the fitted slope ± its stan
               error; every err_* dataset of /comparison, each in its own colour
 gap_zeros     the zero of p_n in each gap against n, direct (squares) and predicted
               (dots) in the colour of the gap
-edge_zeros    zeros next to the rightmost soft edge in the Airy scaling
-              (n^{2/3} c (x_j - b) against the Airy zeros a_j)
+edge_zeros    zeros next to the outer edges in the Airy (soft) or Bessel (hard) scaling
+              (n^{2/3} c (x_j - e) against the Airy zeros a_j, n^2 c (x_j - e) against
+              -j_{alpha,j}^2/4), one panel per outer edge
 phase         (sweep files) number of bands over the parameter grid; the transition
               curves through the located transitions of the grid edges
               (/grid/transition_*); Ω_1 contours inside each region of one band count
@@ -297,27 +298,44 @@ def draw_gap_zeros(tree: Group):
 
 
 def draw_edge_zeros(tree: Group):
-    """Largest zeros in the Airy scaling against the Airy zeros (at each stored n)."""
+    """Zeros next to the outer edges in the scaling of the local variable against the model zeros
+    (at each stored n): Airy zeros a_j at a soft edge, -j_{alpha,j}^2/4 at a hard one.  One panel per
+    compared edge, the right one first (files before the hard-edge predictions store ``airy_zeros``
+    for the right edge only)."""
     comp = tree.groups.get("comparison")
-    if comp is None or not comp.has("edge_scaled_direct"):
+    if comp is None:
         return None
-    scaled = np.atleast_2d(np.asarray(comp.get("edge_scaled_direct"), dtype=float))
-    airy = np.asarray(comp.get("airy_zeros"), dtype=float)
+    model = tree.groups.get("model", Group())
+    panels = []
+    for suffix, side, letter in (("", "right", "b"), ("_left", "left", "a")):
+        if not comp.has(f"edge_scaled_direct{suffix}"):
+            continue
+        key = f"edge_model_zeros{suffix}" if comp.has(f"edge_model_zeros{suffix}") else "airy_zeros"
+        panels.append((suffix, side, letter, key, model.attrs.get(f"edge_kind{suffix}", "soft") == "hard"))
+    if not panels:
+        return None
     n = comp.get("n")
-    fig, axes = new_figure(height=2.7)
-    ax = axes[0, 0]
-    j = np.arange(1, airy.size + 1)
-    (line,) = ax.plot(j, airy, color="k", lw=0.8)
-    handles, labels = [line], ["Airy zeros $a_j$"]
-    for i in range(scaled.shape[0]):
-        (points,) = ax.plot(j, scaled[i], ls="none", marker=MARKERS[i % len(MARKERS)], mfc="none",
-                            color=SERIES[i % len(SERIES)])
-        handles.append(points)
-        labels.append(f"$n = {int(n[i])}$")
-    ax.set_xlabel("$j$ (counted from the edge)")
-    ax.set_ylabel(r"$n^{2/3} c\,(x_j - b)$")
-    ax.set_title("zeros at the soft edge, Airy scaling")
-    ax.xaxis.set_major_locator(__import__("matplotlib.ticker", fromlist=["MaxNLocator"]).MaxNLocator(integer=True))
+    fig, axes = new_figure(height=2.2 * len(panels) + 0.5, nrows=len(panels))
+    references, handles, labels = {}, [], []
+    for row, (ax, (suffix, side, letter, key, hard)) in enumerate(zip(axes[:, 0], panels)):
+        scaled = np.atleast_2d(np.asarray(comp.get(f"edge_scaled_direct{suffix}"), dtype=float))
+        reference = np.asarray(comp.get(key), dtype=float)
+        j = np.arange(1, reference.size + 1)
+        (line,) = ax.plot(j, reference, color="k", lw=0.8, ls=DASHES[1] if hard else DASHES[0])
+        references.setdefault(r"$-j_{\alpha,j}^2/4$ (Bessel)" if hard else "Airy zeros $a_j$", line)
+        for i in range(scaled.shape[0]):
+            (points,) = ax.plot(j, scaled[i], ls="none", marker=MARKERS[i % len(MARKERS)], mfc="none",
+                                color=SERIES[i % len(SERIES)])
+            if row == 0:   # the same markers in every panel: one legend entry per n
+                handles.append(points)
+                labels.append(f"$n = {int(n[i])}$")
+        ax.set_xlabel("$j$ (counted from the edge)")
+        ax.set_ylabel((r"$n^{2} c\,(x_j - %s)$" if hard else r"$n^{2/3} c\,(x_j - %s)$") % letter)
+        ax.set_title(f"zeros at the {side} {'hard' if hard else 'soft'} edge, "
+                     f"{'Bessel' if hard else 'Airy'} scaling")
+        ax.xaxis.set_major_locator(__import__("matplotlib.ticker", fromlist=["MaxNLocator"]).MaxNLocator(integer=True))
+    handles = list(references.values()) + handles
+    labels = list(references) + labels
     _legend_below(fig, handles, labels, entries_per_row=4)
     return fig
 

@@ -53,11 +53,14 @@ from workbench.results import (
 __all__ = ["RateFit", "fit_rate", "RunOutcome", "run_case", "ERROR_QUANTITIES"]
 
 #: error quantities of /comparison that get a fitted rate
-ERROR_QUANTITIES = ("err_a", "err_b", "err_values", "err_zeros_bulk", "err_zeros_edge",
-                    "err_zeros_gap", "small_norm")
+ERROR_QUANTITIES = ("err_a", "err_b", "err_values", "err_zeros_bulk", "err_zeros_edge", "err_zeros_edge_right",
+                    "err_zeros_edge_left", "err_zeros_edge_scaling", "err_zeros_gap", "small_norm")
 
-#: zeros next to each soft edge compared with the Airy prediction
+#: zeros next to each outer edge compared with the Airy (soft) or Bessel (hard) prediction
 EDGE_ZEROS = 5
+#: the outer edges compared (edge number, -1: the last), and the suffix of their datasets
+EDGE_SIDES = (("right", -1), ("left", 0))
+EDGE_SUFFIX = {"right": "", "left": "_left"}
 
 
 # ------------------------------------------------------------------------ rates
@@ -348,12 +351,8 @@ def comparison_notes(tree: Group, case: Case) -> tuple[list[str], list[str]]:
         notes.append("small-norm check not made: " + str(model.attrs.get(
             "small_norm_skipped", "the model side gave no outer parametrix on the circles")))
     if wanted.zeros and not comp.has("err_zeros_edge"):
-        eq = tree.groups.get("equilibrium", Group())
-        edges = np.asarray(eq.get("edges")).reshape(-1) if eq.has("edges") else np.array([])
-        right = str(edges[-1]) if edges.size else "unknown"
-        notes.append("edge zeros not compared: " + (
-            "the right end of the support is a hard edge (the Airy comparison needs a soft edge)"
-            if right == "hard" else "the model side gave no edge zeros"))
+        notes.append("edge zeros not compared: " + str(model.attrs.get(
+            "edge_zeros_skipped", model.attrs.get("edge_zeros_left_skipped", "the model side gave no edge zeros"))))
     if wanted.zeros and comp.has("gap_zeros_direct") and comp.has("gap_zeros_model"):
         direct = np.atleast_2d(np.asarray(comp.get("gap_zeros_direct"), dtype=float))
         predicted = np.atleast_2d(np.asarray(comp.get("gap_zeros_model"), dtype=float))
@@ -365,16 +364,36 @@ def comparison_notes(tree: Group, case: Case) -> tuple[list[str], list[str]]:
         if direct.shape[1] and one_side.any():
             notes.append(f"gap zeros: a zero on one side only at n = {_n_list(ns[one_side])} "
                          "(gap_zero_presence_mismatch; usually a zero close to a band end)")
+    # edge zeros: at small n the matching disc may hold none of them (no prediction there)
+    compared = [np.asarray(comp.get(f"edge_zeros{suffix}_compared")) for suffix in EDGE_SUFFIX.values()
+                if comp.has(f"edge_zeros{suffix}_compared")]
+    no_edge_zero = np.sum(compared, axis=0) == 0 if compared else np.zeros(ns.shape, dtype=bool)
+    if wanted.zeros and np.any(no_edge_zero):
+        notes.append(f"edge zeros: nothing to compare at n = {_n_list(ns[no_edge_zero])} (no predicted zero "
+                     "inside the matching discs of the outer edges, where the Airy/Bessel forms hold)")
     # a comparison that was made must have a number at every n
     for key in ERROR_QUANTITIES:
         if key == "err_zeros_gap" or not comp.has(key):
             continue
         values = np.asarray(comp.get(key), dtype=float)
         bad = ~np.isfinite(values)
+        if key.startswith("err_zeros_edge"):
+            side = key.removeprefix("err_zeros_edge").removeprefix("_")
+            if side in EDGE_SUFFIX and comp.has(f"edge_zeros{EDGE_SUFFIX[side]}_compared"):
+                bad &= np.asarray(comp.get(f"edge_zeros{EDGE_SUFFIX[side]}_compared")) > 0
+            else:
+                bad &= ~no_edge_zero
         if bad.any():
             failures.append(f"{key} is not a number at n = {_n_list(ns[bad])}: that comparison failed "
                             "there and is not verified")
     return notes, failures
+
+
+def _nanmax_rows(values: np.ndarray) -> np.ndarray:
+    """Largest finite entry of each row, NaN for a row without one."""
+    values = np.asarray(values, dtype=float)
+    finite = np.isfinite(values)
+    return np.where(finite.any(axis=1), np.max(np.where(finite, values, -np.inf), axis=1), np.nan)
 
 
 def _zero_errors(node: Group, direct, model: Group, ns, support, gap_direct) -> None:
@@ -394,20 +413,38 @@ def _zero_errors(node: Group, direct, model: Group, ns, support, gap_direct) -> 
                 errs.append(np.nan)
         node.add("err_zeros_bulk", np.asarray(errs),
                  "max over the predicted bulk zeros of the distance to the nearest zero of p_n")
-    if model.has("edge_zeros"):
-        predicted = np.asarray(model.get("edge_zeros"), dtype=float)  # (N, m): from b_k inward
+    worst_form, worst_scaling = [], []
+    for side, _ in EDGE_SIDES:
+        suffix = EDGE_SUFFIX[side]
+        if not model.has(f"edge_zeros{suffix}"):
+            continue
+        predicted = np.asarray(model.get(f"edge_zeros{suffix}"), dtype=float)  # (N, m): from the edge inward
         m = predicted.shape[1]
-        found = np.array([np.asarray(d.get("zeros"))[::-1][:m] for d in direct])
-        node.add("edge_zeros_direct", found, "largest zeros of p_n, counted from the right edge")
-        node.add("err_zeros_edge", np.max(np.abs(found - predicted), axis=1),
-                 "max over the edge zeros of |direct - Airy prediction|")
-        if model.has("airy_zeros"):
-            airy = np.asarray(model.get("airy_zeros"), dtype=float)[:m]
-            b = support[-1, 1]
-            scale = airy[0] / (predicted[:, :1] - b)  # c n^{2/3} implied by the prediction
-            node.add("airy_zeros", airy, "zeros a_j of the Airy function Ai, j = 1..m")
-            node.add("edge_scaled_direct", scale * (found - b),
-                     "c n^{2/3} (x_j - b_k): direct zeros in the Airy scaling")
+        edge = support[-1, 1] if side == "right" else support[0, 0]
+        found = np.array([(np.asarray(d.get("zeros"))[::-1] if side == "right" else np.asarray(d.get("zeros")))[:m]
+                          for d in direct])
+        node.add(f"edge_zeros{suffix}_direct", found, f"zeros of p_n next to the {side} edge, counted inward")
+        # zeros beyond the matching disc have no prediction (NaN): the error is over the others
+        worst_form.append(_nanmax_rows(np.abs(found - predicted)))
+        scaling = np.asarray(model.get(f"edge_zeros{suffix}_scaling"), dtype=float)
+        worst_scaling.append(_nanmax_rows(np.abs(found - scaling)))
+        node.add(f"edge_zeros{suffix}_compared", np.isfinite(predicted).sum(axis=1),
+                 f"number of zeros next to the {side} edge predicted inside the matching disc and compared")
+        kind = model.attrs.get(f"edge_kind{suffix}", "soft")
+        node.add(f"err_zeros_edge_{side}", worst_form[-1],
+                 f"max over the zeros next to the {side} ({kind}) edge of |direct - predicted| (order 0)")
+        reference = np.asarray(model.get(f"edge_model_zeros{suffix}"), dtype=float)[:m]
+        scale = reference[0] / (scaling[:, :1] - edge)  # c n^{2/3} (soft) or c n^2 (hard) implied by the prediction
+        node.add(f"edge_model_zeros{suffix}", reference, "zeros of the model problem in the local variable "
+                 "(Airy zeros a_j, or -j_{alpha,j}^2/4 at a hard edge)")
+        node.add(f"edge_scaled_direct{suffix}", scale * (found - edge),
+                 f"c n^{{2/3}} (x_j - e) (soft) or c n^2 (x_j - e) (hard), e the {side} edge: direct zeros in "
+                 "the scaling of the local variable")
+    if worst_form:
+        node.add("err_zeros_edge", _nanmax_rows(np.array(worst_form).T),
+                 "max over the outer edges and their zeros of |direct - predicted| (Airy or Bessel form, order 0)")
+        node.add("err_zeros_edge_scaling", _nanmax_rows(np.array(worst_scaling).T),
+                 "max over the outer edges and their zeros of |direct - scaling prediction|")
     if model.has("gap_zeros") and gap_direct.shape[1]:
         predicted = np.asarray(model.get("gap_zeros"), dtype=float).reshape(gap_direct.shape)
         node.add("gap_zeros_model", predicted, "predicted zero in gap j (NaN: none)")
@@ -581,15 +618,16 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
 
     Stored in ``/model``: ``a``, ``b`` (outer parametrix), ``phases`` ``w = nΩ``
     (mod 1), ``gap_zeros`` and ``band_counts`` (argument principle on M_11),
-    ``edge_zeros`` (Airy, at the rightmost edge when it is soft),
+    ``edge_zeros`` (Airy or Bessel form, order 0) and ``edge_zeros_scaling`` at the
+    rightmost edge, with ``edge_model_zeros`` (the same with ``_left`` at the leftmost edge),
     ``bulk_zeros`` (zeros of the bulk form, NaN-padded), ``values_shape`` (the
     oscillatory bulk form of p_n w^{1/2} up to the factor γ_n e^{-nℓ/2}),
     plus ``a_dense``/``b_dense``/``gap_zeros_dense`` at the degrees ``n_dense``
     (every integer of the range when it has at most 400, else 400 integers
     spread evenly over it) for the quasi-periodic pattern of the figures.
     """
-    from scipy.special import ai_zeros
-
+    from gfunction.edge_zeros import edge_scaling_zeros, edge_zeros
+    from gfunction.local import edge_parametrix
     from gfunction.predict import predictor
 
     ns_arr = np.asarray(sorted(ns), dtype=np.int64)
@@ -621,14 +659,28 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
 
     support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
     k = support.shape[0]
-    right_edge = 2 * k - 1
-    if pred.g.edge_kinds[right_edge] == "soft":
-        found = [pred.soft_edge_zeros(right_edge, int(n), EDGE_ZEROS, on_failure="mark") for n in ns_arr]
-        unverified += sorted({z.message for z in found if not z.verified})
-        edge = np.array([z.zeros[::-1] for z in found])
-        node.add("edge_zeros", edge, "predicted largest zeros (Airy: f_e(x) = a_j n^{-2/3}), "
-                                     "counted from the right edge b_k inward")
-        node.add("airy_zeros", ai_zeros(EDGE_ZEROS)[0], "zeros a_j of Ai (scipy.special.ai_zeros)")
+    for side, index in EDGE_SIDES:
+        index = index % (2 * k)
+        where = "b_k" if side == "right" else "a_1"
+        try:
+            edge_parametrix(pred, index)
+        except InputError as exc:   # a factor singular at a soft edge has no Airy parametrix
+            node.attrs[f"edge_zeros{EDGE_SUFFIX[side]}_skipped"] = str(exc)
+            continue
+        scaling = [edge_scaling_zeros(pred, index, int(n), EDGE_ZEROS, on_failure="mark") for n in ns_arr]
+        form = [edge_zeros(pred, index, int(n), EDGE_ZEROS, order=0, on_failure="mark") for n in ns_arr]
+        unverified += sorted({z.message for z in scaling + form if not z.verified})
+        suffix, name = EDGE_SUFFIX[side], form[0].form
+        node.attrs.update({f"edge_kind{suffix}": form[0].kind, f"edge_alpha{suffix}": float(form[0].alpha)})
+        node.add(f"edge_zeros{suffix}", np.array([z.zeros for z in form]),
+                 f"predicted zeros next to the {side} edge {where} from the {name} of the local parametrix "
+                 "with R = I (order 0; gfunction.edge_zeros), counted from the edge inward")
+        node.add(f"edge_zeros{suffix}_scaling", np.array([z.zeros for z in scaling]),
+                 f"scaling prediction of the zeros next to {where}: f_e(x_j) = a_j n^{{-2/3}} (soft) or "
+                 "-j_{alpha,j}^2/(4 n^2) (hard), counted from the edge inward")
+        node.add(f"edge_model_zeros{suffix}", form[0].model_zeros,
+                 "zeros of the model problem in the local variable: Airy zeros a_j (scipy.special.ai_zeros) "
+                 "at a soft edge, -j_{alpha,j}^2/4 (Bessel zeros j_{alpha,j}) at a hard edge")
 
     bulk = [np.asarray(pred.bulk_zeros(int(n)), dtype=float) for n in ns_arr]
     width = max([b.size for b in bulk] + [1])

@@ -184,3 +184,15 @@ def test_local_variable_next_to_hard_edges_keeps_its_digits():
             with mpmath.workdps(30):
                 ref = -mpmath.acos(mpmath.mpf(x) if index == 1 else -mpmath.mpf(x)) ** 2 / 4
             assert abs(f.real / float(ref) - 1) < 1e-14, (index, d, f, ref)
+
+
+def test_zeros_beyond_the_matching_disc_are_not_predicted(laguerre):
+    # at n = 4 the fifth Laguerre zero lies beyond the disc (radius 4/3) around the hard edge 0:
+    # no prediction there (NaN), counted in outside_disc, and the result stays verified
+    z = edge_zeros(laguerre, 0, 4, 5)
+    s = edge_scaling_zeros(laguerre, 0, 4, 5)
+    for found in (z, s):
+        assert found.verified and found.checks["outside_disc"] >= 1
+        inside = np.isfinite(found.zeros)
+        assert inside[0] and not inside[-1]
+        assert np.all(np.abs(found.zeros[inside] - found.position) < 4.0 / 3.0)

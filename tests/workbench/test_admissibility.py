@@ -112,11 +112,15 @@ def test_skipped_comparisons_are_notes_with_their_reason(tmp_path, case_text):
     assert "note: values of p_n not compared" in shown and "note: small-norm check not made" in shown
 
 
-def test_hard_right_edge_note(tmp_path):
+def test_hard_right_edge_is_compared(tmp_path):
+    # the right end of the support is the hard end 0.3 of the set: its zeros are compared with the
+    # Bessel form (gfunction.edge_zeros), no longer a note "not compared"
     text = SIGNED_CASE.replace("signed = true\n", "").replace("n = [40, 80, 160]", "n = [10, 20]")
     outcome = _run(tmp_path, text)
-    assert any("edge zeros not compared: the right end of the support is a hard edge" in note
-               for note in outcome.notes)
+    assert not any("edge zeros not compared" in note for note in outcome.notes)
+    stored = read_run(outcome.path)
+    assert stored.get("model").attrs["edge_kind"] == "hard"
+    assert np.all(np.asarray(stored.get("comparison").get("err_zeros_edge_right")) < 1e-3)
 
 
 def test_nan_comparison_is_never_verified(tmp_path, case_text, monkeypatch):

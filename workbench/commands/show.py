@@ -101,12 +101,13 @@ def summary_lines(tree, name: str = "") -> list[str]:
         rates = comp.groups.get("rates")
         if rates is not None and rates.groups:
             lines.append("  fitted rates (error ~ C n^slope, least squares in log-log):")
+            width = max(16, *(len(key) for key in rates.groups))
             for key, fit in rates.groups.items():
                 s, se = fit.attrs.get("slope"), fit.attrs.get("stderr")
                 note = f"  ({fit.attrs['note']})" if "note" in fit.attrs else ""
                 bound = fit.attrs.get("max_n_times_error")
                 bound_text = f"  max n*err {_fmt(bound, 8)}" if bound is not None else ""
-                lines.append(f"    {key:<16} slope {_fmt(s, 8)} +- {_fmt(se, 8)}  "
+                lines.append(f"    {key:<{width}} slope {_fmt(s, 8)} +- {_fmt(se, 8)}  "
                              f"({fit.attrs.get('points')} points){bound_text}{note}")
     for note in text_list(attrs.get("notes")):
         lines.append(f"  note: {note}")
