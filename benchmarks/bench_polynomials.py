@@ -1,14 +1,26 @@
 """Timings of the recurrence coefficients computed from the weight (workbench.polynomials).
 
-    python benchmarks/bench_polynomials.py [--quick] [--plot]
+    python benchmarks/bench_polynomials.py [--quick] [--plot] [--rounds R] [--large]
 
-Prints a table: n = K, nodes of the two discretisations, wall time of
-``recurrence_coefficients`` (equilibrium measure for the node placement, both
-discretisations, both Stieltjes runs), the error estimate, and the peak memory
-(tracemalloc, in a separate run so the timings are not slowed).  The CPU
-time (``time.process_time``) is printed beside the wall time: on a busy
-machine the wall time is inflated by other processes.  One core:
-the BLAS/OpenMP thread counts are set to 1 before numpy is imported.
+Three tables.
+
+1. ``recurrence_coefficients`` in process for n = K from 250 to 10⁴ (equilibrium
+   measure for the node placement, both discretisations, both Stieltjes runs on
+   two threads): wall and CPU time, the error estimate, the peak memory
+   (tracemalloc, in a separate run so the timings are not slowed).
+2. Issue 16: ``workbench recurrence --n 16000 --count 16000 --json`` through the CLI
+   (a fresh process, start-up included) against a *bare pass*: K steps of six
+   float64 vector operations on 2K nodes (the issue's yardstick) and on the M
+   nodes of the primary discretisation, timed in this process.  The CLI run and
+   the bare passes are interleaved in R rounds and each round gives its own
+   ratio, so a busy machine inflates both sides alike; the median and the range
+   of the ratios are printed.  Also one Stieltjes pass at K = 16000, compiled loop
+   against numpy loop, interleaved.
+3. ``--large``: n = K = 10⁵ through the CLI: wall time, CPU time and the peak
+   resident memory of the child process, error estimate.
+
+The BLAS/OpenMP thread counts are set to 1 before numpy is imported; the
+recurrence itself runs its two discretisations on two threads (``WORKBENCH_THREADS``).
 """
 
 from __future__ import annotations
@@ -19,17 +31,27 @@ for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_name, "1")
 
 import argparse  # noqa: E402
+import json  # noqa: E402
 import resource  # noqa: E402
+import subprocess  # noqa: E402
+import sys  # noqa: E402
 import time  # noqa: E402
 import tracemalloc  # noqa: E402
 from pathlib import Path  # noqa: E402
 
+import numpy as np  # noqa: E402
+
 from equilibrium import Field  # noqa: E402
-from workbench.polynomials.recurrence import recurrence_coefficients  # noqa: E402
+from workbench.polynomials.discretisation import PRIMARY, discretise, measure_for  # noqa: E402
+from workbench.polynomials.recurrence import kernel_for, recurrence_coefficients, stieltjes  # noqa: E402
 from workbench.polynomials.weight import Weight  # noqa: E402
 
 FIELD = "x**4/4 - 1.5*x**2 + 0.2*x"  # non-symmetric double well, two bands at t = 1
 TARGETS = {4000: 2.0, 10000: 15.0}   # seconds (issue #3)
+CLI_SIZE = 16000                     # issue 16: within 1.2 x the bare pass
+CLI_RATIO_TARGET = 1.2
+LARGE_SIZE = 100000                  # issue 16: 90 s, 1 GB on two cores
+LARGE_TARGETS = (90.0, 1024.0)
 
 
 def measure(field: Field, size: int) -> tuple[float, float, object]:
@@ -46,15 +68,40 @@ def peak_memory(field: Field, size: int) -> float:
     return peak / 2**20
 
 
-def main() -> None:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="only the two target sizes")
-    parser.add_argument("--plot", action="store_true", help="write benchmarks/results/polynomials_time.png")
-    args = parser.parse_args()
+def bare_pass(nodes: int, steps: int) -> float:
+    """Wall time of ``steps`` steps of six float64 vector operations on ``nodes`` numbers."""
+    rng = np.random.default_rng(0)
+    x, y = rng.random(nodes), rng.random(nodes)
+    z = np.empty(nodes)
+    start = time.perf_counter()
+    for _ in range(steps):
+        np.multiply(x, y, out=z)
+        z *= x
+        z -= y
+        z += x
+        z.sum()
+        z.sum()
+    return time.perf_counter() - start
+
+
+def cli(size: int) -> tuple[float, float, float, dict]:
+    """Wall time, CPU time (children), peak RSS [MB] and the JSON of one ``workbench recurrence`` run."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    start = time.perf_counter()
+    done = subprocess.run(
+        [sys.executable, "-m", "workbench", "recurrence", "--potential", FIELD, "--n", str(size),
+         "--count", str(size), "--json"], capture_output=True, text=True, check=True)
+    wall = time.perf_counter() - start
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    return wall, cpu, after.ru_maxrss / 1024, json.loads(done.stdout)
+
+
+def table_in_process(args) -> None:
     field = Field.from_expression(FIELD)
     sizes = [4000, 10000] if args.quick else [250, 500, 1000, 2000, 4000, 7000, 10000]
     measure(field, 100)  # warm-up (imports, caches)
-    print(f"V = {FIELD}, weight exp(-nV), coefficients 0..K with K = n, one core")
+    print(f"V = {FIELD}, weight exp(-nV), coefficients 0..K with K = n; Stieltjes loop: {kernel_for()}")
     print(f"load average before the run: {os.getloadavg()[0]:.2f} (wall time is inflated when the machine is busy)")
     print(f"{'n = K':>7} {'nodes':>15} {'wall [s]':>9} {'cpu [s]':>8} {'target':>7} {'error est.':>11} {'peak MB':>8}")
     rows = []
@@ -82,6 +129,73 @@ def main() -> None:
         fig.tight_layout()
         fig.savefig(out / "polynomials_time.png", dpi=120)
         print(f"wrote {out / 'polynomials_time.png'}")
+
+
+def table_cli(rounds: int) -> None:
+    size = CLI_SIZE
+    weight = Weight(Field.from_expression(FIELD), size)
+    disc = discretise(weight, size + 1, PRIMARY, measure_for(weight, size + 1))
+    print()
+    print(f"issue 16: workbench recurrence --n {size} --count {size} --json (fresh process) against a bare pass "
+          f"of six vector operations x {size} steps; {rounds} interleaved rounds; "
+          f"load average {os.getloadavg()[0]:.2f}")
+    print(f"{'round':>5} {'CLI wall':>9} {'CLI cpu':>8} {'bare 2K':>8} {'bare M':>7} {'CLI/2K':>7} {'CLI/M':>6} "
+          f"{'error est.':>11}")
+    ratios, ratios_m = [], []
+    for r in range(rounds):
+        wall, cpu, _, out = cli(size)
+        bare2k = bare_pass(2 * size, size)
+        bare_m = bare_pass(disc.size, size)
+        ratios.append(wall / bare2k)
+        ratios_m.append(wall / bare_m)
+        print(f"{r + 1:>5} {wall:>9.2f} {cpu:>8.2f} {bare2k:>8.2f} {bare_m:>7.2f} {ratios[-1]:>7.2f} "
+              f"{ratios_m[-1]:>6.2f} {out['error_estimate']:>11.1e}")
+    print(f"CLI / bare pass on 2K nodes: median {np.median(ratios):.2f}, range {min(ratios):.2f}-{max(ratios):.2f} "
+          f"(target {CLI_RATIO_TARGET}); on the M = {disc.size} nodes: median {np.median(ratios_m):.2f}")
+    print(f"one Stieltjes pass, n = K = {size}, M = {disc.size}: compiled loop against numpy loop, interleaved")
+    if kernel_for() != "compiled":
+        print("  (the compiled loop is not built: pip install -e . builds it)")
+        return
+    pairs = []
+    for _ in range(max(1, rounds // 2)):
+        start = time.perf_counter()
+        a1, b1 = stieltjes(disc, size, kernel="compiled")
+        compiled = time.perf_counter() - start
+        start = time.perf_counter()
+        a0, b0 = stieltjes(disc, size, kernel="numpy")
+        numpy_time = time.perf_counter() - start
+        pairs.append((compiled, numpy_time))
+    difference = max(np.max(np.abs(a1 - a0)), np.max(np.abs(b1 - b0)))
+    for compiled, numpy_time in pairs:
+        print(f"  compiled {compiled:.2f} s ({compiled / disc.size / size * 1e9:.2f} ns per node and step), "
+              f"numpy {numpy_time:.2f} s: {numpy_time / compiled:.1f}x")
+    print(f"  largest difference of the coefficients between the loops: {difference:.1e}")
+
+
+def table_large() -> None:
+    print()
+    print(f"issue 16: workbench recurrence --n {LARGE_SIZE} --count {LARGE_SIZE} --json; "
+          f"load average {os.getloadavg()[0]:.2f}")
+    wall, cpu, rss, out = cli(LARGE_SIZE)
+    checks = out["checks"]
+    print(f"  wall {wall:.1f} s (target {LARGE_TARGETS[0]:.0f} s), cpu {cpu:.1f} s, peak resident {rss:.0f} MB "
+          f"(target {LARGE_TARGETS[1]:.0f} MB), nodes {int(checks['nodes_primary'])}+{int(checks['nodes_secondary'])}, "
+          f"error estimate {out['error_estimate']:.1e}, verified {out['verified']}")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="only the two target sizes of table 1")
+    parser.add_argument("--plot", action="store_true", help="write benchmarks/results/polynomials_time.png")
+    parser.add_argument("--rounds", type=int, default=5, help="interleaved rounds of table 2 (default 5)")
+    parser.add_argument("--large", action="store_true", help="also n = K = 10^5 through the CLI (about a minute)")
+    parser.add_argument("--only-cli", action="store_true", help="skip table 1")
+    args = parser.parse_args()
+    if not args.only_cli:
+        table_in_process(args)
+    table_cli(args.rounds)
+    if args.large:
+        table_large()
 
 
 if __name__ == "__main__":

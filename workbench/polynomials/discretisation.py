@@ -232,11 +232,15 @@ def _airy_unit(measure, edge: float, a: float, b: float, side: int, degree: int)
 
 
 def _refine_long(x: np.ndarray, longest: float) -> np.ndarray:
-    pieces = [x[:1]]
-    for lo, hi in zip(x[:-1], x[1:]):
-        k = max(int(math.ceil((hi - lo) / longest)), 1)
-        pieces.append(np.linspace(lo, hi, k + 1)[1:])
-    return np.concatenate(pieces)
+    """Split each interval of the breaks ``x`` into equal pieces no longer than ``longest``."""
+    lo, hi = x[:-1], x[1:]
+    pieces = np.maximum(np.ceil((hi - lo) / longest).astype(int), 1)
+    start = np.repeat(lo, pieces)
+    step = np.repeat((hi - lo) / pieces, pieces)
+    index = np.arange(pieces.sum()) - np.repeat(np.cumsum(pieces) - pieces, pieces) + 1
+    inner = start + step * index
+    inner[np.cumsum(pieces) - 1] = hi  # each interval ends exactly on its break
+    return np.concatenate([x[:1], inner])
 
 
 def _complement_pieces(on, support) -> list[tuple[float, float]]:
@@ -438,12 +442,12 @@ def growth_bound(panels: np.ndarray, points: np.ndarray, measure, support, edges
             hit = np.abs(end - e) <= 1e-12 * scale
             sigma[hit, side], power[hit, side], where[hit, side] = sg, p, e
 
-    def s_of(z):  # z: (P, ...) complex, broadcasting over trailing axes
+    def s_of(z, rows=slice(None)):  # z: (P', ...) complex for the panels `rows`, broadcasting over trailing axes
         out = np.ones(z.shape, dtype=complex)
         for side in (0, 1):
-            sg = sigma[:, side].reshape((-1,) + (1,) * (z.ndim - 1))
-            p = power[:, side].reshape(sg.shape)
-            e = where[:, side].reshape(sg.shape)
+            sg = sigma[rows, side].reshape((-1,) + (1,) * (z.ndim - 1))
+            p = power[rows, side].reshape(sg.shape)
+            e = where[rows, side].reshape(sg.shape)
             active = sg != 0
             with np.errstate(all="ignore"):
                 factor = np.where(active, (np.where(active, sg, 1.0) * (z - e)) ** p, 1.0)
@@ -455,28 +459,33 @@ def growth_bound(panels: np.ndarray, points: np.ndarray, measure, support, edges
     xs = centre[:, None] + half[:, None] * u[None, :]
     above = xs + 1j * 1e-300
     q_values = _phi_prime_on_axis(measure, xs.ravel()).reshape(xs.shape) / s_of(above)
-    # Lagrange form of the quadratic in the local variable v = (z - centre)/half
-    def q_of(v):
-        l0 = v * (v - u[2]) / (u[0] * (u[0] - u[2]))
-        l1 = (v - u[0]) * (v - u[2]) / ((u[1] - u[0]) * (u[1] - u[2]))
-        l2 = v * (v - u[0]) / (u[2] * (u[2] - u[0]))
-        shape = (-1,) + (1,) * (v.ndim - 1)
-        return (q_values[:, 0].reshape(shape) * l0 + q_values[:, 1].reshape(shape) * l1
-                + q_values[:, 2].reshape(shape) * l2)
-
-    with np.errstate(all="ignore"):
-        eff_centre = np.asarray(measure.effective_potential(centre), dtype=float)
-    re_phi_centre = -np.where(np.isfinite(eff_centre), np.maximum(eff_centre, 0.0), 0.0)
     # ellipse points in the local variable, shape (R, T)
     ring = 0.5 * (_RHO[:, None] * np.exp(1j * _THETA)[None, :] + np.exp(-1j * _THETA)[None, :] / _RHO[:, None])
     t, wt = gauss_legendre(_PATH_POINTS)
     t = 0.5 * (t + 1.0)
     wt = 0.5 * wt
-    v = ring[None, :, :, None] * t[None, None, None, :]            # (1, R, T, G) path points
-    v = np.broadcast_to(v, (panels.shape[0],) + v.shape[1:])
-    z = centre[:, None, None, None] + half[:, None, None, None] * v
-    integrand = s_of(z) * q_of(v)
-    increment = half[:, None, None] * ring[None, :, :] * np.einsum("prtg,g->prt", integrand, wt)
+    v = ring[:, :, None] * t[None, None, :]                        # (R, T, G) path points, the same on every panel
+    # Lagrange basis of the quadratic q in the local variable v = (z - centre)/half, shape (3, R, T, G)
+    basis = np.stack([
+        v * (v - u[2]) / (u[0] * (u[0] - u[2])),
+        (v - u[0]) * (v - u[2]) / ((u[1] - u[0]) * (u[1] - u[2])),
+        v * (v - u[0]) / (u[2] * (u[2] - u[0])),
+    ])
+    # ∫ along the segment: Σ_g q(v_g) s(z_g) wt_g.  Away from the edges s = 1, and the sum is
+    # q_values @ (Σ_g basis_g wt_g), the same for all such panels (one small matrix product)
+    summed = np.empty((panels.shape[0],) + ring.shape, dtype=complex)
+    plain = ~np.any(sigma != 0, axis=1)
+    summed[plain] = (q_values[plain] @ (basis @ wt).reshape(3, -1)).reshape((-1,) + ring.shape)
+    edged = ~plain
+    if np.any(edged):
+        z = centre[edged, None, None, None] + half[edged, None, None, None] * v[None]
+        q = np.einsum("pj,jrtg->prtg", q_values[edged], basis)
+        summed[edged] = np.einsum("prtg,g->prt", s_of(z, edged) * q, wt)
+    increment = half[:, None, None] * ring[None, :, :] * summed
+
+    with np.errstate(all="ignore"):
+        eff_centre = np.asarray(measure.effective_potential(centre), dtype=float)
+    re_phi_centre = -np.where(np.isfinite(eff_centre), np.maximum(eff_centre, 0.0), 0.0)
     re_phi = re_phi_centre[:, None, None] + increment.real
     growth = (degree + 1) * np.max(re_phi, axis=2)                 # (P, R)
     bound = growth - 2.0 * points[:, None] * np.log(_RHO)[None, :]

@@ -36,6 +36,7 @@ coefficients: absolute; large coefficients of fixed weights: relative).
 from __future__ import annotations
 
 import math
+import os
 from dataclasses import dataclass, field as dataclass_field
 from typing import Any, Callable, Mapping
 
@@ -115,22 +116,76 @@ class RecurrenceCoefficients:
         )
 
 
-def stieltjes(disc: Discretisation, count: int) -> tuple[np.ndarray, np.ndarray]:
-    """Discretised Stieltjes procedure in per-node binary scaling (module docstring).
-
-    Returns ``a`` (``a[0] = 0``) and ``b`` for ``k = 0..count``.  Cost
-    ``O(N · count)`` with about ten vector operations per step; all
-    temporaries are preallocated (large temporaries are expensive).
-    """
-    count = int(count)
-    if count >= disc.size:
-        raise NumericalFailure(f"{count + 1} coefficients need more than the {disc.size} nodes placed")
+def _initial(disc: Discretisation):
+    """``x``, the mantissas ``(m_0, m_{-1})``, exponents ``e`` and ``2^{2e}`` of ``r_0 = sqrt(λ/Σλ)``."""
     x = disc.nodes
     half = 0.5 * (disc.log_weights - disc.log_mass) / math.log(2.0)
     exponent = np.floor(half).astype(np.int64)
     m_cur = np.exp2(half - exponent)           # r_0 = sqrt(λ/Σλ) = m_cur · 2^exponent
     m_prev = np.zeros_like(x)
     scale = np.ldexp(1.0, np.clip(2 * exponent, -2000, 2000))  # 2^(2e); 0 below 2^-1074
+    return x, m_cur, m_prev, exponent, scale
+
+
+def kernel_for(kernel: str = "auto") -> str:
+    """``"compiled"`` or ``"numpy"``: the loop :func:`stieltjes` will run.
+
+    ``kernel`` is ``"auto"`` (the compiled loop of :mod:`.stieltjes_kernel` when it is
+    built, else numpy; the environment variable ``WORKBENCH_KERNEL=numpy`` turns the
+    compiled loop off), ``"compiled"`` or ``"numpy"``.
+    """
+    from . import stieltjes_kernel
+
+    if kernel not in ("auto", "compiled", "numpy"):
+        raise InputError(f"kernel must be 'auto', 'compiled' or 'numpy', got {kernel!r}")
+    if kernel == "auto":
+        if os.environ.get("WORKBENCH_KERNEL", "").strip().lower() == "numpy":
+            return "numpy"
+        return "compiled" if stieltjes_kernel.available() else "numpy"
+    if kernel == "compiled" and not stieltjes_kernel.available():
+        raise InputError("the compiled Stieltjes loop is not built (pip install -e . builds it with a C "
+                         "compiler); use kernel='numpy'")
+    return kernel
+
+
+def stieltjes(disc: Discretisation, count: int, kernel: str = "auto", stop=None) -> tuple[np.ndarray, np.ndarray]:
+    """Discretised Stieltjes procedure in per-node binary scaling (module docstring).
+
+    Returns ``a`` (``a[0] = 0``) and ``b`` for ``k = 0..count``.  Cost
+    ``O(N · count)``.  ``kernel`` chooses the loop (:func:`kernel_for`): the
+    compiled one (:mod:`.stieltjes_kernel`, one pass over the nodes per step) or
+    the numpy one (:func:`stieltjes_numpy`); they agree to rounding (the same
+    arithmetic at every node, the sums in another order).  ``stop``
+    (:class:`.stieltjes_kernel.Stop`) lets another thread end the compiled loop early.
+    """
+    count = int(count)
+    if count >= disc.size:
+        raise NumericalFailure(f"{count + 1} coefficients need more than the {disc.size} nodes placed")
+    if kernel_for(kernel) == "numpy":
+        return stieltjes_numpy(disc, count)
+    from . import stieltjes_kernel
+
+    x, m_cur, m_prev, exponent, scale = _initial(disc)
+    a = np.zeros(count + 1)
+    b = np.zeros(count + 1)
+    status = stieltjes_kernel.run(x, m_cur, m_prev, exponent, scale, a, b, _RENORMALISE_EVERY, _BIG, stop)
+    if status == -2:
+        raise NumericalFailure("the Stieltjes procedure was stopped")
+    if status >= 0:
+        raise NumericalFailure(f"the Stieltjes procedure overflowed at k = {status}")
+    return a, b
+
+
+def stieltjes_numpy(disc: Discretisation, count: int) -> tuple[np.ndarray, np.ndarray]:
+    """The loop of :func:`stieltjes` in numpy (about ten vector operations per step).
+
+    All temporaries are preallocated (large temporaries are expensive).  This is the
+    reference form, used when numba is absent and for small problems.
+    """
+    count = int(count)
+    if count >= disc.size:
+        raise NumericalFailure(f"{count + 1} coefficients need more than the {disc.size} nodes placed")
+    x, m_cur, m_prev, exponent, scale = _initial(disc)
     a = np.zeros(count + 1)
     b = np.zeros(count + 1)
     work = np.empty_like(x)
@@ -194,9 +249,29 @@ def check_memory(weight: Weight, count: int, limit: int = MEMORY_LIMIT) -> None:
         )
 
 
+def default_threads() -> int:
+    """Threads for the two discretisations: ``WORKBENCH_THREADS`` if set, else min(2, usable cores).
+
+    The two discretisations are independent, so at most two threads are ever used; on one
+    usable core (or ``WORKBENCH_THREADS=1``, e.g. inside a pool of worker processes) they
+    run one after the other.
+    """
+    text = os.environ.get("WORKBENCH_THREADS", "").strip()
+    if text:
+        if not text.isascii() or not text.isdigit() or int(text) < 1:
+            raise InputError(f"WORKBENCH_THREADS must be a positive integer, got '{text}'")
+        return min(int(text), 2)
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):  # not on Linux
+        cores = os.cpu_count() or 1
+    return max(1, min(2, cores))
+
+
 def recurrence_coefficients(weight: Weight, count: int, *, tolerance: float = 1e-10, measure=None,
                             solver: Callable[..., Any] | None = None, on_failure: str = "raise",
-                            verify: bool = True) -> RecurrenceCoefficients:
+                            verify: bool = True, threads: int | None = None,
+                            kernel: str = "auto") -> RecurrenceCoefficients:
     """``a_k^{(n)}, b_k^{(n)}``, ``0 ≤ k ≤ count``, for ``w_n = e^{-nV} h`` on Σ.
 
     Parameters
@@ -209,6 +284,9 @@ def recurrence_coefficients(weight: Weight, count: int, *, tolerance: float = 1e
     on_failure : ``"raise"`` (NumericalFailure) or ``"mark"`` (``verified = False``);
         see :mod:`equilibrium.verification`.
     verify : run the second discretisation (default True).
+    threads : 1 runs the two discretisations one after the other, 2 side by side
+        (default :func:`default_threads`); the numbers do not depend on it.
+    kernel : the Stieltjes loop, ``"auto"``, ``"compiled"`` or ``"numpy"`` (:func:`kernel_for`).
 
     Returns
     -------
@@ -220,20 +298,25 @@ def recurrence_coefficients(weight: Weight, count: int, *, tolerance: float = 1e
     if count < 0:
         raise InputError(f"count = {count} must be >= 0")
     failure_policy(on_failure)
+    if threads is None:
+        threads = default_threads()
+    if isinstance(threads, bool) or not isinstance(threads, (int, np.integer)) or threads < 1:
+        raise InputError(f"threads must be a positive integer, got {threads!r}")
+    loop = kernel_for(kernel)
     check_memory(weight, count)
     degree = count + 1  # the layout covers p_0 .. p_{K+1}
     if measure is None:
         measure = measure_for(weight, degree, solver)
-    first = discretise(weight, degree, PRIMARY, measure)
-    a, b = stieltjes(first, count)
+    layouts = (PRIMARY, SECONDARY) if verify else (PRIMARY,)
+    runs = _run_layouts(weight, degree, count, measure, layouts, loop, threads)
+    first, (a, b) = runs[0]
     checks: dict[str, float] = {"nodes_primary": float(first.size), "cut_level": first.level}
     error = float("nan")
     message = ""
     a2 = None
     log_mass2 = None
     if verify:
-        second = discretise(weight, degree, SECONDARY, measure)
-        a2, b2 = stieltjes(second, count)
+        second, (a2, b2) = runs[1]
         log_mass2 = second.log_mass
         delta = np.maximum(np.abs(a - a2), np.abs(b - b2))
         size = np.maximum(1.0, np.maximum(np.abs(a), np.abs(b)))
@@ -254,8 +337,42 @@ def recurrence_coefficients(weight: Weight, count: int, *, tolerance: float = 1e
         raise NumericalFailure("the Stieltjes procedure produced non-finite or non-positive a_k")
     return settle(RecurrenceCoefficients(
         a=a, b=b, n=weight.n, error_estimate=error,
-        method=f"discretised Stieltjes, per-node binary scaling, {first.size} nodes "
+        method=f"discretised Stieltjes ({loop} loop), per-node binary scaling, {first.size} nodes "
                f"({PRIMARY.name}), checked on {int(checks.get('nodes_secondary', 0))} ({SECONDARY.name})",
         weight_description=weight.description, checks=float_checks(checks), log_mass=first.log_mass,
         verified=not message, message=message, a_secondary=a2, log_mass_secondary=log_mass2,
     ), on_failure)
+
+
+def _run_layouts(weight: Weight, degree: int, count: int, measure, layouts, loop: str, threads: int):
+    """``[(discretisation, (a, b)), ...]`` per layout; the second on its own thread when ``threads ≥ 2``.
+
+    The compiled loop releases the GIL, so the two layouts run side by side on two
+    cores.  If either side fails, the other is stopped (:class:`.stieltjes_kernel.Stop`)
+    and waited for: no thread outlives the call.
+    """
+    from .stieltjes_kernel import Stop
+
+    stop = Stop()
+
+    def one(layout):
+        disc = discretise(weight, degree, layout, measure)
+        return disc, stieltjes(disc, count, loop, stop)
+
+    if threads < 2 or len(layouts) < 2:
+        return [one(layout) for layout in layouts]
+    from concurrent.futures import ThreadPoolExecutor
+
+    with ThreadPoolExecutor(max_workers=1, thread_name_prefix="stieltjes") as pool:
+        other = pool.submit(one, layouts[1])
+        try:
+            mine = one(layouts[0])
+        except BaseException:
+            stop.set()
+            other.cancel()
+            raise
+        try:
+            return [mine, other.result()]
+        except BaseException:
+            stop.set()
+            raise
