@@ -56,7 +56,6 @@ from types import MappingProxyType
 from typing import Mapping, NamedTuple, Union
 
 import numpy as np
-import sympy
 from numpy.typing import ArrayLike
 
 from equilibrium.errors import InputError
@@ -664,198 +663,104 @@ class _Parser:
                                " implicit multiplication is not allowed; write 2*x or a*(b), not 2x or a(b)")
 
 
-# --------------------------------------------------------------------------- sympy bridge
-class _RealAbs(sympy.Function):
-    """|u| for a u that sympy cannot prove real (``log(x)``, ``x**0.3``).
+# --------------------------------------------------------------------------- exact polynomials
+#: a constant power is taken exactly only below this many bits (numerator and denominator
+#: bits times the exponent): the same rule as the sympy side (symbolic._exact_power_too_large)
+_EXACT_POWER_BITS = 2**16
 
-    The field is real wherever it is defined, so d|u|/dx = sign(u) u'(x); sympy's
-    own ``Abs`` would bring in re/im/atan2 for such arguments.
+
+class _NotRational(Exception):
+    """A constant that is not a rational number (pi, a function value, a non-integer power)."""
+
+
+def _exact(value: float | Fraction) -> Fraction:
+    """Literals keep their decimal value, floats their shortest repr (0.3 -> 3/10), as on the sympy side."""
+    return value if isinstance(value, Fraction) else Fraction(repr(float(value)))
+
+
+def _rational_polynomial(node: Node) -> list[Fraction] | None:
+    """Ascending exact coefficients of a tree built as a polynomial (``_facts(node).degree``
+    not None) whose constants are all rational; None when a constant is not rational or
+    is a power too large to form exactly (sympy then decides, :meth:`Expression.polynomial_coefficients`).
+
+    Rational arithmetic on coefficient lists gives the numbers sympy.Poly gives over the
+    rationals (both exact; one rounding to float at the end), without importing sympy.
     """
+    def add(p, q, sign=1):
+        out = [Fraction(0)] * max(len(p), len(q))
+        for i, c in enumerate(p):
+            out[i] += c
+        for i, c in enumerate(q):
+            out[i] += sign * c
+        return out
 
-    @classmethod
-    def eval(cls, argument):
-        if argument.is_extended_real or argument.is_Number:
-            return sympy.Abs(argument)
-        return None
+    def multiply(p, q):
+        out = [Fraction(0)] * (len(p) + len(q) - 1)
+        for i, c in enumerate(p):
+            if c:
+                for j, d in enumerate(q):
+                    out[i + j] += c * d
+        return out
 
-    def fdiff(self, argindex=1):
-        return _RealSign(self.args[0])
+    def power(p, k):
+        bits = max(c.numerator.bit_length() + c.denominator.bit_length() for c in p)
+        if bits * k > _EXACT_POWER_BITS:
+            raise _NotRational  # huge exact numbers: the sympy side decides, as it always has
+        out = [Fraction(1)]
+        while k:
+            if k & 1:
+                out = multiply(out, p)
+            k >>= 1
+            if k:
+                p = multiply(p, p)
+        return out
 
+    def constant(p):
+        if any(p[1:]):
+            raise _NotRational  # divided by something that depends on x (not built as a polynomial)
+        return p[0]
 
-class _RealSign(sympy.Function):
-    """sign(u) for a real-where-defined u, with d sign(u)/du = 2 delta(u)."""
-
-    @classmethod
-    def eval(cls, argument):
-        if argument.is_extended_real or argument.is_Number:
-            return sympy.sign(argument)
-        return None
-
-    def fdiff(self, argindex=1):
-        return 2 * sympy.DiracDelta(self.args[0])
-
-
-_SYMPY_FUNCTIONS = {"exp": sympy.exp, "log": sympy.log, "sqrt": sympy.sqrt, "sin": sympy.sin,
-                    "cos": sympy.cos, "sinh": sympy.sinh, "cosh": sympy.cosh, "tanh": sympy.tanh,
-                    "abs": sympy.Abs, "sign": sympy.sign}
-_FROM_SYMPY = {sympy.exp: "exp", sympy.log: "log", sympy.sin: "sin", sympy.cos: "cos", sympy.sinh: "sinh",
-               sympy.cosh: "cosh", sympy.tanh: "tanh", sympy.Abs: "abs", _RealAbs: "abs",
-               sympy.sign: "sign", _RealSign: "sign"}
-
-
-def _sympy_number(value: float | Fraction) -> sympy.Rational:
-    """Exact rational: literals keep their decimal value, floats their shortest repr (0.3 -> 3/10)."""
-    exact = value if isinstance(value, Fraction) else Fraction(repr(float(value)))
-    return sympy.Rational(exact.numerator, exact.denominator)
-
-
-def _exact_power_too_large(base: sympy.Expr, exponent: sympy.Expr, p: float) -> bool:
-    """Would sympy build huge exact numbers for this constant power ``base^p``?
-
-    sympy raises rationals to integer (parts of) powers exactly and factors
-    the results, so ``0.001^1e10`` or ``(19.768^19.768)^-18.356`` would never
-    finish.  Exact forms are kept only for integer ``|p| <= 64`` with a result
-    below 2**16 bits, and for ``r^(a/b)`` with small rational ``r`` (below
-    2**32), ``b <= 1000``, ``|p| <= 64`` (``2^0.5`` -> sqrt(2)); other constant
-    powers are taken at their double-precision value.
-    """
-    if abs(p) > MAX_EXPONENT:
-        return True
-    if p.is_integer():
-        return sum(r.p.bit_length() + r.q.bit_length() for r in base.atoms(sympy.Rational)) * abs(p) > 2**16
-    small = base.is_Rational and max(abs(base.p), base.q) < 2**32
-    return not (small and exponent.is_Rational and exponent.q <= 1000)
-
-
-def _to_sympy(node: Node, symbol: sympy.Symbol, calculus: bool) -> sympy.Expr:
-    """Build sympy objects node by node (``calculus`` swaps in the real-argument |u| for differentiation)."""
-    def power(n: Power, base: sympy.Expr, exponent: sympy.Expr) -> sympy.Expr:
-        """base^exponent, with floats where sympy would build huge exact numbers."""
-        base_value, p = _facts(n.base).value, _facts(n.exponent).value
-        if base_value is not None and p is not None:
-            if _exact_power_too_large(base, exponent, p):
-                with np.errstate(all="ignore"):
-                    return _sympy_number(float(_evaluate(n, None)))
-        elif p is not None:
-            if p.is_integer():      # x^tanh(19): numpy computes x^1.0, so sympy must see x^1
-                exponent = sympy.Integer(int(p))
-            elif exponent.is_Rational and exponent.q > 1000:
-                # x^24.754423046738832 = x^(1547151440421177/62500000000000): sympy's assumption
-                # queries would build polynomials of that degree; a float exponent avoids them
-                exponent = sympy.Float(p)
-        elif base_value is not None:
-            # c^f(x): a float base keeps sympy from splitting off c^k exactly for a large
-            # constant part k of f (0.001^(x - 1e10) would build a 3e10-digit rational)
-            base = sympy.Float(base_value)
-        return sympy.Pow(base, exponent)
-
-    def walk(n: Node) -> sympy.Expr:
-        if isinstance(n, Number):
-            return _sympy_number(n.exact if n.exact is not None else n.value)
-        if isinstance(n, Pi):
-            return sympy.pi
+    def walk(n):
         if isinstance(n, Variable):
-            return symbol
+            return [Fraction(0), Fraction(1)]
+        if isinstance(n, Number):
+            return [_exact(n.exact if n.exact is not None else n.value)]
         if isinstance(n, Parameter):
-            return _sympy_number(n.value)
+            return [_exact(n.value)]
         if isinstance(n, Negate):
-            return -walk(n.operand)
+            return [-c for c in walk(n.operand)]
         if isinstance(n, Sum):
-            return sympy.Add(*[-walk(t) if m else walk(t) for t, m in zip(n.terms, n.negated)])
+            out = [Fraction(0)]
+            for term, minus in zip(n.terms, n.negated):
+                out = add(out, walk(term), -1 if minus else 1)
+            return out
         if isinstance(n, Product):
-            return sympy.Mul(*[sympy.Pow(walk(f), -1) if d else walk(f) for f, d in zip(n.factors, n.divided)])
+            out = [Fraction(1)]
+            for factor, divided in zip(n.factors, n.divided):
+                value = walk(factor)
+                out = [c / constant(value) for c in out] if divided else multiply(out, value)
+            return out
         if isinstance(n, Power):
-            return power(n, walk(n.base), walk(n.exponent))
-        if calculus and n.function in ("abs", "sign"):
-            return (_RealAbs if n.function == "abs" else _RealSign)(walk(n.argument))
-        return _SYMPY_FUNCTIONS[n.function](walk(n.argument))
-    return walk(node)
+            with np.errstate(all="ignore"):
+                p = float(_evaluate(n.exponent, None))
+            if _facts(n.base).value is None:   # x-dependent base: sympy sees the integer int(p)
+                return power(walk(n.base), int(p))
+            base, exponent = constant(walk(n.base)), constant(walk(n.exponent))
+            if exponent.denominator != 1 or abs(p) > MAX_EXPONENT:
+                raise _NotRational
+            bits = base.numerator.bit_length() + base.denominator.bit_length()
+            if bits * abs(p) > _EXACT_POWER_BITS:
+                raise _NotRational
+            return [base ** int(exponent)]
+        raise _NotRational  # Pi, Call
 
-
-def _from_sympy(expr: sympy.Expr, variable: str) -> Node:
-    """Convert a sympy tree back into the evaluator's tree; unknown node types are refused."""
-    def number(value: Fraction) -> Node:
-        magnitude = abs(value)
-        if max(magnitude.numerator, magnitude.denominator) > 2**53:   # not p/q in doubles: one number
-            try:
-                node: Node = Number(float(magnitude), magnitude)
-            except OverflowError:
-                raise ExpressionError("the symbolic form has a coefficient beyond double precision "
-                                      "(|c| > 1.8e308); rescale the expression") from None
-            return Negate(node) if value < 0 else node
-        node = Number(float(magnitude.numerator), Fraction(magnitude.numerator))
-        if magnitude.denominator != 1:
-            node = Product((node, Number(float(magnitude.denominator), Fraction(magnitude.denominator))),
-                           (False, True))
-        return Negate(node) if value < 0 else node
-
-    def power(base: sympy.Expr, exponent: sympy.Expr) -> sympy.Expr:
-        return base if exponent == 1 else sympy.Pow(base, exponent, evaluate=False)
-
-    def walk(e: sympy.Expr) -> Node:
-        if e.is_Symbol and e.name == variable:
-            return Variable(variable)
-        if e.is_Rational:
-            return number(Fraction(int(e.p), int(e.q)))
-        if e.is_Float and math.isfinite(float(e)):     # from a float base: one number, its repr
-            value = float(e)
-            return Negate(Number(-value)) if value < 0 else Number(value)
-        if e is sympy.pi:
-            return Pi()
-        if e is sympy.E:
-            return Call("exp", Number(1.0, Fraction(1)))
-        if e.is_Add:
-            first, *rest = e.as_ordered_terms()
-            terms, negated = [walk(first)], [False]
-            for term in rest:
-                minus = term.could_extract_minus_sign()
-                terms.append(walk(-term if minus else term))
-                negated.append(minus)
-            return Sum(tuple(terms), tuple(negated))
-        if e.is_Mul:
-            if e.could_extract_minus_sign():   # -a*b reads better than -(a*b); equal in IEEE arithmetic
-                positive = walk(-e)
-                if isinstance(positive, Product) and not positive.divided[0]:
-                    return Product((Negate(positive.factors[0]),) + positive.factors[1:], positive.divided)
-                return Negate(positive)
-            numerator, denominator = [], []
-            for factor in e.as_ordered_factors():
-                if factor.is_Rational:
-                    numerator.append(sympy.Integer(factor.p))
-                    denominator.append(sympy.Integer(factor.q))
-                elif factor.is_Pow and factor.exp.is_Number and factor.exp.is_negative:
-                    denominator.append(power(factor.base, -factor.exp))
-                else:
-                    numerator.append(factor)
-            numerator = [f for f in numerator if f != 1] or [sympy.Integer(1)]
-            denominator = [f for f in denominator if f != 1]
-            factors = [walk(f) for f in numerator]
-            if len(denominator) > 1:     # a/(b*c) reads better than a/b/c
-                factors.append(Product(tuple(walk(f) for f in denominator), (False,) * len(denominator)))
-            elif denominator:
-                factors.append(walk(denominator[0]))
-            if len(factors) == 1:
-                return factors[0]
-            return Product(tuple(factors), (False,) * len(numerator) + (True,) * (len(factors) - len(numerator)))
-        if e.is_Pow:
-            base, exponent = e.args
-            if exponent == sympy.Rational(1, 2):
-                return Call("sqrt", walk(base))
-            if exponent.is_Number and exponent.is_negative:
-                return Product((Number(1.0, Fraction(1)), walk(power(base, -exponent))),
-                               (False, True))
-            return Power(walk(base), walk(exponent))
-        if e.func in _FROM_SYMPY and len(e.args) == 1:
-            return Call(_FROM_SYMPY[e.func], walk(e.args[0]))
-        if e in (sympy.nan, sympy.zoo, sympy.oo, -sympy.oo):
-            raise ExpressionError("the symbolic form is undefined or infinite (e.g. log(0) from 0^x), which "
-                                  "cannot be evaluated here; rewrite the expression")
-        if e is sympy.I:
-            raise ExpressionError("the symbolic form is complex-valued (e.g. a negative constant raised to a "
-                                  "power that depends on x), which cannot be evaluated here; use a positive base")
-        raise ExpressionError(f"the symbolic form contains {type(e).__name__}, which cannot be evaluated "
-                              "here; use the functions " + ", ".join(ALLOWED_FUNCTIONS))
-    return walk(expr)
+    try:
+        out = walk(node)
+    except (_NotRational, ZeroDivisionError, RecursionError):
+        return None
+    while len(out) > 1 and out[-1] == 0:
+        out.pop()
+    return out
 
 
 # --------------------------------------------------------------------------- public objects
@@ -913,11 +818,15 @@ class Expression:
         return np.array(np.broadcast_to(np.asarray(value).astype(dtype, copy=False), z.shape))
 
     @cached_property
-    def _symbol(self) -> sympy.Symbol:
+    def _symbol(self):
+        from .symbolic import sympy
+
         return sympy.Symbol(self.variable, real=True)
 
     @cached_property
-    def _sympy(self) -> sympy.Expr:
+    def _sympy(self):
+        from .symbolic import _to_sympy
+
         return self._sympy_call(_to_sympy, self.tree, self._symbol, False)
 
     def _sympy_call(self, function, *arguments):
@@ -927,7 +836,7 @@ class Expression:
             raise ExpressionError(f"expression '{self.text[:40]}' is nested too deeply for symbolic "
                                   "manipulation; simplify it") from None
 
-    def to_sympy(self) -> sympy.Expr:
+    def to_sympy(self):
         """The expression as a sympy object, built node by node (never from a string).
 
         The variable is a real symbol; literals and parameter values are exact
@@ -947,11 +856,14 @@ class Expression:
         distributional derivative of ``sign`` would bring are dropped, so at
         a zero of an ``abs`` argument the value follows these conventions.
         The result's text may contain ``sign``, which is not accepted as input.
+        (A polynomial field never gets here: :class:`equilibrium.Field`
+        differentiates its coefficients.)
         """
         if isinstance(order, bool) or not isinstance(order, (int, np.integer)) or order < 0:
             raise ExpressionError(f"derivative order must be a non-negative integer, got {order!r}")
         if order == 0:
             return self
+        from .symbolic import _from_sympy, _to_sympy, sympy
 
         def differentiate():
             calculus = _to_sympy(self.tree, self._symbol, True)
@@ -968,8 +880,10 @@ class Expression:
         Built as a polynomial means: sums, products, division by constants and
         non-negative integer constant powers of such, over the variable and
         constants (``x/x`` or ``sqrt(x)^2`` are not).  The coefficients are
-        exact (sympy.Poly over the rationals) before rounding to float;
-        trailing zeros are trimmed, the zero polynomial gives ``[0.0]``.
+        exact before rounding to float: in rational arithmetic
+        (:func:`_rational_polynomial`) when every constant is rational, else
+        sympy.Poly of :meth:`to_sympy`; trailing zeros are trimmed, the zero
+        polynomial gives ``[0.0]``.
 
         Raises
         ------
@@ -982,13 +896,24 @@ class Expression:
         if degree > MAX_POLYNOMIAL_DEGREE:
             raise ExpressionError(f"polynomial degree {degree} of '{self.text[:40]}' exceeds "
                                   f"{MAX_POLYNOMIAL_DEGREE}; use a lower degree")
-        try:
-            poly = self._sympy_call(sympy.Poly, self.to_sympy(), self._symbol)
-        except sympy.PolynomialError:
-            raise ExpressionError(f"'{self.text[:40]}' is not a polynomial in exact arithmetic; "
-                                  "rewrite its constants") from None
-        exact = reversed(poly.all_coeffs())
-        values = [complex(c) if c.is_number and c.is_finite is not False else complex("nan") for c in exact]
+        exact = _rational_polynomial(self.tree)
+        if exact is not None:
+            values = []
+            for c in exact:
+                try:
+                    values.append(complex(float(c)))
+                except OverflowError:
+                    values.append(complex("nan"))
+        else:
+            from .symbolic import sympy
+
+            try:
+                poly = self._sympy_call(sympy.Poly, self.to_sympy(), self._symbol)
+            except sympy.PolynomialError:
+                raise ExpressionError(f"'{self.text[:40]}' is not a polynomial in exact arithmetic; "
+                                      "rewrite its constants") from None
+            exact = reversed(poly.all_coeffs())
+            values = [complex(c) if c.is_number and c.is_finite is not False else complex("nan") for c in exact]
         if not all(math.isfinite(v.real) and v.imag == 0 for v in values):
             raise ExpressionError(f"a polynomial coefficient of '{self.text[:40]}' is not a finite real "
                                   "double (it overflows, or is undefined in exact arithmetic such as "

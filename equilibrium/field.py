@@ -57,16 +57,16 @@ class Field:
         from .expression import parse_expression
 
         expression = parse_expression(text, parameters or {})
-        first = expression.derivative(1)
-        second = first.derivative(1)
         coefficients = expression.polynomial_coefficients()
-        if coefficients is not None:
+        if coefficients is not None:  # differentiated from the coefficients (no sympy)
             return cls.from_coefficients(
                 coefficients,
                 description=text.strip(),
                 parameters=dict(parameters or {}),
                 expression_text=text,
             )
+        first = expression.derivative(1)
+        second = first.derivative(1)
         return cls(
             V=_real_guarded(expression),
             dV=_real_guarded(first),

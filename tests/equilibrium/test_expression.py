@@ -20,8 +20,8 @@ import sympy
 from scipy.special import comb
 
 from equilibrium.errors import InputError
-from equilibrium.expression import (ALLOWED_FUNCTIONS, Expression, ExpressionError, _from_sympy,
-                                    parse_expression)
+from equilibrium.expression import ALLOWED_FUNCTIONS, Expression, ExpressionError, parse_expression
+from equilibrium.symbolic import _from_sympy
 
 X = np.array([-2.5, -1.3, -0.4, 0.3, 0.9, 1.7, 2.2])
 
