@@ -9,11 +9,14 @@ from __future__ import annotations
 
 import json
 import math
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from equilibrium.measure import TOLERANCES, EquilibriumMeasure
-from workbench.results import Group
+
+if TYPE_CHECKING:
+    from workbench.results import Group
 
 
 def measure_summary(mu: EquilibriumMeasure) -> dict:
@@ -110,6 +113,8 @@ def density_grid(mu: EquilibriumMeasure, grid_points: int = 801, end_points: int
 
 def measure_group(mu: EquilibriumMeasure, grid_points: int = 801) -> Group:
     """The /equilibrium group of a results file: numbers, conventions, and the density on a grid."""
+    from workbench.results import Group  # h5py (0.2 s) only when a file is written
+
     node = Group()
     support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
     node.attrs.update(
