@@ -73,6 +73,9 @@ TOLERANCES = {
 #: checks bounded below
 LOWER = ("a2_positivity",)
 
+#: degrees per chunk of :meth:`Predictor.predict` (its memory is that of one chunk)
+PREDICT_CHUNK = 2000
+
 
 
 
@@ -527,14 +530,25 @@ class Predictor:
         """
         failure_policy(on_failure)
         N, n = self._degrees(degrees, scalings)
-        rec = self.recurrence(N, n, on_failure="mark")
-        gaps = self.gap_zeros(N, n, on_failure="mark")
-        counts = self.band_counts(N, n, gaps, on_failure="mark")
-        parts = (rec, gaps, counts)
-        message = "; ".join(p.message for p in parts if p.message)
-        result = Prediction(N, n, rec.phases, rec.a, rec.b, gaps.zeros, counts.counts,
-                            all(p.verified for p in parts), {**rec.checks, **gaps.checks, **counts.checks},
-                            message)
+        rec = self.recurrence(N, n, on_failure="mark")   # O(degrees): no tables
+        pieces = []
+        # the zeros PREDICT_CHUNK degrees at a time: the theta tables (degrees × contour points)
+        # stay of one chunk's size however many degrees are asked for; each degree's zeros are
+        # computed on their own, so the chunks do not change them
+        for start in range(0, max(len(N), 1), PREDICT_CHUNK):
+            Nc, nc = N[start:start + PREDICT_CHUNK], n[start:start + PREDICT_CHUNK]
+            gaps = self.gap_zeros(Nc, nc, on_failure="mark")
+            pieces.append((gaps, self.band_counts(Nc, nc, gaps, on_failure="mark")))
+        parts = [rec] + [part for piece in pieces for part in piece]
+        checks: dict[str, float] = dict(rec.checks)
+        for part in parts[1:]:
+            for key, value in part.checks.items():   # the worst value over the chunks (all bounded above)
+                checks[key] = max(checks[key], value) if key in checks else value
+        message = "; ".join(dict.fromkeys(p.message for p in parts if p.message))
+        zeros = np.concatenate([gaps.zeros for gaps, _ in pieces])
+        counts = np.concatenate([count.counts for _, count in pieces])
+        result = Prediction(N, n, rec.phases, rec.a, rec.b, zeros, counts, all(p.verified for p in parts),
+                            checks, message)
         return settle(result, on_failure)
 
     def soft_edge_zeros(self, edge: int, degree: int, count: int = 5, *, on_failure: str = "raise") -> EdgeZeros:

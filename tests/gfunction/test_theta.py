@@ -277,3 +277,18 @@ def test_rounding_grows_with_the_exponent(g):
             ref = _scaled_theta_mpmath(u, tau, exponent, box=30 if g == 1 else 10)
             error = abs(got.oscillatory[0] - ref)
             assert error <= got.truncation_bound + 4 * eps * (1 + exponent), (target, error)
+
+
+def test_linear_exponentials_are_the_direct_exponentials():
+    """The per-coordinate tables of theta_shift_table and ThetaShiftTable give exp(2πi nᵀf)
+    to rounding (common practice: exp(a + b) = exp(a) exp(b)); factors whose tables could
+    overflow are left to the direct form (None)."""
+    from gfunction.theta import _linear_exponentials
+    rng = np.random.default_rng(3)
+    for g in (1, 2, 4):
+        points = rng.integers(-6, 7, size=(300, g))
+        for factors in (rng.uniform(-3, 3, (40, g)), rng.uniform(-3, 3, (40, g)) + 0.3j * rng.normal(size=(40, g))):
+            direct = np.exp(2j * np.pi * (factors @ points.T))
+            got = _linear_exponentials(points, factors)
+            assert np.max(np.abs(got - direct) / np.abs(direct)) < 1e-13
+    assert _linear_exponentials(np.array([[40]]), np.array([[3j]])) is None   # e^{2π·40·3}: direct form
