@@ -180,7 +180,7 @@ def stieltjes_numpy(disc: Discretisation, count: int) -> tuple[np.ndarray, np.nd
     """The loop of :func:`stieltjes` in numpy (about ten vector operations per step).
 
     All temporaries are preallocated (large temporaries are expensive).  This is the
-    reference form, used when numba is absent and for small problems.
+    reference form, used when the C loop is not built (or WORKBENCH_KERNEL=numpy).
     """
     count = int(count)
     if count >= disc.size:
