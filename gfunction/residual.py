@@ -491,21 +491,16 @@ def _negative_part(modes: np.ndarray, count: int) -> np.ndarray:
     return modes * keep[:, None, None]
 
 
-def _outside_values(modes_neg: np.ndarray, jump: JumpExpansion, count: int) -> np.ndarray:
-    """``Σ_{c' ≠ c} Σ_{m=-count}^{-1} c_m((s-e')/r')^m`` at the points of every circle c: (N, C, L, 2, 2)."""
+def _principal_part_matrix(jump: JumpExpansion, count: int) -> np.ndarray:
+    """``X`` (C·L, C·count): column (c', m) holds ``((s - e')/r')^{-m}``, m = 1 … count, at the points of
+    every circle (``t^{-m}`` on circle c' itself): the principal parts of all circles at all points."""
     C, L = jump.points.shape
-    out = np.zeros(modes_neg.shape, dtype=complex)
-    m = -np.arange(1, count + 1)
-    idx = L + m                                              # FFT positions of the negative modes
+    X = np.empty((C, L, C, count), dtype=complex)
+    m = np.arange(1, count + 1)
     for c_src in range(C):
-        e, r = jump.centres[c_src], jump.radii[c_src]
-        coef = modes_neg[:, c_src][:, idx]                   # (N, count, 2, 2)
-        for c in range(C):
-            if c == c_src:
-                continue
-            tt = (jump.points[c] - e) / r                    # (L,), |tt| > 1
-            out[:, c] += np.einsum("lm,nmij->nlij", tt[:, None] ** m[None, :], coef)
-    return out
+        tt = (jump.points - jump.centres[c_src]) / jump.radii[c_src]          # (C, L)
+        X[:, :, c_src, :] = tt[..., None] ** -m
+    return X.reshape(C * L, C * count)
 
 
 def _infinity_coefficients(modes: np.ndarray, jump: JumpExpansion, terms: int) -> np.ndarray:
@@ -552,6 +547,9 @@ def residual_expansion(predictor, degrees, order: int = 2, *, samples: int = _DE
     delta = jump.terms(degrees, NU)[:order]                   # (K, N, C, L, 2, 2)
     C, L = jump.points.shape
     keep = int(min(L // 2 - 1, int(np.max(jump.poles)) + _MODE_MARGIN))
+    X = _principal_part_matrix(jump, keep)
+    idx = L - np.arange(1, keep + 1)                          # FFT positions of the modes -1 … -keep
+    N = degrees.size
     modes = np.empty(delta.shape, dtype=complex)
     inner = []                                                # R^{(k)}_- on the circles
     for k in range(1, order + 1):
@@ -560,11 +558,12 @@ def residual_expansion(predictor, degrees, order: int = 2, *, samples: int = _DE
             F += _mul(inner[k - j - 1], delta[j - 1])
         cm = fourier_modes(F, axis=-3)
         modes[k - 1] = cm
-        neg = _negative_part(cm, keep)
-        # inside value: self part -Σ_{m≥0} = -(F - negative part), others from outside
-        self_neg = np.fft.ifft(neg * np.exp(1j * np.pi * np.fft.fftfreq(L, 1.0 / L) / L)[:, None, None],
-                               axis=-3) * L
-        inner.append(-(F - self_neg) + _outside_values(neg, jump, keep))
+        if k == order:
+            break                                             # R^{(K)}_- is not needed
+        # inside value: own circle -Σ_{m≥0} c_m t^m = -F + principal part; the other circles'
+        # principal parts from outside; all by one product with X
+        coef = cm[:, :, idx].reshape(N, C * keep, 4)
+        inner.append(-F + (X @ coef).reshape(N, C, L, 2, 2))
     infinity = np.stack([_infinity_coefficients(_negative_part(modes[k], keep), jump, infinity_terms)
                          for k in range(order)])
     if not verify:

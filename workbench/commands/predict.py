@@ -3,6 +3,13 @@
 For each degree N in LO … HI-1 the weight is exp(-N V) on the set and the
 prediction is for the diagonal coefficients a_N^{(N)}, b_N^{(N)}, the zero of
 p_N in each gap (or none) and the number of zeros in each band.
+
+``--order K`` (0, 1, 2; 0 is the leading order) adds the corrections c_1/N … c_K/N^K
+of the residual matrix (gfunction.series; the gap zeros of the corrected outer form,
+gfunction.polynomial_form); ``--method residual`` takes a_N, b_N from the residual
+problem solved numerically (gfunction.residual_problem), with an error estimate, and the
+gap zeros of ``--order``.  Below n* = log(1/1e-13)/c the residual method's values are
+marked not verified (the lens and gap jumps it neglects exceed 1e-13; exit 3), never refused.
 """
 
 from __future__ import annotations
@@ -43,17 +50,62 @@ def register(subparsers) -> None:
                               description=DESCRIPTION)
     add_field_options(p)
     p.add_argument("--degrees", required=True, metavar="LO:HI", help="degrees LO … HI-1")
+    p.add_argument("--order", default="0", metavar="K",
+                   help="corrections through c_K/N^K: 0 (leading order, default), 1 or 2")
+    p.add_argument("--method", default="series", metavar="METHOD",
+                   help="'series' (the correction series, default) or 'residual' (a_N, b_N from the residual "
+                        "problem solved numerically, with an error estimate)")
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
     p.set_defaults(handler=run)
+
+
+#: measured seconds per degree on the development machine (loaded), used to refuse long ranges up front:
+#: corrected gap zeros (gfunction.polynomial_form, genus >= 1) and the residual problem
+_SECONDS_PER_DEGREE = {"gap_zeros": 0.15, "residual": 0.06}
+_BUDGET_SECONDS = 600.0
+
+
+def _order(text) -> int:
+    from gfunction.corrected import ORDERS
+
+    try:
+        value = int(str(text).strip())
+    except ValueError:
+        value = None
+    if value not in ORDERS:
+        raise InputError(f"--order must be one of {', '.join(map(str, ORDERS))}; got {text!r} (e.g. --order 2)")
+    return value
+
+
+def _method(text) -> str:
+    from gfunction.corrected import METHODS
+
+    if text not in METHODS:
+        raise InputError(f"--method must be one of {', '.join(METHODS)}; got {text!r} (e.g. --method residual)")
+    return text
+
+
+def _refuse_long(degrees: np.ndarray, order: int, method: str, genus: int) -> None:
+    cost = 0.0
+    if order and genus:
+        cost += _SECONDS_PER_DEGREE["gap_zeros"] * degrees.size
+    if method == "residual":
+        cost += _SECONDS_PER_DEGREE["residual"] * degrees.size
+    if cost > _BUDGET_SECONDS:
+        raise InputError(f"--degrees with {degrees.size} degrees at --order {order} --method {method} would take "
+                         f"about {cost / 60:.0f} minutes (limit {_BUDGET_SECONDS / 60:.0f}); split the range, "
+                         f"or use --order 0 / --method series")
 
 
 def run(args) -> int:
     from equilibrium import solve
     from gfunction import predictor
+    from gfunction.corrected import corrected_prediction
 
     from workbench.polynomials import parse_factor
 
     degrees = _degrees(args.degrees)
+    order, method = _order(args.order), _method(args.method)
     field, on = field_and_set_from_args(args)
     factors = None
     text = getattr(args, "factor", None)
@@ -61,7 +113,9 @@ def run(args) -> int:
         factors = parse_factor(text, parse_parameters(args.param), on)
     mu = solve(field, on=on, on_failure="mark")
     # marked, not raised: the table is printed with the failed checks, exit 3
-    pred = predictor(mu, factors, on_failure="mark").predict(degrees, on_failure="mark")
+    pr = predictor(mu, factors, on_failure="mark")
+    _refuse_long(degrees, order, method, pr.genus)
+    pred = corrected_prediction(pr, degrees, order=order, method=method, on_failure="mark")
     verified, message = pred.verified, pred.message
     result = {
         "degrees": [int(d) for d in pred.degrees],
@@ -69,22 +123,34 @@ def run(args) -> int:
         "b": [_number(x) for x in pred.b],
         "gap_zeros": [[_number(v) for v in row] for row in pred.gap_zeros],
         "band_counts": [[int(c) for c in row] for row in pred.band_counts],
+        "order": order,
+        "method": method,
+        # c_1 … c_K of a_N = c_0 + c_1/N + … (series, order >= 1), per degree
+        "corrections": None if pred.corrections is None else {
+            q: [[_number(c) for c in pred.corrections[q][:, i]] for i in range(pred.degrees.size)]
+            for q in ("a", "b")},
         "support": [list(ab) for ab in mu.support],
         "omega": [float(x) for x in mu.omega],
         "verified": verified,
         "checks": {k: float(v) for k, v in pred.checks.items()},
         "message": message,
     }
+    if method == "residual":
+        result["error_estimate"] = [_number(x) for x in pred.error_estimate]
     if args.json:
         json.dump(result, sys.stdout)
         sys.stdout.write("\n")
         return _status(verified, message)
     out = sys.stdout
     out.write(f"support {result['support']}  Ω {result['omega']}\n")
-    out.write(f"{'N':>8} {'a_N':>20} {'b_N':>20}  gap zeros / band counts\n")
+    what = f"order {order}" if method == "series" else f"residual problem (gap zeros at order {order})"
+    out.write(f"predictions: {what}\n")
+    extra = f" {'error est':>10}" if method == "residual" else ""
+    out.write(f"{'N':>8} {'a_N':>20} {'b_N':>20}{extra}  gap zeros / band counts\n")
     for i, d in enumerate(result["degrees"]):
         gz = ", ".join("-" if v is None else f"{v:.10g}" for v in result["gap_zeros"][i])
-        out.write(f"{d:>8} {pred.a[i]:>20.15f} {pred.b[i]:>20.15f}  [{gz}] {result['band_counts'][i]}\n")
+        est = f" {pred.error_estimate[i]:>10.2e}" if method == "residual" else ""
+        out.write(f"{d:>8} {pred.a[i]:>20.15f} {pred.b[i]:>20.15f}{est}  [{gz}] {result['band_counts'][i]}\n")
     return _status(verified, message)
 
 

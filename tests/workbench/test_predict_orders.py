@@ -1,0 +1,58 @@
+"""``workbench predict --order K --method series|residual``: the JSON, the orders, the methods.
+
+Sources: Laguerre x^α e^{-nx} (DLMF 18.9.2 rescaled: a_n = √(1+α/n), b_n = 2 + (α+1)/n) and the
+leading-order output of the command before the options existed (order 0 is unchanged).
+"""
+
+import json
+
+import numpy as np
+
+from workbench.cli import main
+
+
+def _json(capsys, argv):
+    code = main(argv + ["--json"])
+    out = capsys.readouterr()
+    return code, json.loads(out.out), out.err
+
+
+def test_order_zero_is_todays_output(capsys):
+    base = ["predict", "--potential", "x**4/4 - 3.1*x**2/2 + 0.23*x", "--degrees", "300:303"]
+    code, d0, _ = _json(capsys, base)
+    code2, dd, _ = _json(capsys, base + ["--order", "0", "--method", "series"])
+    assert code == code2 == 0 and d0 == dd
+    assert d0["order"] == 0 and d0["method"] == "series" and d0["corrections"] is None
+    for key in ("a", "b", "gap_zeros", "band_counts"):
+        assert key in d0
+
+
+def test_laguerre_orders_and_corrections(capsys):
+    al = 0.7
+    base = ["predict", "--potential", "x", "--on=0:", "--factor", f"x^{al}", "--degrees", "400:403"]
+    n = np.arange(400, 403)
+    errs = []
+    for K in (0, 1, 2):
+        code, d, err = _json(capsys, base + ["--order", str(K)])
+        assert code == 0, err
+        errs.append(np.max(np.abs(np.array(d["a"]) - np.sqrt(1 + al / n))))
+        if K:
+            c = np.array(d["corrections"]["a"])
+            assert c.shape == (3, K) and np.allclose(c[:, 0], al / 2, atol=1e-13)
+            assert np.allclose(np.array(d["b"]), 2 + (al + 1) / n, atol=1e-13)
+    assert errs[1] < 1e-2 * errs[0] and errs[2] < 1e-2 * errs[1], errs
+
+
+def test_residual_method_json(capsys):
+    code, d, err = _json(capsys, ["predict", "--potential", "x**2/2", "--degrees", "100:102", "--method",
+                                  "residual"])
+    assert code == 0, err
+    assert d["method"] == "residual" and len(d["error_estimate"]) == 2 and max(d["error_estimate"]) < 1e-13
+    assert np.allclose(d["a"], 1.0, atol=2e-15) and np.allclose(d["b"], 0.0, atol=2e-15)
+
+
+def test_residual_method_small_n_is_marked(capsys):
+    code = main(["predict", "--potential", "x", "--on=0:", "--factor", "x^0.7", "--degrees", "20:21",
+                 "--method", "residual"])
+    out = capsys.readouterr()
+    assert code == 3 and "neglected lens and gap jumps" in out.err and "20" in out.out
