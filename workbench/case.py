@@ -43,6 +43,7 @@ __all__ = [
     "SetSpec",
     "FactorSpec",
     "PolynomialSpec",
+    "ModelSpec",
     "ComparisonSpec",
     "FigureSpec",
     "OutputSpec",
@@ -104,6 +105,12 @@ SCHEMA: dict[str, dict[str, _Key]] = {
         "extra_degrees": _Key((int,), "coefficients are computed up to degree n + extra_degrees"),
         "value_points": _Key((int,), "number of points in the bulk where p_n is compared"),
     },
+    "model": {
+        "order": _Key((int,), "corrections of the predictions through c_K/n^K: 0 (leading order), 1 or 2; "
+                      "every order 0..K is compared"),
+        "method": _Key((str,), "\"series\" (the correction series) or \"residual\" (also a_n, b_n from the "
+                       "residual problem solved numerically)"),
+    },
     "comparisons": {
         "coefficients": _Key((bool,), "compare a_n, b_n with the model problem"),
         "values": _Key((bool,), "compare p_n(x) with the outer parametrix in the bulk"),
@@ -142,7 +149,7 @@ SCHEMA: dict[str, dict[str, _Key]] = {
     },
 }
 
-_TOP_LEVEL = ("case", "field", "set", "factor", "polynomials", "comparisons", "figures",
+_TOP_LEVEL = ("case", "field", "set", "factor", "model", "polynomials", "comparisons", "figures",
               "output", "sweep", "reduced")
 
 
@@ -218,6 +225,15 @@ class PolynomialSpec:
 
 
 @dataclass(frozen=True)
+class ModelSpec:
+    """Which predictions: the orders 0 … ``order`` of the correction series, and with
+    ``method = "residual"`` also the residual problem solved numerically."""
+
+    order: int = 0
+    method: str = "series"
+
+
+@dataclass(frozen=True)
 class ComparisonSpec:
     coefficients: bool = True
     values: bool = True
@@ -284,6 +300,7 @@ class Case:
     source: str
     text: str
     reduced: bool = False
+    model: ModelSpec = ModelSpec()
 
     @property
     def digest(self) -> str:
@@ -498,7 +515,7 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
             raise _top_key_error(check, key)
 
     tables = {name: check.require_table(data, name) for name in _TOP_LEVEL if name != "sweep"}
-    for name in ("case", "field", "set", "factor", "polynomials", "comparisons", "figures", "output"):
+    for name in ("case", "field", "set", "factor", "model", "polynomials", "comparisons", "figures", "output"):
         check.check_table(tables[name], name)
     check.check_table(tables["reduced"], "reduced")
 
@@ -538,6 +555,7 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
 
     figures = _figures(check, tables["figures"])
     output = _output(check, tables["output"])
+    model = _model(check, tables["model"])
 
     sweep = None
     if "sweep" in data:
@@ -560,6 +578,7 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
         source=source,
         text=text,
         reduced=reduced,
+        model=model,
     )
 
 
@@ -729,6 +748,15 @@ def _polynomials(check: _Validator, table: dict[str, Any], where_n: str) -> Poly
     if points < 1:
         raise check.fail("value_points must be >= 1", "polynomials", "value_points")
     return PolynomialSpec(n=ns, extra_degrees=extra, value_points=points)
+
+
+def _model(check: _Validator, table: dict[str, Any]) -> ModelSpec:
+    spec = ModelSpec(**table)
+    if spec.order not in (0, 1, 2):
+        raise check.fail(f"order = {spec.order} must be 0, 1 or 2", "model", "order")
+    if spec.method not in ("series", "residual"):
+        raise check.fail(f"method = {spec.method!r} must be \"series\" or \"residual\"", "model", "method")
+    return spec
 
 
 def _comparisons(check: _Validator, table: dict[str, Any]) -> ComparisonSpec:

@@ -17,7 +17,9 @@ coefficients  direct a_n^{(n)}, b_n^{(n)} (circles) against the model prediction
               (dots, not joined: for several bands it is quasi-periodic in n); one
               band: direct minus model (the model is constant in n)
 errors        errors against n on log-log axes with the fitted slope ± its standard
-              error; every err_* dataset of /comparison, each in its own colour
+              error; every err_* dataset of /comparison, each in its own colour; with
+              [model] order or method (workbench.orders) the errors of a_n and b_n at
+              every order, and of the residual method, side by side below
 gap_zeros     the zero of p_n in each gap against n, direct (squares) and predicted
               (dots) in the colour of the gap
 edge_zeros    zeros next to the outer edges in the Airy (soft) or Bessel (hard) scaling
@@ -204,41 +206,71 @@ def draw_coefficients(tree: Group):
     return fig
 
 
+#: the predictions of a_n, b_n beyond leading order (workbench.orders), in drawing order
+ORDER_VARIANTS = (("", "order 0"), ("_order1", "order 1"), ("_order2", "order 2"), ("_residual", "residual"))
+
+
+def _is_order_key(key: str) -> bool:
+    return any(key == f"err_{q}{suffix}" for q in ("a", "b") for suffix, _ in ORDER_VARIANTS[1:])
+
+
+def _error_series(ax, n, comp, rates, key, text, k):
+    """One error series (markers, and its fitted line); returns ``(handle, label, n used)`` or None."""
+    err = np.asarray(comp.get(key), dtype=float)
+    if err.shape != n.shape:
+        return None
+    ok = np.isfinite(err) & (err > 0)
+    if ok.sum() == 0:
+        return None
+    colour, marker = SERIES[k % len(SERIES)], MARKERS[k % len(MARKERS)]
+    fit = rates.groups.get(key)
+    if fit is not None and np.isfinite(fit.attrs.get("slope", np.nan)):
+        s, se, c = fit.attrs["slope"], fit.attrs.get("stderr", np.nan), fit.attrs["intercept"]
+        grid = np.geomspace(n[ok].min(), n[ok].max(), 20)
+        ax.plot(grid, np.exp(c) * grid ** s, color=colour, lw=0.7, ls=DASHES[1])
+        text += f": ${s:.2f} \\pm {se:.2f}$" if np.isfinite(se) else f": ${s:.2f}$"
+    elif fit is not None and "note" in fit.attrs:
+        text += " (rounding)"
+    (points,) = ax.plot(n[ok], err[ok], ls="none", marker=marker, color=colour, mfc="none")
+    return points, text, n[ok]
+
+
 def draw_errors(tree: Group):
-    """Errors against n (log-log) with the fitted slope s ± standard error, one marker per quantity."""
+    """Errors against n (log-log) with the fitted slope s ± standard error, one marker per quantity.
+
+    With predictions beyond leading order (``[model] order``/``method``) a second row shows the
+    errors of a_n and of b_n side by side, one series per order (and the residual method).
+    """
     comp = tree.groups.get("comparison")
     if comp is None or not comp.has("n"):
         return None
     n = np.asarray(comp.get("n"), dtype=float)
     rates = comp.groups.get("rates", Group())
-    fig, axes = new_figure(height=3.2)
-    ax = axes[0, 0]
-    # every quantity the file has: the known ones in their order, then any other err_* (data-driven)
+    variants = [(suffix, label) for suffix, label in ORDER_VARIANTS[1:] if comp.has(f"err_a{suffix}")]
+    if variants:
+        from matplotlib.figure import Figure
+
+        fig = Figure(figsize=(3.4, 6.2), layout="constrained")
+        top, bottom = fig.subfigures(2, 1, height_ratios=[1.2, 1.0])
+        ax = top.subplots()
+    else:
+        fig, axes = new_figure(height=3.2)
+        top, ax = fig, axes[0, 0]
+    # every quantity the file has: the known ones in their order, then any other err_* (data-driven);
+    # the orders beyond the leading one go to the second row
     keys = [k for k in ERROR_LABELS if comp.has(k)] + sorted(
-        k for k in comp.datasets if k.startswith("err_") and k not in ERROR_LABELS)
+        k for k in comp.datasets if k.startswith("err_") and k not in ERROR_LABELS and not _is_order_key(k))
     handles, labels = [], []
     drawn_n = []
     for k, key in enumerate(keys):
         # a quantity keeps its colour and marker from figure to figure (its place in ERROR_LABELS)
         k = list(ERROR_LABELS).index(key) if key in ERROR_LABELS else k
-        err = np.asarray(comp.get(key), dtype=float)
-        if err.shape != n.shape:
-            continue
-        ok = np.isfinite(err) & (err > 0)
-        if ok.sum() == 0:
-            continue
-        colour, marker = SERIES[k % len(SERIES)], MARKERS[k % len(MARKERS)]
         text = ERROR_LABELS.get(key) or comp.datasets[key].attrs.get("label", key)
-        fit = rates.groups.get(key)
-        if fit is not None and np.isfinite(fit.attrs.get("slope", np.nan)):
-            s, se, c = fit.attrs["slope"], fit.attrs.get("stderr", np.nan), fit.attrs["intercept"]
-            grid = np.geomspace(n[ok].min(), n[ok].max(), 20)
-            ax.plot(grid, np.exp(c) * grid ** s, color=colour, lw=0.7, ls=DASHES[1])
-            text += f": ${s:.2f} \\pm {se:.2f}$" if np.isfinite(se) else f": ${s:.2f}$"
-        (points,) = ax.plot(n[ok], err[ok], ls="none", marker=marker, color=colour, mfc="none")
-        handles.append(points)
-        labels.append(text)
-        drawn_n.append(n[ok])
+        got = _error_series(ax, n, comp, rates, key, text, k)
+        if got is not None:
+            handles.append(got[0])
+            labels.append(got[1])
+            drawn_n.append(got[2])
     if not handles:
         return None
     ax.set_xscale("log")
@@ -247,10 +279,32 @@ def draw_errors(tree: Group):
     set_log_axis(ax.xaxis, float(used.min()), float(used.max()))
     ax.set_xlabel("$n$")
     ax.set_ylabel("|direct $-$ model|")
-    ax.set_title("errors against $n$ and fitted slopes")
-    _legend_below(fig, handles, labels, entries_per_row=2 if len(labels) <= 8 else 3, fontsize=6.5,
+    ax.set_title("errors and fitted slopes" + (", leading order" if variants else " against $n$"))
+    _legend_below(top, handles, labels, entries_per_row=2 if len(labels) <= 8 else 3, fontsize=6.5,
                   columnspacing=1.0, handletextpad=0.3)
     thin_tick_labels(fig, ax.xaxis)
+    if variants:
+        pair = bottom.subplots(1, 2, sharey=True)
+        for axq, q in zip(pair, ("a", "b")):
+            hs, ls, ns = [], [], []
+            for k, (suffix, label) in enumerate([ORDER_VARIANTS[0]] + variants):
+                if comp.has(f"err_{q}{suffix}"):
+                    got = _error_series(axq, n, comp, rates, f"err_{q}{suffix}", label, k)
+                    if got is not None:
+                        hs.append(got[0])
+                        ls.append(got[1])
+                        ns.append(got[2])
+            axq.set_xscale("log")
+            axq.set_yscale("log")
+            if ns:
+                used = np.concatenate(ns)
+                set_log_axis(axq.xaxis, float(used.min()), float(used.max()))
+            axq.set_xlabel("$n$")
+            axq.set_title(f"${q}_n$ by order", fontsize=8)
+            axq.legend(hs, ls, loc="upper center", bbox_to_anchor=(0.5, -0.24), ncol=1, fontsize=5.5,
+                       handletextpad=0.3, borderaxespad=0.0)
+            thin_tick_labels(fig, axq.xaxis)
+        pair[0].set_ylabel("|direct $-$ model|")
     return fig
 
 

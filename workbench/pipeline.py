@@ -41,6 +41,7 @@ import numpy as np
 from equilibrium.errors import InputError, NumericalFailure
 from workbench.case import Case
 from workbench.hdf5 import check_output_directory, make_output_directory
+from workbench.orders import check_model_request, model_orders, order_error_keys, order_errors
 from workbench.results import (
     Group,
     load_partials,
@@ -263,6 +264,7 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
         if case.comparisons.coefficients:
             node.add("err_a", np.abs(a_direct - a_model), "|a_n direct - a_n model|")
             node.add("err_b", np.abs(b_direct - b_model), "|b_n direct - b_n model|")
+            order_errors(node, model, {"a": a_direct, "b": b_direct})
     if model.has("band_counts") and case.comparisons.band_counts:
         predicted = np.asarray(model.get("band_counts"))
         node.add("band_counts_model", predicted, "predicted number of zeros per band")
@@ -291,7 +293,7 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
         rates.attrs["description"] = "fits log error = intercept + slope log n (least squares)"
         scale = max(1.0, float(np.max(np.abs(support))))
         floor = 1e3 * np.finfo(float).eps * scale
-        for key in ERROR_QUANTITIES:
+        for key in ERROR_QUANTITIES + tuple(order_error_keys(node)):
             if node.has(key):
                 err = np.asarray(node.get(key), dtype=float)
                 # errors at rounding level carry no rate: leave them out of the fit
@@ -372,7 +374,7 @@ def comparison_notes(tree: Group, case: Case) -> tuple[list[str], list[str]]:
         notes.append(f"edge zeros: nothing to compare at n = {_n_list(ns[no_edge_zero])} (no predicted zero "
                      "inside the matching discs of the outer edges, where the Airy/Bessel forms hold)")
     # a comparison that was made must have a number at every n
-    for key in ERROR_QUANTITIES:
+    for key in ERROR_QUANTITIES + tuple(order_error_keys(comp)):
         if key == "err_zeros_gap" or not comp.has(key):
             continue
         values = np.asarray(comp.get(key), dtype=float)
@@ -501,6 +503,7 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
     t = time.perf_counter()
     field_, on, mu, set_aside = solve_case(case)
     timings["equilibrium"] = time.perf_counter() - t
+    check_model_request(case, mu)
     # notes: what the run did differently from what was asked, or left out, and why; shown on
     # screen and kept in the file (they do not make the run unverified, failures do)
     notes: list[str] = []
@@ -631,8 +634,9 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     from gfunction.predict import predictor
 
     ns_arr = np.asarray(sorted(ns), dtype=np.int64)
-    node = Group(attrs={"description": "predictions of the model problem (leading order, "
-                                       "error O(1/n)); degree = scaling = n",
+    node = Group(attrs={"description": "predictions of the model problem (a, b, zeros: leading order, "
+                                       "error O(1/n); a_order<k>, b_order<k>, a_residual: beyond it, "
+                                       "workbench.orders); degree = scaling = n",
                         "available": True})
     # the factor h enters through its Szegő function (the same factor objects as the direct side)
     factors = build_weight(case, mu.field, mu.on, 1.0).factors if case.factor.kind != "none" else None
@@ -656,6 +660,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
              "predicted zero of p_n in gap j (NaN: none)")
     node.add("band_counts", np.asarray(prediction.band_counts, dtype=np.int64),
              "predicted number of zeros of p_n in each band")
+    unverified += model_orders(case, pred, ns_arr, node)
 
     support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
     k = support.shape[0]

@@ -1,0 +1,74 @@
+"""A run with [model] order = 2 and method = "residual": stored predictions, errors per order, rates,
+the errors figure with the orders side by side, and the refusals of the [model] table.
+
+Sources: the direct coefficients of the run itself (V = 3x on [-1, 1] with a Jacobi factor: a hard edge
+at -1 with β = 0.3, a soft edge at 1/3, one band, so the correction constants do not depend on n).
+"""
+
+import numpy as np
+import pytest
+
+from equilibrium.errors import InputError
+from workbench.case import parse_case
+from workbench.figures import draw_errors
+from workbench.pipeline import run_case
+from workbench.results import read_run
+
+CASE = """[case]
+name = "orders"
+[field]
+expression = "3*x"
+[set]
+intervals = "-1:1"
+[factor]
+kind = "jacobi"
+alpha = 0.5
+beta = 0.3
+[model]
+order = 2
+method = "residual"
+[polynomials]
+n = [100, 200, 400]
+[comparisons]
+contour_points = 16
+[figures]
+formats = ["png"]
+dpi = 100
+"""
+
+
+def test_orders_in_a_run(tmp_path):
+    out = run_case(parse_case(CASE), tmp_path / "run", progress=False)
+    assert out.verified, out.messages
+    tree = read_run(out.path)
+    model, comp = tree.groups["model"], tree.groups["comparison"]
+    assert model.attrs["order"] == 2 and model.attrs["method"] == "residual"
+    errs = [np.asarray(comp.get(key)) for key in ("err_a", "err_a_order1", "err_a_order2")]
+    # measured at n = 100, 200, 400: order 0 1.1e-4 … 2.8e-5, order 1 4.8e-8 … 5.5e-9 (c_2/n² and
+    # c_3/n³ partly cancel at these n), order 2 5.4e-8, 6.8e-9, 8.5e-10 (c_3/n³); residual ≤ 5e-15
+    assert np.all(errs[1] < 1e-2 * errs[0]) and np.all(errs[2] < 1e-2 * errs[0]) and errs[2][-1] < errs[1][-1], errs
+    assert np.max(comp.get("err_a_residual")) < 1e-12 and np.max(comp.get("err_b_residual")) < 1e-12
+    assert np.max(model.get("residual_error_estimate")) < 1e-13
+    assert model.get("corrections_a").shape == (3, 2) and model.get("corrections_b").shape == (3, 2)
+    # one band: the c_k do not depend on n
+    assert np.ptp(model.get("corrections_a"), axis=0).max() < 1e-12
+    rates = comp.groups["rates"].groups
+    assert abs(rates["err_b_order1"].attrs["slope"] + 2) < 0.2, rates["err_b_order1"].attrs
+    for q in ("a", "b"):
+        assert abs(rates[f"err_{q}_order2"].attrs["slope"] + 3) < 0.2, rates[f"err_{q}_order2"].attrs
+    assert "note" in rates["err_a_residual"].attrs                  # rounding level: no rate
+    fig = draw_errors(tree)
+    assert fig is not None and len(fig.subfigs) == 2 and len(fig.subfigs[1].axes) == 2
+    assert (tmp_path / "run" / "figures" / "errors.png").exists()
+
+
+def test_model_table_refusals(tmp_path):
+    with pytest.raises(InputError, match="order = 3 must be 0, 1 or 2"):
+        parse_case(CASE.replace("order = 2", "order = 3"))
+    with pytest.raises(InputError, match="method = 'all'"):
+        parse_case(CASE.replace('method = "residual"', 'method = "all"'))
+    fh = CASE.replace('expression = "3*x"', 'expression = "x**2/2"').replace('intervals = "-1:1"', 'intervals = "-5:5"')
+    fh = fh.replace('kind = "jacobi"\nalpha = 0.5\nbeta = 0.3', 'kind = "fisher_hartwig"\nc = 0.3\ngamma = 0.5')
+    with pytest.raises(InputError, match="Fisher–Hartwig point c = 0.3 lies inside a band"):
+        run_case(parse_case(fh), tmp_path / "fh", progress=False)
+    assert not (tmp_path / "fh").exists()

@@ -1,0 +1,102 @@
+"""Predictions beyond leading order in a run: ``[model] order`` and ``method``.
+
+A case with ``[model] order = K`` stores, besides the leading-order predictions of
+``/model``, ``a_order{k}``, ``b_order{k}`` (``a_n`` through ``c_k/n^k``, k = 1 … K) and the
+coefficients ``corrections_a``, ``corrections_b`` (``c_1 … c_K`` per n;
+:mod:`gfunction.series`); with ``method = "residual"`` also ``a_residual``, ``b_residual`` and
+``residual_error_estimate`` (:mod:`gfunction.residual_problem`).  ``/comparison`` then holds
+``err_a`` (order 0), ``err_a_order1`` …, ``err_a_residual`` and the same for ``b``, each with a
+fitted rate in ``/comparison/rates``; the errors figure draws them side by side.
+
+To add a corrected quantity q: store ``q_order{k}`` in :func:`model_orders`, compare it in
+:func:`order_errors` as ``err_q_order{k}``, and give it a label in ``workbench.figures``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from equilibrium.errors import InputError
+
+__all__ = ["model_orders", "order_errors", "order_error_keys", "check_model_request"]
+
+#: the coefficient quantities with orders
+_QUANTITIES = ("a", "b")
+
+
+def check_model_request(case, mu) -> None:
+    """Refuse, before anything is written, orders ≥ 1 or the residual method with a
+    Fisher–Hartwig point inside a band (no local parametrix there; ``gfunction.residual``)."""
+    spec = case.model
+    if (spec.order == 0 and spec.method == "series") or case.factor.kind != "fisher_hartwig":
+        return
+    c = float(case.factor.c)
+    if any(a < c < b for a, b in mu.support):
+        raise InputError(f"{case.source}: [model] order = {spec.order}, method = {spec.method!r} need a local "
+                         f"parametrix at every singular point of the factor; the Fisher–Hartwig point c = {c:g} "
+                         "lies inside a band and has none (the confluent hypergeometric parametrix is not "
+                         "implemented): use order = 0 with method = \"series\"")
+
+
+def model_orders(case, pred, ns: np.ndarray, node) -> list[str]:
+    """Add the predictions of orders 1 … K and of the residual method to the ``/model`` group.
+
+    Returns the messages of the parts that are not verified.
+    """
+    from gfunction.residual_problem import residual_solver
+    from gfunction.series import corrected_recurrence
+
+    spec = case.model
+    messages = []
+    node.attrs["order"] = int(spec.order)
+    node.attrs["method"] = spec.method
+    if spec.order >= 1:
+        rec = corrected_recurrence(pred, ns, spec.order, on_failure="mark")
+        for k in range(1, spec.order + 1):
+            node.add(f"a_order{k}", rec.a.at_order(k), f"a_n^{{(n)}} through c_{k}/n^{k} (gfunction.series)")
+            node.add(f"b_order{k}", rec.b.at_order(k), f"b_n^{{(n)}} through c_{k}/n^{k} (gfunction.series)")
+        node.add("corrections_a", rec.a.corrections.T.copy(),
+                 "c_1 ... c_K of a_n = c_0 + c_1/n + ... per n (row i: n[i]; they depend on n through n Omega)")
+        node.add("corrections_b", rec.b.corrections.T.copy(), "c_1 ... c_K of b_n per n")
+        node.attrs["series_checks"] = dict(rec.checks)
+        if not rec.verified:
+            messages.append(rec.message)
+    if spec.method == "residual":
+        sol = residual_solver(pred).solve(ns, on_failure="mark")
+        node.add("a_residual", sol.a, "a_n^{(n)} from the residual problem solved by spectral collocation")
+        node.add("b_residual", sol.b, "b_n^{(n)} from the residual problem solved by spectral collocation")
+        node.add("residual_error_estimate", sol.error_estimate,
+                 "max(two resolutions, e^{-nc} of the neglected lens and gap jumps) per n")
+        node.attrs["residual_checks"] = dict(sol.checks)
+        node.attrs["residual_critical_degree"] = float(sol.critical_degree)
+        if not sol.verified:
+            messages.append(sol.message)
+    return messages
+
+
+def _variants(model) -> list[str]:
+    """Suffixes of the stored predictions beyond leading order, in order: ``_order1`` …, ``_residual``."""
+    out = [f"_order{k}" for k in range(1, 10) if model.has(f"a_order{k}")]
+    if model.has("a_residual"):
+        out.append("_residual")
+    return out
+
+
+def order_errors(node, model, direct: dict) -> None:
+    """``err_a_order{k}``, ``err_b_order{k}``, ``err_a_residual``, … into ``/comparison``.
+
+    ``direct`` maps ``"a"``, ``"b"`` to the direct ``a_n^{(n)}``, ``b_n^{(n)}`` at the run's n.
+    """
+    for suffix in _variants(model):
+        for q in _QUANTITIES:
+            predicted = np.asarray(model.get(f"{q}{suffix}"), dtype=float)
+            what = ("the residual problem" if suffix == "_residual"
+                    else f"the series through order {suffix[len('_order'):]}")
+            node.add(f"{q}_model{suffix}", predicted, f"{q}_n^{{(n)}} predicted by {what}")
+            node.add(f"err_{q}{suffix}", np.abs(direct[q] - predicted), f"|{q}_n direct - {what}|")
+
+
+def order_error_keys(node) -> list[str]:
+    """The error datasets of :func:`order_errors` present in ``node`` (for rates and checks)."""
+    return [f"err_{q}{suffix}" for suffix in ([f"_order{k}" for k in range(1, 10)] + ["_residual"])
+            for q in _QUANTITIES if node.has(f"err_{q}{suffix}")]
