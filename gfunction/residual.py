@@ -312,7 +312,12 @@ class JumpExpansion:
                 big = np.abs(xi) >= _AIRY_SERIES_FROM
                 Q = np.empty(xi.shape + (2, 2), dtype=complex)
                 if np.any(big):
-                    Q[big] = eye + _horner(series_matrices("soft", _AIRY_SERIES_TERMS), 1.0 / xi[big])
+                    terms = series_matrices("soft", _AIRY_SERIES_TERMS)
+                    # only the terms above 1e-18 at the smallest |ξ| (few at large n)
+                    size = np.max(np.abs(terms), axis=(1, 2)) * float(np.min(np.abs(xi[big]))) ** -np.arange(
+                        1.0, _AIRY_SERIES_TERMS + 1)
+                    used = int(np.nonzero(size > 1e-18)[0].max(initial=0)) + 1
+                    Q[big] = eye + _horner(terms[:used], 1.0 / xi[big])
                 if not np.all(big):
                     Q[~big] = _airy_Q(n ** (2.0 / 3.0) * self.local_variable[c][~big])
             else:

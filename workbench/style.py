@@ -154,6 +154,7 @@ def thin_tick_labels(fig, axis) -> None:
 def _renderer(fig):
     from matplotlib.backends.backend_agg import FigureCanvasAgg
 
+    fig = fig.figure  # the root figure of a SubFigure (a Figure is its own)
     canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
     canvas.draw()
     return canvas.get_renderer()
