@@ -2,9 +2,28 @@
 
 The ends of the two outer intervals may be infinite (``-inf``/``inf``), so
 Σ can be the whole line, a half-line, an interval or a union of intervals.
-The text form used on the command line is ``a:b,c:d``; an empty end means
-infinity (``:0`` is (-∞, 0], ``0:`` is [0, ∞)), and ``-inf``/``inf`` are
-accepted too.
+
+Text form
+---------
+One grammar, parsed here and nowhere else (the command line's ``--on`` and the
+case file's ``[set] intervals`` both call :meth:`IntervalSet.parse`; the case
+file's list form ``[[a, "inf"], …]`` reads its string ends with
+:func:`parse_end`)::
+
+    set    := piece ("," piece)*
+    piece  := end ":" end
+    end    := ""  |  number  |  "inf" | "+inf" | "-inf" | "infinity" | "+infinity" | "-infinity"
+    number := [+-] digits ["." digits] [("e"|"E") [+-] digits]      (ASCII digits 0-9 only)
+
+Spaces around ends are ignored; letters are case-insensitive.  An empty end is
+infinite on its side: ``:0`` is (-∞, 0], ``0:`` is [0, ∞) and ``-1:`` is
+[-1, ∞) (on the command line write ``--on=-1:`` with the equals sign, or the
+shell hands ``-1:`` to the option parser as an option).  Refused, with one line
+naming the piece: numbers that are not finite in double precision (``1e400``)
+or that underflow to 0 (``1e-400``), ``_`` digit separators (``1_0``), non-ASCII
+digits (full-width ``１``), a piece without exactly one ``:``, reversed, empty,
+overlapping or touching intervals, and an infinite end that is not an outer
+end.  The pieces may come in any order (Σ is a set); they are sorted.
 """
 
 from __future__ import annotations
@@ -18,10 +37,16 @@ import numpy as np
 
 from .errors import InputError
 
-_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+__all__ = ["IntervalSet", "parse_end"]
+
+_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?", re.ASCII)
 
 
-def _parse_end(text: str, default: float, where: str) -> float:
+def parse_end(text: str, default: float, where: str = "end") -> float:
+    """One end of an interval in the text form (module docstring); ``default`` for an empty end.
+
+    ``where`` names the place in error messages (e.g. ``"piece 2"``).
+    """
     token = text.strip()
     if token == "":
         return default
@@ -30,11 +55,16 @@ def _parse_end(text: str, default: float, where: str) -> float:
         return math.inf
     if lowered in ("-inf", "-infinity"):
         return -math.inf
-    if not _NUMBER.match(token):
-        raise InputError(f"set {where}: {token!r} is not a number; write intervals as a:b,c:d (e.g. -1:1,2:3)")
+    if not _NUMBER.fullmatch(token):
+        raise InputError(f"set {where}: {token!r} is not a number; write intervals as a:b,c:d "
+                         "with plain decimal numbers (e.g. -1:1,2:3)")
     value = float(token)
     if not math.isfinite(value):
-        raise InputError(f"set {where}: {token!r} is not finite; use an empty end or inf for an unbounded side")
+        raise InputError(f"set {where}: {token!r} is not finite in double precision; "
+                         "use an empty end or inf for an unbounded side")
+    if value == 0.0 and any(c in "123456789" for c in token.lower().partition("e")[0]):
+        raise InputError(f"set {where}: {token!r} underflows to 0 in double precision; "
+                         "use numbers above 2.3e-308 in magnitude")
     return value
 
 
@@ -89,6 +119,10 @@ class IntervalSet:
             raise InputError("empty set; write intervals as a:b,c:d (e.g. -1:1 or 0: for [0, inf))")
         if len(text) > 2000:
             raise InputError("the set text is longer than 2000 characters")
+        for column, char in enumerate(text, start=1):
+            if not char.isascii() or (not char.isprintable() and char not in " \t"):
+                raise InputError(f"character {char!r} (U+{ord(char):04X}) at column {column} of the set is "
+                                 "not allowed; write the set in ASCII as a:b,c:d (e.g. -1:1,2:3)")
         pieces = [p for p in text.split(",")]
         intervals = []
         for k, piece in enumerate(pieces, start=1):
@@ -97,8 +131,8 @@ class IntervalSet:
                     f"set piece {k} {piece.strip()!r} must look like a:b (an empty end means infinity, e.g. 0:)"
                 )
             left, right = piece.split(":")
-            a = _parse_end(left, -math.inf, f"piece {k}")
-            b = _parse_end(right, math.inf, f"piece {k}")
+            a = parse_end(left, -math.inf, f"piece {k}")
+            b = parse_end(right, math.inf, f"piece {k}")
             intervals.append((a, b))
         return cls(intervals)
 

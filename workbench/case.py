@@ -89,10 +89,13 @@ SCHEMA: dict[str, dict[str, _Key]] = {
         "zero": _Key((bool,), "true for V = 0 (only on a compact set: a fixed weight)"),
     },
     "set": {
-        "intervals": _Key((str, list), "\"a:b,c:d\" or [[a, b], [c, d]]; ends may be \"-inf\"/\"inf\""),
+        "intervals": _Key((str, list), "\"a:b,c:d\" (the --on grammar: an empty end is infinite, \"0:\" is "
+                          "[0, inf)) or [[a, b], [c, d]] with numbers or end texts such as \"inf\""),
         "signed": _Key((bool,), "solve the signed problem on the whole set instead"),
     },
     "factor": {
+        "expression": _Key((str,), "h(x) in the --factor grammar, e.g. \"x^0.7\" or \"(1-x)^0.5*abs(x-0.2)^0.6\" "
+                           "(names from [field] parameters)"),
         "kind": _Key((str,), "\"none\", \"jacobi\" ((b-x)^alpha (x-a)^beta at the ends of Σ) or "
                      "\"fisher_hartwig\" (|x-c|^(2 gamma))"),
         "alpha": _Key(_NUMBER, "Jacobi exponent at the right end b of Σ (> -1)"),
@@ -199,15 +202,44 @@ class SetSpec:
 
 @dataclass(frozen=True)
 class FactorSpec:
-    """The n-independent factor h of the weight."""
+    """The n-independent factor h of the weight.
+
+    Either ``expression``, text in the grammar of the command line's ``--factor``
+    (:func:`workbench.polynomials.weight.parse_factor`), or a ``kind`` with its numbers:
+    ``"jacobi"`` (``(b-x)^alpha (x-a)^beta`` at the ends a, b of Σ) and
+    ``"fisher_hartwig"`` (``|x-c|^(2 gamma)``) are sugar that build the same
+    factor objects (:class:`JacobiFactor`, :class:`PowerFactor`) as the
+    expression ``(b-x)^alpha*(x-a)^beta`` or ``abs(x-c)^(2*gamma)`` would.
+    """
 
     kind: str = "none"
     alpha: float = 0.0
     beta: float = 0.0
     c: float = 0.0
     gamma: float = 0.0
+    expression: str = ""
+
+    @property
+    def is_one(self) -> bool:
+        """h = 1 (no factor)."""
+        return self.kind == "none" and not self.expression
+
+    def build(self, on, parameters: Mapping[str, float] | None = None) -> tuple:
+        """The factor objects of h on the set ``on`` (an :class:`equilibrium.IntervalSet`)."""
+        from workbench.polynomials.weight import JacobiFactor, PowerFactor, parse_factor
+
+        if self.expression:
+            return parse_factor(self.expression, dict(parameters or {}), on)
+        if self.kind == "jacobi":
+            lo, hi = on.hull
+            return (JacobiFactor(a=lo, b=hi, alpha=self.alpha, beta=self.beta),)
+        if self.kind == "fisher_hartwig":
+            return (PowerFactor(c=self.c, gamma=self.gamma),)
+        return ()
 
     def describe(self) -> str:
+        if self.expression:
+            return f"h = {self.expression}"
         if self.kind == "jacobi":
             return f"h = (b-x)^{self.alpha:g} (x-a)^{self.beta:g}"
         if self.kind == "fisher_hartwig":
@@ -494,11 +526,35 @@ def load_case(path: str | Path, *, reduced: bool = False) -> Case:
     return parse_case(text, source=str(path), reduced=reduced)
 
 
+class _FloatOutOfRange(Exception):
+    """A TOML float literal that is not representable (1e400, 1e-400)."""
+
+
+def _toml_float(literal: str) -> float:
+    """TOML floats, refusing literals that overflow to inf or underflow to 0 in double precision
+    (TOML's ``inf`` and ``nan`` literals stay what they are)."""
+    value = float(literal)
+    plain = literal.lower().lstrip("+-")
+    if plain in ("inf", "nan"):
+        return value
+    if not math.isfinite(value):
+        raise _FloatOutOfRange(f"number {literal} is not finite in double precision; use numbers below "
+                               "1.8e308 in magnitude (or inf)")
+    if value == 0.0 and any(c in "123456789" for c in plain.partition("e")[0]):
+        raise _FloatOutOfRange(f"number {literal} underflows to 0 in double precision; use numbers above "
+                               "2.3e-308 in magnitude")
+    return value
+
+
 def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> Case:
     """Validate the TOML ``text`` of a case; errors name ``source``, the line and the key."""
     check = _Validator(text, source)
     try:
-        data = tomllib.loads(text)
+        data = tomllib.loads(text, parse_float=_toml_float)
+    except _FloatOutOfRange as exc:
+        literal = str(exc).split()[1]
+        line = next((k for k, row in enumerate(text.splitlines(), start=1) if literal in row), None)
+        raise InputError(f"{source}{f' line {line}' if line else ''}: {exc}") from None
     except tomllib.TOMLDecodeError as exc:
         message = str(exc)
         match = re.search(r"\(at line (\d+), column (\d+)\)", message)
@@ -539,7 +595,7 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
 
     field_spec = _field(check, tables["field"])
     set_spec = _set(check, tables["set"])
-    factor_spec = _factor(check, tables["factor"], set_spec)
+    factor_spec = _factor(check, tables["factor"], set_spec, field_spec)
     if field_spec.zero and not set_spec.is_compact:
         raise check.fail("V = 0 needs a compact set; give [set] intervals = \"a:b\" with finite ends",
                          "field", "zero")
@@ -642,56 +698,63 @@ def _check_expression(check: _Validator, spec: FieldSpec) -> None:
                          "field", "parameters")
 
 
-def _parse_end(text: str) -> float:
-    text = text.strip().lower()
-    if text in ("inf", "+inf", "infinity", "+infinity"):
-        return math.inf
-    if text in ("-inf", "-infinity"):
-        return -math.inf
-    return float(text)
-
-
 def _set(check: _Validator, table: dict[str, Any]) -> SetSpec:
+    """[set]: the text form goes through the one parser of the --on option
+    (:meth:`equilibrium.IntervalSet.parse`), the list form through its end parser and
+    the same constructor, so both accept and refuse exactly what the command line does."""
+    from equilibrium.sets import IntervalSet, parse_end
+
     raw = table.get("intervals", "-inf:inf")
-    pairs: list[tuple[float, float]] = []
     try:
         if isinstance(raw, str):
-            for piece in raw.split(","):
-                left, right = piece.split(":")
-                pairs.append((_parse_end(left), _parse_end(right)))
+            sigma = IntervalSet.parse(raw)
         else:
-            for item in raw:
+            pairs = []
+            for k, item in enumerate(raw, start=1):
                 if not isinstance(item, list) or len(item) != 2:
-                    raise ValueError(f"{item!r} is not a pair [a, b]")
-                ends = [_parse_end(e) if isinstance(e, str) else float(e) for e in item]
-                if any(isinstance(e, bool) for e in item):
-                    raise ValueError("ends must be numbers")
-                pairs.append((ends[0], ends[1]))
-    except (ValueError, TypeError) as exc:
-        raise check.fail(f"[set] intervals {raw!r} not understood ({exc}); write \"a:b,c:d\" "
-                         f"or [[a, b], [c, d]]", "set", "intervals") from None
-    if not pairs:
-        raise check.fail("[set] intervals is empty", "set", "intervals")
-    for j, (a, b) in enumerate(pairs):
-        if math.isnan(a) or math.isnan(b) or not a < b:
-            raise check.fail(f"[set] interval {j + 1} has a = {a} not below b = {b}", "set", "intervals")
-        if j > 0 and not pairs[j - 1][1] < a:
-            raise check.fail("[set] intervals must be disjoint and in increasing order",
-                             "set", "intervals")
-        if (a == -math.inf and j > 0) or (b == math.inf and j < len(pairs) - 1):
-            raise check.fail("[set] only the outer ends may be infinite", "set", "intervals")
-    spec = SetSpec(intervals=tuple(pairs), signed=bool(table.get("signed", False)))
+                    raise InputError(f"item {k} {item!r} is not a pair [a, b]")
+                ends = []
+                for default, end in zip((-math.inf, math.inf), item):
+                    if isinstance(end, str):
+                        ends.append(parse_end(end, default, f"pair {k}"))
+                    elif isinstance(end, float):
+                        ends.append(end)       # TOML's own number grammar (its inf included)
+                    elif isinstance(end, int) and not isinstance(end, bool):
+                        try:
+                            ends.append(float(end))
+                        except OverflowError:
+                            raise InputError(f"set pair {k}: {end} is not finite in double precision") from None
+                    else:
+                        raise InputError(f"set pair {k}: {end!r} is not a number")
+                pairs.append(tuple(ends))
+            sigma = IntervalSet(pairs)
+    except InputError as exc:
+        raise check.fail(f"[set] intervals {raw!r}: {exc}", "set", "intervals") from None
+    spec = SetSpec(intervals=sigma.intervals, signed=bool(table.get("signed", False)))
     if spec.signed and not spec.is_compact:
         raise check.fail("[set] signed = true needs a compact set", "set", "signed")
     return spec
 
 
-def _factor(check: _Validator, table: dict[str, Any], set_spec: SetSpec) -> FactorSpec:
+def _factor(check: _Validator, table: dict[str, Any], set_spec: SetSpec, field_spec: FieldSpec) -> FactorSpec:
+    if "expression" in table:
+        for key in ("kind", "alpha", "beta", "c", "gamma"):
+            if key in table and not (key == "kind" and table[key] == "none"):
+                raise check.fail(f"key '{key}' in [factor] does not go with expression; give either "
+                                 f"expression = \"...\" or kind with its numbers", "factor", key)
+        spec = FactorSpec(expression=table["expression"])
+        from equilibrium.sets import IntervalSet
+
+        try:
+            spec.build(IntervalSet(list(set_spec.intervals)), field_spec.parameters)
+        except InputError as exc:
+            raise check.fail(f"in [factor] expression: {exc}", "factor", "expression") from None
+        return spec
     kind = table.get("kind", "none")
     allowed = {"none": (), "jacobi": ("alpha", "beta"), "fisher_hartwig": ("c", "gamma")}
     if kind not in allowed:
-        raise check.fail(f"[factor] kind {kind!r} unknown; use one of {', '.join(allowed)}",
-                         "factor", "kind")
+        raise check.fail(f"[factor] kind {kind!r} unknown; use one of {', '.join(allowed)} "
+                         f"or expression = \"...\"", "factor", "kind")
     for key in ("alpha", "beta", "c", "gamma"):
         if key in table and key not in allowed[kind]:
             raise check.fail(f"key '{key}' in [factor] does not apply to kind = {kind!r}",

@@ -107,14 +107,9 @@ def fit_rate(n: Sequence[float], error: Sequence[float]) -> RateFit:
 # ------------------------------------------------------------------ the objects
 def build_weight(case: Case, field_, on, n: float):
     """The weight ``exp(-nV) h`` on Σ of the direct computation."""
-    from workbench.polynomials import JacobiFactor, PowerFactor, Weight
+    from workbench.polynomials import Weight
 
-    factors = []
-    if case.factor.kind == "jacobi":
-        lo, hi = case.set.intervals[0][0], case.set.intervals[-1][1]
-        factors.append(JacobiFactor(a=lo, b=hi, alpha=case.factor.alpha, beta=case.factor.beta))
-    elif case.factor.kind == "fisher_hartwig":
-        factors.append(PowerFactor(c=case.factor.c, gamma=case.factor.gamma))
+    factors = case.factor.build(on, case.field.parameters)
     return Weight(field=field_, n=float(n), on=on, factors=tuple(factors))
 
 
@@ -639,7 +634,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
                                        "workbench.orders); degree = scaling = n",
                         "available": True})
     # the factor h enters through its Szegő function (the same factor objects as the direct side)
-    factors = build_weight(case, mu.field, mu.on, 1.0).factors if case.factor.kind != "none" else None
+    factors = build_weight(case, mu.field, mu.on, 1.0).factors if not case.factor.is_one else None
     pred = predictor(mu, factor=factors, on_failure="mark")
     prediction = pred.predict(ns_arr, on_failure="mark")
     unverified = [prediction.message] if not prediction.verified else []
@@ -648,7 +643,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     node.attrs["model_checks"] = dict(pred.model.checks)
     node.attrs["genus"] = int(pred.genus)
     node.attrs["h_factor"] = case.factor.describe()
-    if case.factor.kind != "none":
+    if not case.factor.is_one:
         node.attrs["caution"] = ("the factor h enters the outer parametrix through its Szego function; "
                                  "no local parametrix at an interior Fisher-Hartwig point")
     node.add("n", ns_arr, "values of n")
@@ -696,7 +691,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
                                    "order) away from the ends of each band and from singular points "
                                    "of the factor (10% of the band width); NaN pads row i")
 
-    if case.factor.kind == "none":
+    if case.factor.is_one:
         points = _bulk_points(mu, case.polynomials.value_points)
         node.add("value_x", points, "bulk points (inner 70% of each band)")
         node.add("values_shape", np.array([pred.band_form(points, int(n)) for n in ns_arr]),
@@ -704,7 +699,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
                  "p_n w^{1/2} divided by gamma_n e^{-n ell/2}")
 
     helpers = {}
-    if case.comparisons.small_norm and case.factor.kind != "none":
+    if case.comparisons.small_norm and not case.factor.is_one:
         node.attrs["small_norm_skipped"] = ("with h != 1 the global parametrix carries the Szego "
                                             "function of h (D_inf^{sigma3} M D^{-sigma3}), which the "
                                             "model side does not provide")

@@ -191,7 +191,7 @@ BAD = [
     ("run_wrong_type_dpi", ["run", "{wrong_type_dpi}"] + RUN, "line 10: key 'dpi' in [figures]"),
     ("run_unknown_table", ["run", "{unknown_table}"] + RUN, "line 12: unknown table [bogus]"),
     ("run_unknown_name", ["run", "{case_unknown_name}"] + RUN, "line 4: in [field] expression: unknown name 'y'"),
-    ("run_reversed_set", ["run", "{case_reversed}"] + RUN, "[set] interval 1"),
+    ("run_reversed_set", ["run", "{case_reversed}"] + RUN, "[set] intervals '1:-1': interval 1:-1 is reversed"),
     ("run_jacobi_exponent", ["run", "{case_jacobi}"] + RUN, "[factor] alpha = -1.0 must be > -1"),
     ("run_n_zero", ["run", "{case_n_zero}"] + RUN, "line 6: n must be >= 2"),
     ("run_unused_parameter", ["run", "{case_unused_parameter}"] + RUN,

@@ -121,9 +121,9 @@ def test_key_in_second_axis_table_is_located():
 @pytest.mark.parametrize(
     "replace, expect",
     [
-        (('intervals = "-inf:inf"', 'intervals = "1:0"'), "not below"),
-        (('intervals = "-inf:inf"', 'intervals = "0:1,0.5:2"'), "disjoint"),
-        (('intervals = "-inf:inf"', 'intervals = "a:b"'), "not understood"),
+        (('intervals = "-inf:inf"', 'intervals = "1:0"'), "reversed"),
+        (('intervals = "-inf:inf"', 'intervals = "0:1,0.5:2"'), "overlap"),
+        (('intervals = "-inf:inf"', 'intervals = "a:b"'), "not a number"),
         (("n = { start = 20, stop = 160, num = 4 }", "n = [1, 5]"), "n must be >= 2"),
         (("n = { start = 20, stop = 160, num = 4 }", "n = [10.5]"), "list of integers"),
         (('formats = ["png"]', 'formats = ["svg"]'), "format 'svg' unknown"),
@@ -161,3 +161,54 @@ def test_missing_file_is_input_error(tmp_path):
 def test_intervals_as_list():
     text = '[field]\nzero = true\n[set]\nintervals = [[-1, -0.2], [0.3, "1"]]\n'
     assert parse_case(text).set.intervals == ((-1.0, -0.2), (0.3, 1.0))
+
+
+# ----------------------------------------------------------------------------- [factor] expression
+def _factor_case(factor_lines: str, intervals: str = "0:", field: str = '"x"') -> str:
+    return f'[field]\nexpression = {field}\n[set]\nintervals = "{intervals}"\n[factor]\n{factor_lines}\n'
+
+
+def test_factor_expression_is_the_command_line_grammar():
+    """x^0.7 on [0, inf) in a case file (issue 14): the same factor objects as --factor x^0.7."""
+    from equilibrium.sets import IntervalSet
+    from workbench.polynomials.weight import JacobiFactor, parse_factor
+
+    case = parse_case(_factor_case('expression = "x^0.7"'))
+    on = case.build_set()
+    assert case.factor.build(on, case.field.parameters) == parse_factor("x^0.7", {}, IntervalSet.parse("0:"))
+    assert case.factor.build(on) == (JacobiFactor(0.0, math.inf, 0.0, 0.7),)
+    assert case.factor.describe() == "h = x^0.7" and not case.factor.is_one
+    # names in the factor take the field's parameter values
+    case = parse_case(_factor_case('expression = "x^p*exp(x/4)"', field='"x"\nparameters = { p = 0.3 }'))
+    factors = case.factor.build(case.build_set(), case.field.parameters)
+    assert factors[0] == JacobiFactor(0.0, math.inf, 0.0, 0.3)
+
+
+def test_factor_kind_is_sugar_for_the_expression():
+    """kind = "jacobi" / "fisher_hartwig" build the factor objects the expressions
+    (b-x)^alpha*(x-a)^beta and abs(x-c)^(2*gamma) build: same singular points, same log h."""
+    import numpy as np
+
+    from workbench.polynomials.weight import Weight
+
+    pairs = [
+        ('kind = "jacobi"\nalpha = 0.5\nbeta = -0.3', 'expression = "(1-x)^0.5*(x+1)^-0.3"', "-1:1"),
+        ('kind = "fisher_hartwig"\nc = 0.4\ngamma = 0.75', 'expression = "abs(x-0.4)^1.5"', "-inf:inf"),
+    ]
+    for sugar, expression, intervals in pairs:
+        weights = []
+        for lines in (sugar, expression):
+            case = parse_case(_factor_case(lines, intervals, field='"x**2/2"'))
+            on = case.build_set()
+            weights.append(Weight(case.build_field(), 1.0, on, case.factor.build(on, case.field.parameters)))
+        assert weights[0].singular_points == weights[1].singular_points
+        x = np.linspace(-0.95, 0.95, 41)
+        assert np.allclose(weights[0].log_weight(x), weights[1].log_weight(x), rtol=0, atol=1e-14)
+
+
+def test_factor_expression_errors_name_the_line():
+    assert "does not go with expression" in _error(_factor_case('expression = "x^0.7"\nkind = "jacobi"'))
+    message = _error(_factor_case('expression = "x^-1.5"'))
+    assert "line 6" in message and "exponents must exceed -1" in message
+    assert "in [factor] expression" in _error(_factor_case('expression = "x^0.7 +"'))
+    assert "in [factor] expression" in _error(_factor_case('expression = "x^q"'))   # q is no parameter

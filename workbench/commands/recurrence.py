@@ -35,11 +35,7 @@ def build_weight(args):
     n = positive_integer(args.n, "--n")
     factors = ()
     if getattr(args, "factor", None):
-        from equilibrium.expression import parse_expression
-
-        parameters = parse_parameters(args.param)
-        parse_expression(args.factor, parameters)  # the standard one-line errors for bad text
-        factors = parse_factor(args.factor, parameters, on=on)
+        factors = parse_factor(args.factor, parse_parameters(args.param), on=on)
     return Weight(field, n, on, factors), field, on, n
 
 

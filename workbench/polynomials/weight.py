@@ -489,6 +489,10 @@ def parse_factor(text: str, parameters: Mapping[str, float] | None = None,
     if len(text) > 2000:
         raise InputError("the factor text is longer than 2000 characters")
     parameters = dict(parameters or {})
+    from equilibrium.expression import parse_expression
+
+    # the whole text is first an expression of the field grammar: its errors name the column
+    parse_expression(text, parameters, variable="x")
     tokens = _tokens(text)
     factors: list[Factor] = []
     smooth_parts: list[tuple[str, int]] = []  # (text, +1 multiply / -1 divide)
