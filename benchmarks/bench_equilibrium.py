@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import os
 
-for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):  # as the workbench does
+for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):  # as the workbench command does
     os.environ.setdefault(_name, "1")
 
 import argparse

@@ -44,7 +44,7 @@ import numpy as np  # noqa: E402
 from equilibrium import Field  # noqa: E402
 from workbench.polynomials.discretisation import PRIMARY, discretise, measure_for  # noqa: E402
 from workbench.polynomials.recurrence import kernel_for, recurrence_coefficients, stieltjes  # noqa: E402
-from workbench.polynomials.weight import Weight  # noqa: E402
+from equilibrium.weight import Weight  # noqa: E402
 
 FIELD = "x**4/4 - 1.5*x**2 + 0.2*x"  # non-symmetric double well, two bands at t = 1
 TARGETS = {4000: 2.0, 10000: 15.0}   # seconds (issue #3)

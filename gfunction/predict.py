@@ -620,8 +620,8 @@ def predictor(measure, factor: Sequence | None = None, *, on_failure: str = "rai
     """Assemble g-function, model problem and harmonic phases for ``measure``.
 
     ``factor`` -- the n-independent factor ``h`` of the weight ``e^{-nV} h`` as
-    a sequence of factor objects (protocol of ``gfunction.szego``, e.g. the
-    output of ``workbench.polynomials.parse_factor``); its Szegő function
+    a sequence of factor objects (the protocol :class:`equilibrium.weight.Factor`, e.g.
+    the output of :func:`equilibrium.weight.parse_factor`); its Szegő function
     shifts the phases (``Predictor.phases``).
 
     Raises ``InputError`` for a measure that is not positive (a signed equilibrium

@@ -77,12 +77,12 @@ the same samples (Gauss–Chebyshev nodes).
 
 Interface of the factor
 -----------------------
-Factors follow the protocol of ``workbench.polynomials.weight.Factor``:
+Factors follow the protocol :class:`equilibrium.weight.Factor`:
 ``singular_points`` (pairs ``(c, p)``, near ``c`` the factor is
 ``|x - c|^p`` times a smooth positive function) and ``log_value(x, omit)``
 (``log`` of the factor at real ``x`` without the ``|x - c|^p`` of the points in
-``omit``).  The numerical package never imports ``workbench``; any object with
-these two members works.
+``omit``) are what is used here; ``description`` and ``domain()`` complete the
+protocol (any object with the four members works).
 
 Not implemented: the local parametrix at a Fisher–Hartwig point inside a
 band (confluent hypergeometric functions); predictions there use the outer
@@ -100,6 +100,7 @@ from scipy.fft import dct
 from equilibrium.errors import InputError, NumericalFailure
 from equilibrium.verification import failure_message, failure_policy, float_checks, settle
 from equilibrium.radical import sqrt_R
+from equilibrium.weight import Factor
 
 __all__ = ["SzegoFunction", "szego_function", "chebyshev_cauchy"]
 
@@ -301,13 +302,13 @@ def _singular_on_support(factors, support) -> tuple:
     return tuple(sorted((c, p) for c, p in merged.items() if p != 0.0))
 
 
-def szego_function(factors: Sequence, support, *, harmonic=None, tolerance: float = 1e-11,
+def szego_function(factors: Sequence[Factor], support, *, harmonic=None, tolerance: float = 1e-11,
                    on_failure: str = "raise") -> SzegoFunction:
     """Build the Szegő function of ``h = ∏ factors`` on ``support``.
 
     Parameters
     ----------
-    factors : objects with ``singular_points`` and ``log_value(x, omit)`` (module docstring).
+    factors : objects of the :class:`equilibrium.weight.Factor` protocol (module docstring).
     support : the bands ``((a_1, b_1), …)``.
     harmonic : optionally the ``GFunction`` of the harmonic measure of the support
         (built from ``equilibrium.solve(Field.zero(), on=support)`` otherwise).
@@ -321,8 +322,9 @@ def szego_function(factors: Sequence, support, *, harmonic=None, tolerance: floa
         raise InputError(f"the support must be increasing bands (a_j < b_j); got {support}")
     factors = tuple(factors)
     for f in factors:
-        if not (hasattr(f, "log_value") and hasattr(f, "singular_points")):
-            raise InputError(f"a factor needs log_value(x, omit) and singular_points; got {f!r}")
+        if not isinstance(f, Factor):
+            raise InputError("a factor needs description, singular_points, log_value(x, omit) and domain() "
+                             f"(the protocol equilibrium.weight.Factor); got {f!r}")
     k = len(support)
     g = k - 1
     edges = np.array([e for ab in support for e in ab])

@@ -205,7 +205,7 @@ class FactorSpec:
     """The n-independent factor h of the weight.
 
     Either ``expression``, text in the grammar of the command line's ``--factor``
-    (:func:`workbench.polynomials.weight.parse_factor`), or a ``kind`` with its numbers:
+    (:func:`equilibrium.weight.parse_factor`), or a ``kind`` with its numbers:
     ``"jacobi"`` (``(b-x)^alpha (x-a)^beta`` at the ends a, b of Σ) and
     ``"fisher_hartwig"`` (``|x-c|^(2 gamma)``) are sugar that build the same
     factor objects (:class:`JacobiFactor`, :class:`PowerFactor`) as the
@@ -226,7 +226,7 @@ class FactorSpec:
 
     def build(self, on, parameters: Mapping[str, float] | None = None) -> tuple:
         """The factor objects of h on the set ``on`` (an :class:`equilibrium.IntervalSet`)."""
-        from workbench.polynomials.weight import JacobiFactor, PowerFactor, parse_factor
+        from equilibrium.weight import JacobiFactor, PowerFactor, parse_factor
 
         if self.expression:
             return parse_factor(self.expression, dict(parameters or {}), on)

@@ -18,15 +18,15 @@ only dispatches and turns the packages' exceptions into exit codes:
 from __future__ import annotations
 
 import argparse
+import contextlib
 import importlib
 import os
 import sys
 import warnings
 from typing import Sequence
 
-import numpy as np
-
-from equilibrium.errors import InputError, NumericalFailure
+# Only the standard library at module level: main() limits the BLAS threads before numpy
+# is loaded (the console script and ``python -m workbench`` import this module first).
 
 #: subcommand name -> module; a module that is absent is simply not offered.
 COMMAND_MODULES = {
@@ -111,17 +111,48 @@ def command_line_hint(exc: InputError) -> str:
     return ""
 
 
-def main(argv: Sequence[str] | None = None) -> int:
+#: BLAS/OpenMP thread variables the command sets for its own process (unless the user set them)
+THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def _single_threaded_blas() -> contextlib.AbstractContextManager:
+    """One BLAS thread for this process.
+
+    The numerical work is many small dense problems; multi-threaded BLAS only adds
+    contention (measured: a solve 3-4 times slower when another process holds a core).
+    The thread pools read their variables when numpy is loaded, so they are set only
+    when it is not loaded yet: then they hold for this process and the workers it
+    starts, and the user's own settings win.  Called from Python with numpy already
+    loaded (tests, a notebook), the environment is left alone; if threadpoolctl is
+    installed the limit then applies for the duration of the command only.
+    """
+    if "numpy" not in sys.modules:
+        for name in THREAD_VARIABLES:
+            os.environ.setdefault(name, "1")
+        return contextlib.nullcontext()
     try:
-        return _main(argv)
-    except BrokenPipeError:
-        # `workbench ... | head`: the reader has what it wanted; stop without a traceback.
-        # Files are written atomically before anything is printed, so nothing is half-written.
-        _silence_stdout()
-        return EXIT_BROKEN_PIPE
+        from threadpoolctl import threadpool_limits
+    except ImportError:
+        return contextlib.nullcontext()
+    return threadpool_limits(limits=1, user_api="blas")
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    with _single_threaded_blas():
+        try:
+            return _main(argv)
+        except BrokenPipeError:
+            # `workbench ... | head`: the reader has what it wanted; stop without a traceback.
+            # Files are written atomically before anything is printed, so nothing is half-written.
+            _silence_stdout()
+            return EXIT_BROKEN_PIPE
 
 
 def _main(argv: Sequence[str] | None) -> int:
+    import numpy as np
+
+    from equilibrium.errors import InputError, NumericalFailure
+
     parser = build_parser()
     try:
         args = parser.parse_args(argv)

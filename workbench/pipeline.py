@@ -107,7 +107,7 @@ def fit_rate(n: Sequence[float], error: Sequence[float]) -> RateFit:
 # ------------------------------------------------------------------ the objects
 def build_weight(case: Case, field_, on, n: float):
     """The weight ``exp(-nV) h`` on Σ of the direct computation."""
-    from workbench.polynomials import Weight
+    from equilibrium.weight import Weight
 
     factors = case.factor.build(on, case.field.parameters)
     return Weight(field=field_, n=float(n), on=on, factors=tuple(factors))

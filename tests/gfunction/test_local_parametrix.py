@@ -11,7 +11,8 @@ import pytest
 from equilibrium import Field, IntervalSet, solve
 from gfunction import predictor
 from gfunction.local import airy_model, bessel_model, matching_mismatch, soft_edge_zeros
-from workbench.polynomials import Weight, parse_factor, recurrence_coefficients, zeros
+from equilibrium.weight import Weight, parse_factor
+from workbench.polynomials import recurrence_coefficients, zeros
 
 NS = [100, 200, 400, 800, 1600]
 

@@ -12,7 +12,8 @@ import pytest
 
 from equilibrium import Field, IntervalSet, solve
 from gfunction import predictor
-from workbench.polynomials import Weight, recurrence_coefficients
+from equilibrium.weight import Weight
+from workbench.polynomials import recurrence_coefficients
 
 FIELDS = {
     # two bands, Ω irrational (asymmetric double well)

@@ -7,7 +7,8 @@ from scipy.integrate import quad
 from equilibrium import Field, IntervalSet, solve
 from gfunction import predictor
 from gfunction.szego import chebyshev_cauchy, szego_function
-from workbench.polynomials import Weight, parse_factor, recurrence_coefficients
+from equilibrium.weight import Weight, parse_factor
+from workbench.polynomials import recurrence_coefficients
 
 THREE = [(-3.0, -2.1), (-1.0, 0.5), (1.1, 2.9)]
 

@@ -18,7 +18,7 @@ from equilibrium.errors import InputError, NumericalFailure
 from workbench.polynomials.discretisation import PanelLayout, discretise, measure_for
 from workbench.polynomials.highprecision import recurrence_coefficients_mp
 from workbench.polynomials.recurrence import recurrence_coefficients, stieltjes
-from workbench.polynomials.weight import JacobiFactor, PowerFactor, Weight, parse_factor
+from equilibrium.weight import JacobiFactor, PowerFactor, Weight, parse_factor
 
 DOUBLE_WELL_2000 = "x**4/4 - 1.5*x**2 + 0.2*x"
 DOUBLE_WELL_TRAP = "x**4/4 - 1.5*x**2 + 0.3*x"

@@ -26,7 +26,7 @@ from workbench.polynomials.discretisation import (
 )
 from workbench.polynomials.highprecision import recurrence_coefficients_mp
 from workbench.polynomials.recurrence import recurrence_coefficients, stieltjes
-from workbench.polynomials.weight import Weight
+from equilibrium.weight import Weight
 
 QUARTIC = "x**4/4 - t*x**2/2"
 

@@ -17,7 +17,7 @@ from workbench.polynomials.discretisation import discretise
 from workbench.polynomials.recurrence import recurrence_coefficients
 from workbench.polynomials.values import (christoffel_darboux, monic_values, orthonormal_derivatives,
                                           orthonormal_values, weighted_values)
-from workbench.polynomials.weight import Weight
+from equilibrium.weight import Weight
 from workbench.polynomials.zeros import gauss_rule
 
 HERMITE = Weight(Field.from_expression("x**2"), 1)  # exp(-x^2)

@@ -11,7 +11,7 @@ from scipy.special import roots_genlaguerre, roots_hermite, roots_jacobi
 
 from equilibrium import Field, IntervalSet, solve
 from workbench.polynomials.recurrence import recurrence_coefficients
-from workbench.polynomials.weight import JacobiFactor, Weight, parse_factor
+from equilibrium.weight import JacobiFactor, Weight, parse_factor
 from workbench.polynomials.zeros import gauss_rule, zeros
 
 

@@ -171,7 +171,7 @@ def _factor_case(factor_lines: str, intervals: str = "0:", field: str = '"x"') -
 def test_factor_expression_is_the_command_line_grammar():
     """x^0.7 on [0, inf) in a case file (issue 14): the same factor objects as --factor x^0.7."""
     from equilibrium.sets import IntervalSet
-    from workbench.polynomials.weight import JacobiFactor, parse_factor
+    from equilibrium.weight import JacobiFactor, parse_factor
 
     case = parse_case(_factor_case('expression = "x^0.7"'))
     on = case.build_set()
@@ -189,7 +189,7 @@ def test_factor_kind_is_sugar_for_the_expression():
     (b-x)^alpha*(x-a)^beta and abs(x-c)^(2*gamma) build: same singular points, same log h."""
     import numpy as np
 
-    from workbench.polynomials.weight import Weight
+    from equilibrium.weight import Weight
 
     pairs = [
         ('kind = "jacobi"\nalpha = 0.5\nbeta = -0.3', 'expression = "(1-x)^0.5*(x+1)^-0.3"', "-1:1"),

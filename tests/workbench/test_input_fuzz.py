@@ -2,7 +2,7 @@
 
 Random text is given to :meth:`IntervalSet.parse`, to
 :func:`workbench.commands._common.parse_parameters` and to
-:func:`workbench.polynomials.weight.parse_factor`; each must return a valid
+:func:`equilibrium.weight.parse_factor`; each must return a valid
 object or raise :class:`InputError` with a one-line message -- nothing else --
 and none of them may call eval/exec/compile (the ``tripwires`` on the builtins
 from tests/conftest.py, as in tests/equilibrium/test_expression_fuzz.py, which also wires
@@ -26,7 +26,7 @@ from equilibrium.errors import InputError
 from equilibrium.field import Field
 from equilibrium.sets import IntervalSet
 from workbench.commands._common import parse_parameters
-from workbench.polynomials.weight import Weight, parse_factor
+from equilibrium.weight import Weight, parse_factor
 
 SET_PIECES = list(string.digits + ":,.-+eE ") + ["inf", "-inf", "infinity", "1e400", "nan", ":", ",",
                                                  "0", "1", "-1", "2.5", "1e3", "x", "(", "__import__"]

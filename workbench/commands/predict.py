@@ -102,7 +102,7 @@ def run(args) -> int:
     from gfunction import predictor
     from gfunction.corrected import corrected_prediction
 
-    from workbench.polynomials import parse_factor
+    from equilibrium.weight import parse_factor
 
     degrees = _degrees(args.degrees)
     order, method = _order(args.order), _method(args.method)

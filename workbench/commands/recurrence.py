@@ -29,7 +29,7 @@ def register(subparsers) -> None:
 
 def build_weight(args):
     """The weight of the command line (shared with ``workbench zeros``)."""
-    from workbench.polynomials.weight import Weight, parse_factor
+    from equilibrium.weight import Weight, parse_factor
 
     field, on = field_and_set_from_args(args)
     n = positive_integer(args.n, "--n")

@@ -9,7 +9,7 @@ transforms ``C(π_k w)`` and the matrix ``Y(z)`` of the orthogonality problem.
 
 Modules
 -------
-weight          the weight exp(-nV) h on Σ and its factors h
+weight          (compatibility) the weight exp(-nV) h and its factors: equilibrium.weight
 discretisation  node placement from the equilibrium measure of (n/K) V
 recurrence      recurrence coefficients with an error estimate
 highprecision   an mpmath referee for moderate degrees
@@ -19,7 +19,7 @@ cauchy          second-kind functions, Cauchy transforms, Y(z)
 hankel          Hankel determinants log D_n and partition functions log Z_n from the norms
 """
 
-from .weight import (
+from equilibrium.weight import (  # the weight lives beside Field (re-exported here)
     Factor,
     JacobiFactor,
     PowerFactor,

@@ -46,10 +46,10 @@ import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
 from equilibrium.verification import failure_message, failure_policy, settle, worst
+from equilibrium.weight import Weight
 
 from .recurrence import RecurrenceCoefficients, recurrence_coefficients
 from .values import ScaledValues, orthonormal_values
-from .weight import Weight
 
 _TWO_PI_I = 2j * math.pi
 

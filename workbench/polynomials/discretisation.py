@@ -87,8 +87,7 @@ import numpy as np
 
 from equilibrium.errors import NumericalFailure
 from equilibrium.quadrature import gauss_jacobi, gauss_legendre
-
-from .weight import Weight
+from equilibrium.weight import Weight
 
 #: log of the rounding level asked of the neglected mass (2^-56)
 _LOG_EPS = 56.0 * math.log(2.0)

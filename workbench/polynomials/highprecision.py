@@ -34,9 +34,9 @@ import numpy as np
 
 from equilibrium.errors import InputError
 from equilibrium.verification import failure_message, failure_policy, settle
+from equilibrium.weight import ConstantFactor, JacobiFactor, PowerFactor, Weight
 
 from .recurrence import RecurrenceCoefficients
-from .weight import ConstantFactor, JacobiFactor, PowerFactor, Weight
 
 
 def _truncated_intervals(weight: Weight, count: int, dps: int) -> list[tuple[float, float]]:

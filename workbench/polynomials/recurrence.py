@@ -44,9 +44,9 @@ import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
 from equilibrium.verification import failure_message, failure_policy, float_checks, settle
+from equilibrium.weight import Weight
 
 from .discretisation import PRIMARY, SECONDARY, Discretisation, discretise, estimate_size, measure_for
-from .weight import Weight
 
 #: renormalise the per-node mantissas every this many steps
 _RENORMALISE_EVERY = 8

@@ -18,9 +18,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from equilibrium.errors import InputError
+from equilibrium.weight import Weight
 
 from .recurrence import RecurrenceCoefficients
-from .weight import Weight
 
 _LOG2 = math.log(2.0)
 

@@ -1,4 +1,4 @@
-"""Factors of the weight and their text form (workbench.polynomials.weight)."""
+"""Factors of the weight and their text form (equilibrium.weight)."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ import pytest
 
 from equilibrium import Field, IntervalSet
 from equilibrium.errors import InputError
-from workbench.polynomials.weight import (ConstantFactor, JacobiFactor, PowerFactor, SmoothFactor, Weight,
+from equilibrium.weight import (ConstantFactor, JacobiFactor, PowerFactor, SmoothFactor, Weight,
                                           parse_factor)
 
 INTERVAL = IntervalSet.parse("-1:1")
