@@ -6,7 +6,7 @@ Front door::
     mu = solve(Field.from_expression("x**4/4 - t*x**2/2", {"t": 3}))
     mu.support, mu.masses, mu.omega, mu.lagrange, mu.energy, mu.checks
 
-Conventions are in the docstring of :mod:`equilibrium.measure`.
+Conventions of the whole project: :mod:`equilibrium.conventions`.
 """
 
 from .errors import InputError, NumericalFailure

@@ -6,13 +6,7 @@ density, band masses, filling fractions Ω_j, the constant ℓ, the energy, the
 distribution function and its inverse, the effective potential and the
 Stieltjes transform, and the checks that show the result is right.
 
-Conventions (shared by the whole project):
-
-* energy I_V(μ) = ∬ log 1/|x-y| dμ dμ + ∫ V dμ; Euler–Lagrange
-  2U^μ + V = ℓ on S, ≥ ℓ on Σ \\ S, with U^μ(x) = ∫ log 1/|x-y| dμ(y);
-* I_V = (ℓ + ∫ V dμ)/2; for V = 0, ℓ = -2 log cap(Σ);
-* Ω_j = μ([a_{j+1}, b_k]), the mass to the right of gap j;
-* g(z) = ∫ log(z - s) dμ(s) with principal logarithms.
+Conventions (energy, ℓ, Ω_j, g): :mod:`equilibrium.conventions`.
 
 How each check is obtained (so that the checks are not circular):
 
@@ -346,8 +340,14 @@ class EquilibriumMeasure:
 
     # ----------------------------------------------------------------- export
     def to_dict(self) -> dict[str, Any]:
-        """Plain numbers: what the command line prints and the files store."""
+        """Plain numbers: the one serialisation of the measure.
+
+        What ``workbench equilibrium --json`` prints, what the ``/equilibrium`` group of a
+        results file stores (``workbench.equilibrium_io.measure_group``) and what a sweep
+        records per point (a subset of these keys).
+        """
         return {
+            "bands": self.bands,
             "support": [[float(a), float(b)] for a, b in self.support],
             "edges": [list(pair) for pair in self.edges],
             "masses": [float(m) for m in self.masses],
@@ -356,11 +356,12 @@ class EquilibriumMeasure:
             "energy": float(self.energy),
             "capacity": None if self.capacity is None else float(self.capacity),
             "kind": self.kind,
-            "positive": self.positive,
+            "positive": bool(self.positive),
             "density_minimum": float(self.checks.get("density_minimum",
                                                      self.checks.get("density_margin", math.nan))),
-            "negative_mass": 0.0 if self.positive else self.negative_part()[1],
+            "negative_mass": 0.0 if self.positive else float(self.negative_part()[1]),
             "verified": bool(self.verified),
+            "regular": bool(self.classification.regular),
             "classification": str(self.classification),
             "singularities": [{"kind": s.kind, "x": s.x} for s in self.classification.singularities],
             "checks": {k: float(v) for k, v in self.checks.items()},

@@ -1,11 +1,10 @@
 r"""The g-function of an equilibrium measure and the φ-functions at its edges.
 
-Conventions (project-wide)
---------------------------
-``g(z) = ∫ log(z - s) dμ_V(s)`` with the principal branch of each logarithm,
-analytic off ``(-∞, b_k]``, ``g(z) = log z + O(1/z)``.  On the support
-``g_+ + g_- - V + ℓ = 0``; on the real line ``g_+ - g_- = 2πi μ_V([x, b_k])``,
-which is ``2πi Ω_j`` in gap ``j`` and ``2πi`` left of ``a_1``.
+Conventions
+-----------
+Those of :mod:`equilibrium.conventions`: ``g(z) = ∫ log(z - s) dμ_V(s)``, principal
+logarithms, so ``g`` is analytic off ``(-∞, b_k]``, ``g_+ + g_- - V + ℓ = 0`` on the
+support and ``g_+ - g_- = 2πi μ_V([x, b_k])`` on the line (``2πi`` left of ``a_1``).
 
 The equilibrium measure supplies the factorisation (see ``equilibrium``)
 

@@ -111,46 +111,32 @@ def density_grid(mu: EquilibriumMeasure, grid_points: int = 801, end_points: int
     return x[keep]
 
 
+#: the entries of :meth:`EquilibriumMeasure.to_dict` stored as datasets of the group (the rest are attributes)
+_ARRAYS = {
+    "support": "bands [a_j, b_j], ascending (rows j = 1..k)",
+    "edges": "kind of each band end: 'soft' (density ~ sqrt) or 'hard' (density ~ 1/sqrt)",
+    "masses": "band masses mu([a_j, b_j]), sum 1",
+    "omega": "filling fractions Omega_j = mu([a_{j+1}, b_k]), the mass right of gap j",
+}
+
+
 def measure_group(mu: EquilibriumMeasure, grid_points: int = 801) -> Group:
-    """The /equilibrium group of a results file: numbers, conventions, and the density on a grid."""
+    """The /equilibrium group of a results file: :meth:`EquilibriumMeasure.to_dict` (arrays as
+    datasets, the rest as attributes), the conventions, and the density on a grid."""
+    from equilibrium.conventions import CONVENTIONS
     from workbench.results import Group  # h5py (0.2 s) only when a file is written
 
+    data = mu.to_dict()
     node = Group()
-    support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
-    node.attrs.update(
-        {
-            "description": "equilibrium measure mu_V of the field on the set",
-            "conventions": "I_V = iint log 1/|x-y| dmu dmu + int V dmu; 2U + V = ell on S; "
-            "Omega_j = mu([a_{j+1}, b_k]); psi = dmu/dx",
-            "kind": mu.kind,
-            "positive": bool(mu.positive),
-            "density_minimum": float(mu.to_dict()["density_minimum"]),
-            "negative_mass": 0.0 if mu.positive else float(mu.negative_part()[1]),
-            "bands": int(support.shape[0]),
-            "lagrange": float(mu.lagrange),
-            "energy": float(mu.energy),
-            "capacity": "none" if mu.capacity is None else float(mu.capacity),
-            "verified": bool(mu.verified),
-            "checks": {k: float(v) for k, v in mu.checks.items()},
-            "regular": bool(mu.classification.regular),
-            "classification": str(mu.classification),
-            "field": mu.field.description,
-            "set": mu.on.describe(),
-            "message": mu.message,
-        }
-    )
-    node.add("support", support, "bands [a_j, b_j], ascending (rows j = 1..k)")
-    node.add(
-        "edges",
-        np.asarray(mu.edges, dtype=object).reshape(-1, 2),
-        "kind of each band end: 'soft' (density ~ sqrt) or 'hard' (density ~ 1/sqrt)",
-    )
-    node.add("masses", np.asarray(mu.masses, dtype=float), "band masses mu([a_j, b_j]), sum 1")
-    node.add(
-        "omega",
-        np.asarray(mu.omega, dtype=float).reshape(-1),
-        "filling fractions Omega_j = mu([a_{j+1}, b_k]), the mass right of gap j",
-    )
+    node.attrs.update({"description": "equilibrium measure mu_V of the field on the set", "conventions": CONVENTIONS})
+    node.attrs.update({key: value for key, value in data.items() if key not in _ARRAYS and key != "singularities"})
+    if data["capacity"] is None:
+        node.attrs["capacity"] = "none"
+    support = np.asarray(data["support"], dtype=float).reshape(-1, 2)
+    node.add("support", support, _ARRAYS["support"])
+    node.add("edges", np.asarray(data["edges"], dtype=object).reshape(-1, 2), _ARRAYS["edges"])
+    node.add("masses", np.asarray(data["masses"], dtype=float), _ARRAYS["masses"])
+    node.add("omega", np.asarray(data["omega"], dtype=float).reshape(-1), _ARRAYS["omega"])
     x = density_grid(mu, grid_points)
     node.add("x", x, "grid for the density and the effective potential: uniform over the support "
                      "and a margin, plus points clustered at every band end (soft ends included, "

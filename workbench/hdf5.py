@@ -22,13 +22,6 @@ from typing import Any, Iterator, Mapping
 import h5py
 import numpy as np
 
-#: root attribute naming the conventions every file follows
-CONVENTIONS_NOTE = (
-    "weight w_n(x) = exp(-n V(x)) h(x); energy I_V = iint log 1/|x-y| + int V; "
-    "Euler-Lagrange 2 U^mu + V = ell on S; Omega_j = mu([a_{j+1}, b_k]); "
-    "x p_k = a_{k+1} p_{k+1} + b_k p_k + a_k p_{k-1}, a[0] = 0; "
-    "g(z) = int log(z - s) dmu(s), principal branches"
-)
 
 
 def to_attribute(value: Any) -> Any:
@@ -122,8 +115,10 @@ def atomic_file(path: str | os.PathLike[str]) -> Iterator[h5py.File]:
     The file is built under a temporary name beside ``path``; on normal exit
     it is flushed, closed, synced and renamed over ``path``.  On any
     exception (including ``KeyboardInterrupt``) the temporary file is removed
-    and ``path`` is left as it was.
+    and ``path`` is left as it was.  The root carries the project's conventions
+    (:data:`equilibrium.conventions.CONVENTIONS`).
     """
+    from equilibrium.conventions import CONVENTIONS
     from equilibrium.errors import InputError
 
     target = Path(path)
@@ -139,7 +134,7 @@ def atomic_file(path: str | os.PathLike[str]) -> Iterator[h5py.File]:
     handle = None
     try:
         handle = h5py.File(tmp_name, "w")
-        handle.attrs["conventions"] = CONVENTIONS_NOTE
+        handle.attrs["conventions"] = CONVENTIONS
         yield handle
         handle.flush()
         handle.close()

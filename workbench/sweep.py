@@ -598,18 +598,13 @@ def equilibrium_point_fast(payload: Mapping[str, Any], params: Mapping[str, floa
     return _measure_summary(mu)
 
 
+#: what a sweep records of each point's measure: these keys of :meth:`EquilibriumMeasure.to_dict`
+POINT_KEYS = ("bands", "support", "omega", "masses", "lagrange", "energy", "verified", "regular", "positive")
+
+
 def _measure_summary(mu) -> dict[str, Any]:
-    return {
-        "bands": len(mu.support),
-        "support": [list(map(float, band)) for band in mu.support],
-        "omega": [float(w) for w in np.atleast_1d(mu.omega)],
-        "masses": [float(m) for m in np.atleast_1d(mu.masses)],
-        "lagrange": float(mu.lagrange),
-        "energy": float(mu.energy),
-        "verified": bool(mu.verified),
-        "regular": bool(getattr(mu.classification, "regular", True)),
-        "positive": bool(mu.positive),
-    }
+    data = mu.to_dict()
+    return {key: data[key] for key in POINT_KEYS}
 
 
 @dataclass(frozen=True)
