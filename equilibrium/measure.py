@@ -258,6 +258,23 @@ class EquilibriumMeasure:
             before += self.masses[j]
         return np.clip(out, 0.0, 1.0)
 
+    def complement(self) -> tuple[tuple[float, float], ...]:
+        """The components of Σ \\ S as closed intervals ``(lo, hi)``, ascending: the gaps of
+        the support inside Σ and the parts of Σ beyond its ends (the outer ones may be
+        unbounded).  Pieces of Σ that hold no band are whole components."""
+        pieces = []
+        for lo, hi in self.on.intervals:
+            cursor = lo
+            for a, b in self.support:
+                if b <= lo or a >= hi:
+                    continue
+                if a > cursor:
+                    pieces.append((cursor, a))
+                cursor = max(cursor, b)
+            if cursor < hi:
+                pieces.append((cursor, hi))
+        return tuple((float(lo), float(hi)) for lo, hi in pieces)
+
     def quantile(self, p) -> np.ndarray:
         """The inverse of F: the x with F(x) = p, for p in [0, 1] (bisection in the angle)."""
         p = np.asarray(p, dtype=float)
@@ -829,21 +846,20 @@ def _critical_points(measure: EquilibriumMeasure, critical: np.ndarray | None, l
 
 
 def _off_support_regions(measure: EquilibriumMeasure) -> list[tuple[float, float]]:
-    """The pieces of Σ \\ S inside the window and a little beyond, where eff is sampled."""
+    """The pieces of Σ \\ S (:meth:`EquilibriumMeasure.complement`) inside the window and a
+    little beyond, where eff is sampled: the gaps, then the right and the left ones, cut
+    at twice the window's span beyond the window (and the ellipse)."""
     e = measure.structure.ends
     window_lo, window_hi = measure.window
     ellipse = measure._window.ellipse
     span = window_hi - window_lo
-    regions = [(e[2 * j + 1], e[2 * j + 2]) for j in range(measure.bands - 1)]
-    regions.append((e[-1], max(window_hi, ellipse.real_crossing) + 2 * span))
-    regions.append((min(window_lo, 2 * ellipse.center - ellipse.real_crossing) - 2 * span, e[0]))
-    out = []
-    for lo, hi in regions:
-        for a, b in measure.on.intervals:
-            lo2, hi2 = max(lo, a), min(hi, b)
-            if lo2 < hi2:
-                out.append((lo2, hi2))
-    return out
+    right_cut = max(window_hi, ellipse.real_crossing) + 2 * span
+    left_cut = min(window_lo, 2 * ellipse.center - ellipse.real_crossing) - 2 * span
+    pieces = measure.complement()
+    gaps = [(lo, hi) for lo, hi in pieces if lo >= e[0] and hi <= e[-1]]
+    right = [(lo, min(hi, right_cut)) for lo, hi in pieces if lo >= e[-1] and lo < right_cut]
+    left = [(max(lo, left_cut), hi) for lo, hi in pieces if hi <= e[0] and left_cut < hi]
+    return gaps + right + left
 
 
 def _effective_potential_minimum(measure: EquilibriumMeasure, regions=None, critical=None) -> tuple[float, float]:

@@ -16,7 +16,8 @@ from scipy.special import roots_genlaguerre, roots_hermite
 from equilibrium import Field, IntervalSet, solve
 from gfunction import predictor
 from gfunction.edge_zeros import bessel_zeros, edge_scaling_zeros, edge_zeros
-from workbench.polynomials import Weight, parse_factor, recurrence_coefficients, zeros
+from equilibrium.weight import Weight, parse_factor
+from workbench.polynomials import recurrence_coefficients, zeros
 
 
 def _slope(ns, err):

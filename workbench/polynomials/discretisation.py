@@ -38,7 +38,8 @@ which keeps the neglected mass below the rounding level of the coefficients.
 
 Panels
 ------
-* **Bands.**  Breaks at the quantiles of ``μ_t`` on each band, ``ζ`` zeros of
+* **Bands.**  Breaks at the quantiles of ``μ_t`` on each band (``measure.quantile``: the
+  measure's own distribution function), ``ζ`` zeros of
   ``p_K`` per panel (so the panels follow the local zero spacing
   ``1/(K ψ_t)``), ``m`` Gauss–Legendre points per panel.  For an integrand
   that grows like ``exp(2π K ψ_t |Im z|)`` off the axis, the error of an
@@ -177,32 +178,14 @@ def measure_for(weight: Weight, degree: int, solver: Callable[..., Any] | None =
     return measure
 
 
-def _band_cdf(measure, a: float, b: float, samples: int = 1025) -> tuple[np.ndarray, np.ndarray]:
-    """θ-grid and normalised distribution of μ on the band [a, b], x = (a+b)/2 - (b-a)/2 cos θ."""
-    theta = np.linspace(0.0, math.pi, samples)
-    x = 0.5 * (a + b) - 0.5 * (b - a) * np.cos(theta)
-    inner = x[1:-1]
-    density = np.zeros_like(x)
-    density[1:-1] = np.asarray(measure.density(inner), dtype=float)
-    integrand = np.maximum(density, 0.0) * 0.5 * (b - a) * np.sin(theta)
-    # endpoint values by extrapolation (the θ-integrand is bounded at both ends)
-    integrand[0] = max(2 * integrand[1] - integrand[2], 0.0)
-    integrand[-1] = max(2 * integrand[-2] - integrand[-3], 0.0)
-    cdf = np.concatenate([[0.0], np.cumsum(0.5 * (integrand[1:] + integrand[:-1]) * np.diff(theta))])
-    if not cdf[-1] > 0:
-        raise NumericalFailure(f"the equilibrium density vanishes on the band [{a:g}, {b:g}]")
-    return theta, cdf / cdf[-1]
-
-
-def _band_breaks(measure, a: float, b: float, edges: tuple[str, str], mass: float, degree: int,
+def _band_breaks(measure, j: int, a: float, b: float, edges: tuple[str, str], mass: float, degree: int,
                  layout: PanelLayout) -> np.ndarray:
-    theta, cdf = _band_cdf(measure, a, b)
     count = max(int(math.ceil(mass * (degree + 1) / layout.zeros_per_panel)), 2)
     levels = (np.arange(count) + layout.offset) / count
-    levels = np.concatenate([[0.0], levels[levels > 0], [1.0]])
-    th = np.interp(levels, cdf, theta)
-    x = 0.5 * (a + b) - 0.5 * (b - a) * np.cos(th)
-    x[0], x[-1] = a, b
+    levels = levels[levels > 0]
+    # the quantiles of μ_t on band j, from the measure's own distribution function
+    before = float(np.concatenate([[0.0], np.cumsum(measure.masses)])[j])
+    x = np.concatenate([[a], measure.quantile(before + levels * mass), [b]])
     # no panel longer than a quarter of the band (small K)
     x = _refine_long(x, 0.25 * (b - a))
     # soft edges: split the edge panel geometrically down to the Airy scale
@@ -240,23 +223,6 @@ def _refine_long(x: np.ndarray, longest: float) -> np.ndarray:
     inner = start + step * index
     inner[np.cumsum(pieces) - 1] = hi  # each interval ends exactly on its break
     return np.concatenate([x[:1], inner])
-
-
-def _complement_pieces(on, support) -> list[tuple[float, float]]:
-    """Components of Σ \\ S (closures), possibly unbounded."""
-    pieces = []
-    for lo, hi in on.intervals:
-        cursor = lo
-        for a, b in support:
-            if b <= lo or a >= hi:
-                continue
-            if a > cursor:
-                pieces.append((cursor, a))
-            cursor = max(cursor, b)
-        if cursor < hi:
-            pieces.append((cursor, hi))
-    scale = max(1.0, max(abs(e) for ab in support for e in ab))
-    return [(p, q) for p, q in pieces if q - p > 1e-13 * scale]
 
 
 def _exterior_breaks(measure, piece: tuple[float, float], support, degree: int, level: float,
@@ -565,19 +531,21 @@ def discretise(weight: Weight, degree: int, layout: PanelLayout = PRIMARY, measu
     if measure is None:
         measure = measure_for(weight, degree, solver)
     support = [tuple(map(float, ab)) for ab in measure.support]
-    edges = list(getattr(measure, "edges", [("soft", "soft")] * len(support)))
-    masses = np.asarray(getattr(measure, "masses", np.ones(len(support)) / len(support)), dtype=float)
+    edges = list(measure.edges)
     level = cut_level(degree + 1)
     # the bands
     band_breaks = [
-        _band_breaks(measure, a, b, tuple(e), float(mass), degree, layout)
-        for (a, b), e, mass in zip(support, edges, masses)
+        _band_breaks(measure, j, a, b, tuple(e), float(mass), degree, layout)
+        for j, ((a, b), e, mass) in enumerate(zip(support, edges, measure.masses))
     ]
     longest = max(float(np.max(np.diff(bb))) for bb in band_breaks)
-    # outside the bands: tails, gaps, pieces of Σ beyond the support
+    # outside the bands: tails, gaps, pieces of Σ beyond the support (the measure's Σ \ S;
+    # slivers left where a band ends within rounding of an end of Σ carry no nodes)
+    scale = max(1.0, max(abs(e) for ab in support for e in ab))
     exterior: list[np.ndarray] = []
-    for piece in _complement_pieces(weight.on, support):
-        exterior.extend(_exterior_breaks(measure, piece, support, degree, level, layout, longest))
+    for lo, hi in measure.complement():
+        if hi - lo > 1e-13 * scale:
+            exterior.extend(_exterior_breaks(measure, (lo, hi), support, degree, level, layout, longest))
     # singular points of h become breaks
     singular = {c: p for c, p in weight.singular_points}
     segments = [(seg, layout.points) for seg in band_breaks] + [(seg, layout.exterior_points) for seg in exterior]
