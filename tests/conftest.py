@@ -19,6 +19,7 @@ import os
 import sys
 import typing
 from collections.abc import Iterator, Sequence
+from pathlib import Path
 
 import pytest
 from hypothesis import settings
@@ -204,3 +205,39 @@ def _jacobi_edge_offsets(n: int, alpha: float, beta: float, edge: float, count: 
     with mpmath.workdps(30):
         return np.array([float(mpmath.findroot(lambda y: mpmath.jacobi(n, alpha, beta, y), mpmath.mpf(r),
                                                verify=False) - edge) for r in near])
+
+
+# ----------------------------------------------------------------------------- reference tables
+#: the top-level data/ folder: reference tables with their sources (data/README.md)
+DATA = Path(__file__).resolve().parents[1] / "data"
+
+
+@pytest.fixture(scope="session")
+def reference_table():
+    """Function reading a table of ``data/`` (CSV with ``# key: value`` header lines).
+
+    Parameters
+    ----------
+    name : str
+        Path below ``data/`` without the ``.csv``, e.g. ``"recurrence/double_well_n30_K40"``.
+
+    Returns
+    -------
+    callable
+        ``table(name) -> (header, columns)``: ``header`` maps each ``# key: value`` line's
+        key to its text, ``columns`` maps each column name to a float array.
+    """
+    return _reference_table
+
+
+def _reference_table(name: str) -> tuple[dict[str, str], dict[str, np.ndarray]]:
+    lines = (DATA / f"{name}.csv").read_text(encoding="utf-8").splitlines()
+    header = {}
+    for line in lines:
+        if line.startswith("#"):
+            key, _, value = line[1:].partition(":")
+            header[key.strip()] = value.strip()
+    rows = [line for line in lines if line and not line.startswith("#")]
+    names = rows[0].split(",")
+    values = np.array([[float(v) for v in row.split(",")] for row in rows[1:]])
+    return header, {column: values[:, j] for j, column in enumerate(names)}

@@ -102,25 +102,35 @@ def test_jacobi_from_factor_text():
     assert np.max(np.abs(rc.b)) < 1e-14
 
 
-def test_quartic_double_well_against_mpmath():
-    # float64 path vs the mpmath referee (independent arithmetic and quadrature), K = 40
+def test_quartic_double_well_against_mpmath(reference_table):
+    # float64 path vs the mpmath referee (independent arithmetic and quadrature), K = 40;
+    # the referee's table: data/recurrence/double_well_n30_K40.csv (data/README.md)
     weight = Weight(Field.from_expression("x**4/4 - x**2 + 0.1*x"), 30)
     rc = recurrence_coefficients(weight, 40)
-    ref = recurrence_coefficients_mp(weight, 40)
-    assert ref.verified
-    assert np.max(np.abs(rc.a - ref.a)) < 1e-12
-    assert np.max(np.abs(rc.b - ref.b)) < 1e-12
-    assert abs(rc.log_mass - ref.log_mass) < 1e-12
+    header, ref = reference_table("recurrence/double_well_n30_K40")
+    assert np.max(np.abs(rc.a - ref["a"])) < 1e-12
+    assert np.max(np.abs(rc.b - ref["b"])) < 1e-12
+    assert abs(rc.log_mass - float(header["log_mass"])) < 1e-12
 
 
-def test_fisher_hartwig_factor_against_mpmath():
+def test_fisher_hartwig_factor_against_mpmath(reference_table):
     # |x - 0.3|^{2γ} inside the band, split with Gauss-Jacobi panels; mpmath referee
+    # (data/recurrence/fisher_hartwig_n12_K30.csv)
     weight = Weight(Field.from_expression("x**2/2"), 12, IntervalSet.real_line(), (PowerFactor(0.3, 0.4),))
     rc = recurrence_coefficients(weight, 30)
-    ref = recurrence_coefficients_mp(weight, 30)
+    _, ref = reference_table("recurrence/fisher_hartwig_n12_K30")
+    assert np.max(np.abs(rc.a - ref["a"])) < 1e-12
+    assert np.max(np.abs(rc.b - ref["b"])) < 1e-12
+
+
+def test_the_referee_itself_at_a_small_size():
+    """The stored tables come from the mpmath referee (data/scripts); the referee itself stays
+    under test here at a size CI can afford (K = 12), against the float64 engine."""
+    weight = Weight(Field.from_expression("x**4/4 - x**2 + 0.1*x"), 30)
+    ref = recurrence_coefficients_mp(weight, 12)
+    rc = recurrence_coefficients(weight, 12)
     assert ref.verified
-    assert np.max(np.abs(rc.a - ref.a)) < 1e-12
-    assert np.max(np.abs(rc.b - ref.b)) < 1e-12
+    assert max(np.max(np.abs(rc.a - ref.a)), np.max(np.abs(rc.b - ref.b))) < 1e-12
 
 
 def test_two_band_double_well_two_discretisations():
@@ -159,13 +169,13 @@ def test_underflow_trap_wells_of_different_depth():
     assert np.ptp(rc.b[-50:]) > 1.0
 
 
-def test_trap_potential_against_mpmath_at_moderate_n():
+def test_trap_potential_against_mpmath_at_moderate_n(reference_table):
+    # mpmath referee: data/recurrence/trap_quartic_n40_K36.csv
     weight = Weight(Field.from_expression(DOUBLE_WELL_TRAP), 40)
     rc = recurrence_coefficients(weight, 36)
-    ref = recurrence_coefficients_mp(weight, 36)
-    assert ref.verified
-    assert np.max(np.abs(rc.a - ref.a)) < 1e-12
-    assert np.max(np.abs(rc.b - ref.b)) < 1e-12
+    _, ref = reference_table("recurrence/trap_quartic_n40_K36")
+    assert np.max(np.abs(rc.a - ref["a"])) < 1e-12
+    assert np.max(np.abs(rc.b - ref["b"])) < 1e-12
 
 
 def test_union_of_intervals_symmetry():

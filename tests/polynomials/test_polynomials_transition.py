@@ -8,7 +8,7 @@ Near t = 2 the density is small near 0 and the panels sized by the zero spacing
 were far too long (the two discretisations disagreed by 1.9e-5 at n = 320).
 
 Outside references: the mpmath referee (independent arithmetic and quadrature,
-tanh–sinh, workbench.polynomials.highprecision) at moderate n; at large n a third
+tanh–sinh, workbench.polynomials.highprecision; its tables in data/recurrence) at moderate n; at large n a third
 discretisation placed from the equilibrium measure of (n/2n)V (another support,
 cut level and panel layout, no density minimum).
 """
@@ -24,7 +24,6 @@ from equilibrium import Field, IntervalSet, solve
 from workbench.polynomials.discretisation import (
     PRIMARY, SECONDARY, discretise, growth_bound, measure_for, nominal_exponent,
 )
-from workbench.polynomials.highprecision import recurrence_coefficients_mp
 from workbench.polynomials.recurrence import recurrence_coefficients, stieltjes
 from equilibrium.weight import Weight
 
@@ -58,13 +57,13 @@ def test_two_discretisations_and_an_oversized_one_agree(t, n):
 
 
 @pytest.mark.parametrize("t", [1.96, 2.0, 2.02])
-def test_against_mpmath_referee(t):
+def test_against_mpmath_referee(t, reference_table):
+    # the referee's tables: data/recurrence/quartic_t{t}_n40_K40.csv (data/README.md)
     weight = Weight(quartic(t), 40)
     rc = recurrence_coefficients(weight, 40)
-    ref = recurrence_coefficients_mp(weight, 40)
-    assert ref.verified
-    assert np.max(np.abs(rc.a - ref.a)) < 1e-13
-    assert np.max(np.abs(rc.b - ref.b)) < 1e-13
+    _, ref = reference_table(f"recurrence/quartic_t{t}_n40_K40")
+    assert np.max(np.abs(rc.a - ref["a"])) < 1e-13
+    assert np.max(np.abs(rc.b - ref["b"])) < 1e-13
 
 
 def test_panels_at_the_minimum_follow_the_critical_scale():
