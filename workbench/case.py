@@ -593,7 +593,7 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
     if not re.fullmatch(r"[A-Za-z0-9_\-]+", name):
         raise check.fail(f"case name {name!r} may hold only letters, digits, '_' and '-'", "case", "name")
 
-    field_spec = _field(check, tables["field"])
+    field_spec = _field(check, tables["field"], tables["factor"].get("expression"))
     set_spec = _set(check, tables["set"])
     factor_spec = _factor(check, tables["factor"], set_spec, field_spec)
     if field_spec.zero and not set_spec.is_compact:
@@ -645,7 +645,7 @@ def _top_key_error(check: _Validator, key: str) -> InputError:
                       f"{', '.join(_TOP_LEVEL)}")
 
 
-def _field(check: _Validator, table: dict[str, Any]) -> FieldSpec:
+def _field(check: _Validator, table: dict[str, Any], factor_text: Any = None) -> FieldSpec:
     given = [k for k in ("expression", "coefficients", "zero") if k in table and table[k] is not False]
     if len(given) != 1:
         what = "none" if not given else " and ".join(given)
@@ -667,14 +667,17 @@ def _field(check: _Validator, table: dict[str, Any]) -> FieldSpec:
         zero=bool(table.get("zero", False)),
     )
     if spec.expression is not None:
-        _check_expression(check, spec)
+        _check_expression(check, spec, factor_text)
     if spec.coefficients is not None and not spec.coefficients:
         raise check.fail("[field] coefficients must not be empty", "field", "coefficients")
     return spec
 
 
-def _check_expression(check: _Validator, spec: FieldSpec) -> None:
-    """Parse the expression now (if the parser is installed) so errors carry the line."""
+def _check_expression(check: _Validator, spec: FieldSpec, factor_text: Any = None) -> None:
+    """Parse the expression now (if the parser is installed) so errors carry the line.
+
+    A parameter is used when the field's expression or the [factor] expression (whose
+    names take the field's parameters) names it."""
     try:
         from equilibrium import Field
     except ImportError:  # the parser is not there yet: the error surfaces at run time
@@ -690,7 +693,12 @@ def _check_expression(check: _Validator, spec: FieldSpec) -> None:
     from equilibrium.expression import parse_expression
 
     # a value for a name the expression does not use is a misspelling, not a choice
-    used = parse_expression(spec.expression, dict(spec.parameters)).parameter_names
+    used = set(parse_expression(spec.expression, dict(spec.parameters)).parameter_names)
+    if isinstance(factor_text, str):
+        try:
+            used |= set(parse_expression(factor_text, dict(spec.parameters)).parameter_names)
+        except InputError:
+            pass  # reported with its own line when [factor] is read
     unused = [name for name in spec.parameters if name not in used]
     if unused:
         raise check.fail(f"[field] parameters {', '.join(unused)} not used by the expression "

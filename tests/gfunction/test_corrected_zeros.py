@@ -24,7 +24,8 @@ from gfunction import predictor
 from gfunction.edge_zeros import edge_zeros
 from gfunction.polynomial_form import band_form, bulk_zeros, corrections, gap_zeros
 from gfunction.residual import jump_expansion
-from workbench.polynomials import Weight, parse_factor, recurrence_coefficients, weighted_values, zeros
+from equilibrium.weight import Weight, parse_factor
+from workbench.polynomials import recurrence_coefficients, weighted_values, zeros
 
 
 def _slope(ns, err):

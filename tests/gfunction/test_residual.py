@@ -19,7 +19,8 @@ from gfunction.model_series import airy_coefficients, bessel_coefficients, pole_
 from gfunction.residual import fourier_modes, jump_expansion, residual_expansion
 from gfunction.series import corrected_recurrence, recurrence_from_expansions, series_mul, series_reciprocal, \
     series_sqrt
-from workbench.polynomials import Weight, orthogonality_matrix, parse_factor, recurrence_coefficients
+from equilibrium.weight import Weight, parse_factor
+from workbench.polynomials import orthogonality_matrix, recurrence_coefficients
 
 
 # ------------------------------------------------------------------ model series

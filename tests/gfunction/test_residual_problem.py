@@ -14,7 +14,8 @@ from equilibrium.errors import InputError, NumericalFailure
 from gfunction import predictor
 from gfunction.residual_problem import _solve_dense, _solve_one, residual_solver, solve_residual_problem
 from gfunction.series import corrected_recurrence
-from workbench.polynomials import Weight, parse_factor, recurrence_coefficients
+from equilibrium.weight import Weight, parse_factor
+from workbench.polynomials import recurrence_coefficients
 
 
 def test_hermite_and_neglected_exponent():
