@@ -21,6 +21,7 @@ import typing
 from collections.abc import Iterator, Sequence
 from pathlib import Path
 
+import numpy as np
 import pytest
 from hypothesis import settings
 

@@ -21,7 +21,7 @@ from equilibrium import Field, IntervalSet, solve
 from equilibrium.errors import InputError, NumericalFailure
 from gfunction.hankel import expansion_support, hankel_expansion
 from workbench.polynomials.hankel import hankel_determinant
-from workbench.polynomials.weight import Weight, parse_factor
+from equilibrium.weight import Weight, parse_factor
 
 
 

@@ -20,7 +20,7 @@ from equilibrium import Field, IntervalSet
 from equilibrium.errors import InputError, NumericalFailure
 from workbench.polynomials.hankel import hankel_determinant, log_det_from_coefficients
 from workbench.polynomials.recurrence import recurrence_coefficients
-from workbench.polynomials.weight import Weight, parse_factor
+from equilibrium.weight import Weight, parse_factor
 
 
 
