@@ -338,7 +338,7 @@ def comparison_notes(tree: Group, case: Case) -> tuple[list[str], list[str]]:
         return notes, failures  # the failed model has its own message
     ns = np.asarray(comp.get("n"))
     wanted = case.comparisons
-    with_factor = case.factor.kind != "none"
+    with_factor = not case.factor.is_one
     if wanted.values and not comp.has("err_values"):
         notes.append("values of p_n not compared: " + (
             f"the bulk form of the model side leaves out the Szego function of the factor "
