@@ -23,6 +23,7 @@ order (``[model] order``) and stores ``err_<quantity>`` per order.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from types import SimpleNamespace
 
 import numpy as np
 
@@ -56,13 +57,6 @@ class CorrectedPrediction:
     verified: bool
     checks: dict = field(default_factory=dict)
     message: str = ""
-
-
-@dataclass(frozen=True)
-class _Verdict:
-    verified: bool
-    checks: dict
-    message: str
 
 
 def _check(order, method) -> tuple[int, str]:
@@ -121,7 +115,8 @@ def corrected_prediction(predictor, degrees, *, order: int = 0, method: str = "s
         parts.append(("residual_", sol))
     if order and not getattr(predictor, "verified", True):
         # order 0 carries the predictor's verdict already (Predictor.predict)
-        parts.append(("", _Verdict(False, {}, f"predictions rest on: {predictor.message}")))
+        parts.append(("", SimpleNamespace(verified=False, checks={},
+                                          message=f"predictions rest on: {predictor.message}")))
     checks = {}
     for prefix, part in parts:
         checks.update({f"{prefix}{k}": float(v) for k, v in part.checks.items()})
