@@ -17,6 +17,7 @@ from __future__ import annotations
 import numpy as np
 
 from equilibrium.errors import InputError
+from workbench.compare import absolute_errors
 
 __all__ = ["model_orders", "order_errors", "order_error_keys", "check_model_request"]
 
@@ -93,7 +94,7 @@ def order_errors(node, model, direct: dict) -> None:
             what = ("the residual problem" if suffix == "_residual"
                     else f"the series through order {suffix[len('_order'):]}")
             node.add(f"{q}_model{suffix}", predicted, f"{q}_n^{{(n)}} predicted by {what}")
-            node.add(f"err_{q}{suffix}", np.abs(direct[q] - predicted), f"|{q}_n direct - {what}|")
+            node.add(f"err_{q}{suffix}", absolute_errors(direct[q], predicted), f"|{q}_n direct - {what}|")
 
 
 def order_error_keys(node) -> list[str]:

@@ -14,7 +14,8 @@ Stages
    support for the small-norm check.  Each finished n is stored at once
    (``partial/n_XXXXX.h5``, atomic), so an interrupted run resumes.
 4. *comparison*: errors of every predicted quantity against n, counts per
-   band, and rates fitted by least squares (:func:`fit_rate`).
+   band, and rates fitted by least squares, all by the array functions of
+   :mod:`workbench.compare` (the small-norm matrix by :mod:`gfunction.small_norm`).
 
 The run tree (:class:`workbench.results.Group`) is written atomically to
 one HDF5 file, then the figures are drawn from that tree alone.
@@ -30,7 +31,6 @@ shrink like ``1/n``.
 
 from __future__ import annotations
 
-import math
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -39,6 +39,7 @@ from typing import Any, Callable, Mapping, Sequence
 import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
+from workbench import compare
 from workbench.case import Case
 from workbench.hdf5 import check_output_directory, make_output_directory
 from workbench.orders import check_model_request, model_orders, order_error_keys, order_errors
@@ -51,7 +52,7 @@ from workbench.results import (
     write_run,
 )
 
-__all__ = ["RateFit", "fit_rate", "RunOutcome", "run_case", "ERROR_QUANTITIES"]
+__all__ = ["RunOutcome", "run_case", "ERROR_QUANTITIES"]
 
 #: error quantities of /comparison that get a fitted rate
 ERROR_QUANTITIES = ("err_a", "err_b", "err_values", "err_zeros_bulk", "err_zeros_edge", "err_zeros_edge_right",
@@ -62,46 +63,6 @@ EDGE_ZEROS = 5
 #: the outer edges compared (edge number, -1: the last), and the suffix of their datasets
 EDGE_SIDES = (("right", -1), ("left", 0))
 EDGE_SUFFIX = {"right": "", "left": "_left"}
-
-
-# ------------------------------------------------------------------------ rates
-@dataclass(frozen=True)
-class RateFit:
-    """Least-squares fit ``log e = c + s log n``.
-
-    ``stderr`` is the standard error of the slope,
-    ``sqrt(RSS / (m - 2) / Σ (log n_i - mean)^2)`` (m points; undefined, NaN,
-    for m = 2).  ``residual`` is the RMS residual in log e.
-    """
-
-    slope: float
-    stderr: float
-    intercept: float
-    points: int
-    residual: float
-
-
-def fit_rate(n: Sequence[float], error: Sequence[float]) -> RateFit:
-    """Fit the convergence rate of ``error`` against ``n`` (finite positive errors only).
-
-    Ordinary least squares on ``(log n, log e)`` (common practice); see
-    e.g. Draper & Smith, *Applied Regression Analysis*, 3rd ed., 1998, §1.4
-    for the standard error of the slope.
-    """
-    x = np.log(np.asarray(n, dtype=float))
-    y = np.asarray(error, dtype=float)
-    ok = np.isfinite(x) & np.isfinite(y) & (y > 0)
-    x, y = x[ok], np.log(y[ok])
-    m = x.size
-    if m < 2 or np.ptp(x) == 0:
-        return RateFit(math.nan, math.nan, math.nan, int(m), math.nan)
-    xm = x.mean()
-    sxx = float(np.sum((x - xm) ** 2))
-    slope = float(np.sum((x - xm) * (y - y.mean())) / sxx)
-    intercept = float(y.mean() - slope * xm)
-    rss = float(np.sum((y - intercept - slope * x) ** 2))
-    stderr = math.sqrt(rss / (m - 2) / sxx) if m > 2 else math.nan
-    return RateFit(slope, stderr, intercept, int(m), math.sqrt(rss / m))
 
 
 # ------------------------------------------------------------------ the objects
@@ -239,16 +200,9 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
     node.add("direct_error_estimate", np.array([d.attrs["error_estimate"] for d in direct]),
              "error estimate of the direct coefficients (two discretisations)")
 
-    counts = np.zeros((ns.size, k), dtype=np.int64)
-    gap_direct = np.full((ns.size, max(k - 1, 0)), np.nan)
-    for i, d in enumerate(direct):
-        x = np.asarray(d.get("zeros"))
-        for j, (a, b) in enumerate(support):
-            counts[i, j] = int(np.sum((x >= a) & (x <= b)))
-        for j in range(k - 1):
-            inside = x[(x > support[j, 1]) & (x < support[j + 1, 0])]
-            if inside.size:
-                gap_direct[i, j] = inside[0] if inside.size == 1 else np.nan
+    zeros_direct = [np.asarray(d.get("zeros"), dtype=float) for d in direct]
+    counts = np.array([compare.band_counts(x, support) for x in zeros_direct], dtype=np.int64).reshape(ns.size, k)
+    gap_direct = np.array([compare.gap_zeros(x, support) for x in zeros_direct]).reshape(ns.size, k - 1)
     node.add("band_counts_direct", counts, "number of zeros of p_n in each band [a_j, b_j]")
     node.add("gap_zeros_direct", gap_direct, "the zero of p_n in gap j (NaN: none there)")
 
@@ -257,8 +211,8 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
         node.add("a_model", a_model, "a_n^{(n)} predicted by the model problem")
         node.add("b_model", b_model, "b_n^{(n)} predicted by the model problem")
         if case.comparisons.coefficients:
-            node.add("err_a", np.abs(a_direct - a_model), "|a_n direct - a_n model|")
-            node.add("err_b", np.abs(b_direct - b_model), "|b_n direct - b_n model|")
+            node.add("err_a", compare.absolute_errors(a_direct, a_model), "|a_n direct - a_n model|")
+            node.add("err_b", compare.absolute_errors(b_direct, b_model), "|b_n direct - b_n model|")
             order_errors(node, model, {"a": a_direct, "b": b_direct})
     if model.has("band_counts") and case.comparisons.band_counts:
         predicted = np.asarray(model.get("band_counts"))
@@ -266,19 +220,17 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
         node.add("band_count_mismatch", np.abs(counts - predicted).sum(axis=1),
                  "sum over bands of |direct count - predicted count|")
     if case.comparisons.zeros:
-        _zero_errors(node, direct, model, ns, support, gap_direct)
+        _zero_errors(node, zeros_direct, model, support, gap_direct)
     if model.has("values_shape") and case.comparisons.values:
         ell = float(eq.attrs["lagrange"])
-        predicted = []
-        for d, n, shape in zip(direct, ns, model.get("values_shape")):
-            # log gamma_n = -log_mass/2 - sum_{k<=n} log a_k (direct); gamma_n e^{-n ell/2} = O(1)
-            log_gamma = -0.5 * float(d.attrs["log_mass"]) - float(np.sum(np.log(d.get("a")[1:n + 1])))
-            predicted.append(np.exp(log_gamma - 0.5 * n * ell) * np.asarray(shape))
-        predicted = np.asarray(predicted)
+        # the model's bulk form times gamma_n e^{-n ell/2} from the direct log-mass and a_k
+        predicted = np.array([compare.value_normalisation(float(d.attrs["log_mass"]), d.get("a"), int(n), ell)
+                              * np.asarray(shape, dtype=float)
+                              for d, n, shape in zip(direct, ns, model.get("values_shape"))])
         values = np.array([d.get("values") for d in direct])
         node.add("values_model", predicted, "predicted p_n w^{1/2} at the bulk points "
                  "(model form times the direct gamma_n)")
-        node.add("err_values", np.max(np.abs(values - predicted), axis=1),
+        node.add("err_values", np.max(compare.absolute_errors(values, predicted), axis=1),
                  "max over the bulk points of |p_n w^{1/2} direct - model|")
     if all(d.has("small_norm") for d in direct) and case.comparisons.small_norm:
         node.add("small_norm", np.array([np.max(d.get("small_norm")) for d in direct]),
@@ -286,29 +238,24 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
     if case.comparisons.rates:
         rates = node.group("rates")
         rates.attrs["description"] = "fits log error = intercept + slope log n (least squares)"
-        scale = max(1.0, float(np.max(np.abs(support))))
-        floor = 1e3 * np.finfo(float).eps * scale
+        floor = compare.rounding_floor(float(np.max(np.abs(support))))
         for key in ERROR_QUANTITIES + tuple(order_error_keys(node)):
             if node.has(key):
                 err = np.asarray(node.get(key), dtype=float)
-                # errors at rounding level carry no rate: leave them out of the fit
-                fit = fit_rate(ns, np.where(err > floor, err, np.nan))
+                # errors at rounding level carry no rate: they are left out of the fit
+                fit = compare.fit_rate(ns, err, floor=floor)
                 entry = rates.group(key)
                 if not np.isfinite(err).any():
                     entry.attrs["note"] = "nothing to compare at any n"
                 elif not np.any(err > floor):
                     entry.attrs["note"] = f"all errors below {floor:.1e} (rounding level)"
-                # In several bands the O(1/n) coefficient is quasi-periodic in n (it depends on the
-                # phases nΩ), so a slope fitted over a few n can look flat: max n·error staying
-                # bounded across the range is the number that shows O(1/n) there.
-                finite = np.isfinite(err)
-                scaled = np.asarray(ns, dtype=float)[finite] * err[finite]
+                # max n·error bounded shows O(1/n) where the coefficient is quasi-periodic in n
+                # (compare.scaled_maximum)
                 entry.attrs.update({
                     "slope": fit.slope, "stderr": fit.stderr, "intercept": fit.intercept,
                     "points": fit.points, "residual": fit.residual,
-                    "max_n_times_error": float(np.max(scaled)) if scaled.size else math.nan,
-                    "max_n_times_error_second_half": (
-                        float(np.max(scaled[scaled.size // 2:])) if scaled.size else math.nan),
+                    "max_n_times_error": compare.scaled_maximum(ns, err),
+                    "max_n_times_error_second_half": compare.scaled_maximum(ns, err, second_half=True),
                     "description": f"rate of {key}: error ~ exp(intercept) n^slope; "
                                    "max_n_times_error bounded means O(1/n) with a quasi-periodic coefficient",
                 })
@@ -386,28 +333,14 @@ def comparison_notes(tree: Group, case: Case) -> tuple[list[str], list[str]]:
     return notes, failures
 
 
-def _nanmax_rows(values: np.ndarray) -> np.ndarray:
-    """Largest finite entry of each row, NaN for a row without one."""
-    values = np.asarray(values, dtype=float)
-    finite = np.isfinite(values)
-    return np.where(finite.any(axis=1), np.max(np.where(finite, values, -np.inf), axis=1), np.nan)
-
-
-def _zero_errors(node: Group, direct, model: Group, ns, support, gap_direct) -> None:
+def _zero_errors(node: Group, zeros_direct, model: Group, support, gap_direct) -> None:
     if model.has("bulk_zeros"):
+        # each predicted zero against the nearest zero of p_n (NaN pads of the rows are no zeros)
         errs = []
-        for d, predicted in zip(direct, model.get("bulk_zeros")):
-            x = np.sort(np.asarray(d.get("zeros"), dtype=float))
+        for x, predicted in zip(zeros_direct, model.get("bulk_zeros")):
             predicted = np.asarray(predicted, dtype=float)
-            predicted = predicted[np.isfinite(predicted)]
-            if predicted.size and x.size:
-                # each predicted zero against the nearest zero of p_n (no index bookkeeping
-                # across bands, whose counts move with n Omega)
-                place = np.searchsorted(x, predicted)
-                below, above = x[np.clip(place - 1, 0, x.size - 1)], x[np.clip(place, 0, x.size - 1)]
-                errs.append(float(np.max(np.minimum(np.abs(below - predicted), np.abs(above - predicted)))))
-            else:
-                errs.append(np.nan)
+            distances = compare.nearest_zero_distances(x, predicted[np.isfinite(predicted)])
+            errs.append(float(np.max(distances)) if distances.size else np.nan)
         node.add("err_zeros_bulk", np.asarray(errs),
                  "max over the predicted bulk zeros of the distance to the nearest zero of p_n")
     worst_form, worst_scaling = [], []
@@ -418,37 +351,35 @@ def _zero_errors(node: Group, direct, model: Group, ns, support, gap_direct) -> 
         predicted = np.asarray(model.get(f"edge_zeros{suffix}"), dtype=float)  # (N, m): from the edge inward
         m = predicted.shape[1]
         edge = support[-1, 1] if side == "right" else support[0, 0]
-        found = np.array([(np.asarray(d.get("zeros"))[::-1] if side == "right" else np.asarray(d.get("zeros")))[:m]
-                          for d in direct])
+        found = np.array([compare.zeros_from_edge(x, m, side) for x in zeros_direct])
         node.add(f"edge_zeros{suffix}_direct", found, f"zeros of p_n next to the {side} edge, counted inward")
         # zeros beyond the matching disc have no prediction (NaN): the error is over the others
-        worst_form.append(_nanmax_rows(np.abs(found - predicted)))
+        worst_form.append(compare.finite_maximum(compare.absolute_errors(found, predicted)))
         scaling = np.asarray(model.get(f"edge_zeros{suffix}_scaling"), dtype=float)
-        worst_scaling.append(_nanmax_rows(np.abs(found - scaling)))
+        worst_scaling.append(compare.finite_maximum(compare.absolute_errors(found, scaling)))
         node.add(f"edge_zeros{suffix}_compared", np.isfinite(predicted).sum(axis=1),
                  f"number of zeros next to the {side} edge predicted inside the matching disc and compared")
         kind = model.attrs.get(f"edge_kind{suffix}", "soft")
         node.add(f"err_zeros_edge_{side}", worst_form[-1],
                  f"max over the zeros next to the {side} ({kind}) edge of |direct - predicted| (order 0)")
         reference = np.asarray(model.get(f"edge_model_zeros{suffix}"), dtype=float)[:m]
-        scale = reference[0] / (scaling[:, :1] - edge)  # c n^{2/3} (soft) or c n^2 (hard) implied by the prediction
         node.add(f"edge_model_zeros{suffix}", reference, "zeros of the model problem in the local variable "
                  "(Airy zeros a_j, or -j_{alpha,j}^2/4 at a hard edge)")
-        node.add(f"edge_scaled_direct{suffix}", scale * (found - edge),
+        # c n^{2/3} (soft) or c n^2 (hard) implied by the scaling prediction of the first zero
+        node.add(f"edge_scaled_direct{suffix}", compare.edge_scaled(found, scaling[:, :1], reference[0], edge),
                  f"c n^{{2/3}} (x_j - e) (soft) or c n^2 (x_j - e) (hard), e the {side} edge: direct zeros in "
                  "the scaling of the local variable")
     if worst_form:
-        node.add("err_zeros_edge", _nanmax_rows(np.array(worst_form).T),
+        node.add("err_zeros_edge", compare.finite_maximum(np.array(worst_form).T),
                  "max over the outer edges and their zeros of |direct - predicted| (Airy or Bessel form, order 0)")
-        node.add("err_zeros_edge_scaling", _nanmax_rows(np.array(worst_scaling).T),
+        node.add("err_zeros_edge_scaling", compare.finite_maximum(np.array(worst_scaling).T),
                  "max over the outer edges and their zeros of |direct - scaling prediction|")
     if model.has("gap_zeros") and gap_direct.shape[1]:
         predicted = np.asarray(model.get("gap_zeros"), dtype=float).reshape(gap_direct.shape)
         node.add("gap_zeros_model", predicted, "predicted zero in gap j (NaN: none)")
         both = np.isfinite(predicted) & np.isfinite(gap_direct)
-        err = np.where(both, np.abs(predicted - gap_direct), np.nan)
-        node.add("err_zeros_gap", np.array([np.nanmax(r) if np.isfinite(r).any() else np.nan
-                                            for r in err]),
+        err = np.where(both, compare.absolute_errors(predicted, gap_direct), np.nan)
+        node.add("err_zeros_gap", compare.finite_maximum(err),
                  "max over gaps of |gap zero direct - predicted| (where both exist)")
         node.add("gap_zero_presence_mismatch",
                  (np.isfinite(predicted) != np.isfinite(gap_direct)).sum(axis=1),
@@ -755,28 +686,14 @@ class _NeedMoreCoefficients(Exception):
 
 
 def _small_norm_check(pred, mu, n: int, circles: np.ndarray, radii: np.ndarray, g_on: np.ndarray):
-    """A function ``rc -> {radii, deviation}``: ``max |T M^{-1} - I|`` on each circle.
+    """A function ``rc -> {radii, deviation}``: ``max |T M^{-1} - I|`` on each circle (gfunction.small_norm)."""
+    from gfunction.small_norm import small_norm_deviation
 
-    ``T_ij = e^{s_i nℓ/2} Y_ij e^{-s_j n(g + ℓ/2)}``, ``s = (+1, -1)``; the
-    exponents are added to the log-scales of Y before exponentiating, so
-    nothing overflows (module docstring; DKMVZ 1999 §4).
-    """
     def check(rc) -> dict[str, np.ndarray]:
         Y = _orthogonality_matrix(rc, circles, n)
-        ell = float(mu.lagrange)
-        s = np.array([1.0, -1.0])
-        exponent = (Y.log_scale
-                    + (s[:, None, None, None] * n * ell / 2)
-                    - s[None, :, None, None] * n * (g_on[None, None] + ell / 2))
-        T = Y.mantissa * np.exp(exponent)
-        M = pred.model.evaluate(circles, pred.phases([n])[0])  # shape circles + (2, 2)
-        Minv = np.empty_like(M)
-        Minv[..., 0, 0], Minv[..., 1, 1] = M[..., 1, 1], M[..., 0, 0]
-        Minv[..., 0, 1], Minv[..., 1, 0] = -M[..., 0, 1], -M[..., 1, 0]
-        T = np.moveaxis(T, (0, 1), (-2, -1))
-        R = T @ Minv
-        dev = np.abs(R - np.eye(2)).max(axis=(-2, -1)).max(axis=-1)
-        return {"radii": radii, "deviation": dev, "det_error": Y.checks["det_error"]}
+        deviation = small_norm_deviation(circles, Y.mantissa, Y.log_scale, g_on, float(mu.lagrange), n,
+                                         pred.model, pred.phases([n])[0])
+        return {"radii": radii, "deviation": deviation.max(axis=-1), "det_error": Y.checks["det_error"]}
 
     return check
 

@@ -24,7 +24,7 @@ import pytest
 
 from workbench.case import parse_case
 from workbench.cli import main
-from workbench.pipeline import fit_rate, run_case
+from workbench.pipeline import run_case
 
 
 @pytest.fixture
@@ -41,20 +41,6 @@ def _case(tmp_path, text, name):
     path = tmp_path / name
     path.write_text(text)
     return path
-
-
-def test_fit_rate_matches_scipy_linregress():
-    from scipy.stats import linregress  # outside reference for OLS slope and its standard error
-
-    rng = np.random.default_rng(1)
-    n = np.array([10, 20, 40, 80, 160.0])
-    err = 3.0 * n ** -1.5 * np.exp(0.05 * rng.standard_normal(n.size))
-    fit = fit_rate(n, err)
-    ref = linregress(np.log(n), np.log(err))
-    assert fit.slope == pytest.approx(ref.slope, rel=1e-12)
-    assert fit.stderr == pytest.approx(ref.stderr, rel=1e-10)
-    assert fit.intercept == pytest.approx(ref.intercept, rel=1e-12)
-    assert np.isnan(fit_rate([10, 20], [1.0, 0.5]).stderr)  # two points: no standard error
 
 
 def test_gaussian_run_against_closed_forms(tmp_path, gauss_case):
