@@ -14,7 +14,7 @@ from gfunction import predictor
 from gfunction.small_norm import small_norm_deviation, small_norm_matrix
 from workbench.compare import fit_rate
 from workbench.polynomials import RecurrenceCoefficients, orthogonality_matrix, recurrence_coefficients
-from workbench.polynomials.weight import Weight
+from equilibrium.weight import Weight
 
 
 def test_examples_in_docstrings_hold():
