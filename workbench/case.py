@@ -120,6 +120,8 @@ SCHEMA: dict[str, dict[str, _Key]] = {
         "zeros": _Key((bool,), "compare zeros (bulk quantile rule, Airy edges, gaps)"),
         "band_counts": _Key((bool,), "count zeros per band against n mu(band)"),
         "small_norm": _Key((bool,), "Y(z) against the global parametrix on contours"),
+        "log_hankel": _Key((bool,), "the Hankel determinant log D_n of the direct side against its large-n "
+                          "expansion (gfunction.hankel)"),
         "rates": _Key((bool,), "fit log error = c + s log n with the standard error of s"),
         "contour_points": _Key((int,), "points on each contour of the small-norm check"),
         "contour_radius": _Key(_NUMBER, "radius of the circle around the support, relative to its half-width"),
@@ -272,6 +274,7 @@ class ComparisonSpec:
     zeros: bool = True
     band_counts: bool = True
     small_norm: bool = True
+    log_hankel: bool = True
     rates: bool = True
     contour_points: int = 64
     contour_radius: float = 1.5

@@ -63,6 +63,7 @@ ERROR_LABELS = {
     "err_zeros_edge": "zeros, edge",
     "err_zeros_gap": "zeros, gaps",
     "small_norm": r"$|TM^{-1} - I|$",
+    "err_log_hankel": r"$\log D_n$",
 }
 
 

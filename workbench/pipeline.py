@@ -17,6 +17,13 @@ Stages
    band, and rates fitted by least squares, all by the array functions of
    :mod:`workbench.compare` (the small-norm matrix by :mod:`gfunction.small_norm`).
 
+The Hankel determinant ``log D_n`` of ``w_n`` rides along: the direct stage forms it
+from the coefficients it computed anyway (:func:`workbench.polynomials.hankel_determinant`,
+``log_det`` attributes of ``/direct/n_XXXXX``), the model stage evaluates its large-n
+expansion (:func:`gfunction.hankel.hankel_expansion`, ``/model/log_hankel`` and each term
+in ``/model/log_hankel_terms``), and ``/comparison`` holds ``log_hankel_direct``,
+``log_hankel_model`` and ``err_log_hankel`` with its rate (``[comparisons] log_hankel``).
+
 The run tree (:class:`workbench.results.Group`) is written atomically to
 one HDF5 file, then the figures are drawn from that tree alone.
 
@@ -56,7 +63,8 @@ __all__ = ["RunOutcome", "run_case", "ERROR_QUANTITIES"]
 
 #: error quantities of /comparison that get a fitted rate
 ERROR_QUANTITIES = ("err_a", "err_b", "err_values", "err_zeros_bulk", "err_zeros_edge", "err_zeros_edge_right",
-                    "err_zeros_edge_left", "err_zeros_edge_scaling", "err_zeros_gap", "small_norm")
+                    "err_zeros_edge_left", "err_zeros_edge_scaling", "err_zeros_gap", "small_norm",
+                    "err_log_hankel")
 
 #: zeros next to each outer edge compared with the Airy (soft) or Bessel (hard) prediction
 EDGE_ZEROS = 5
@@ -123,7 +131,7 @@ def equilibrium_group(mu, case: Case) -> Group:
 
 def direct_group(case: Case, weight, n: int, mu, model_at_n: Mapping[str, Any] | None) -> Group:
     """Direct polynomials at one n: coefficients, zeros, values, and Y on the contours."""
-    from workbench.polynomials import recurrence_coefficients, weighted_values, zeros
+    from workbench.polynomials import hankel_determinant, recurrence_coefficients, weighted_values, zeros
 
     count = n + case.polynomials.extra_degrees
     small_norm = case.comparisons.small_norm and model_at_n is not None and "small_norm" in model_at_n
@@ -141,6 +149,10 @@ def direct_group(case: Case, weight, n: int, mu, model_at_n: Mapping[str, Any] |
         "checks": {k: float(v) for k, v in dict(rc.checks).items()},
         "log_mass": float(rc.log_mass),
     })
+    # log D_n = n log h_0 + sum 2(n-k) log a_k from these coefficients (and their second discretisation)
+    det = hankel_determinant(weight, coefficients=rc, on_failure="mark")
+    node.attrs.update({"log_det": float(det.log_det), "log_det_error_estimate": float(det.error_estimate),
+                       "log_det_verified": bool(det.verified)})
     node.add("a", rc.a, "a_k^{(n)}, k = 0..K (a[0] = 0); x p_k = a_{k+1} p_{k+1} + b_k p_k + a_k p_{k-1}")
     node.add("b", rc.b, "b_k^{(n)}, k = 0..K")
     roots = zeros(rc, n)
@@ -232,6 +244,7 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
                  "(model form times the direct gamma_n)")
         node.add("err_values", np.max(compare.absolute_errors(values, predicted), axis=1),
                  "max over the bulk points of |p_n w^{1/2} direct - model|")
+    _log_hankel_comparison(node, direct, ns, model, case)
     if all(d.has("small_norm") for d in direct) and case.comparisons.small_norm:
         node.add("small_norm", np.array([np.max(d.get("small_norm")) for d in direct]),
                  "max over the circles of |T M^{-1} - I| (should be O(1/n))")
@@ -243,12 +256,16 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
             if node.has(key):
                 err = np.asarray(node.get(key), dtype=float)
                 # errors at rounding level carry no rate: they are left out of the fit
-                fit = compare.fit_rate(ns, err, floor=floor)
+                key_floor = floor
+                if key == "err_log_hankel":
+                    # log D_n is of size n^2: its floor is the direct error estimate (rounding of the sum)
+                    key_floor = max(floor, 2.0 * float(np.max(node.get("log_hankel_error_estimate"))))
+                fit = compare.fit_rate(ns, err, floor=key_floor)
                 entry = rates.group(key)
                 if not np.isfinite(err).any():
                     entry.attrs["note"] = "nothing to compare at any n"
-                elif not np.any(err > floor):
-                    entry.attrs["note"] = f"all errors below {floor:.1e} (rounding level)"
+                elif not np.any(err > key_floor):
+                    entry.attrs["note"] = f"all errors below {key_floor:.1e} (rounding level)"
                 # max n·error bounded shows O(1/n) where the coefficient is quasi-periodic in n
                 # (compare.scaled_maximum)
                 entry.attrs.update({
@@ -260,6 +277,32 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
                                    "max_n_times_error bounded means O(1/n) with a quasi-periodic coefficient",
                 })
     return node
+
+
+def _log_hankel_comparison(node: Group, direct: Sequence[Group], ns: np.ndarray, model: Group,
+                           case: Case) -> None:
+    """``log_hankel_direct`` (always, for formulas and notebooks), and against ``/model/log_hankel``
+    ``log_hankel_model`` and ``err_log_hankel = |log D_n direct - expansion|``."""
+    from workbench.polynomials.hankel import log_det_from_coefficients
+
+    values, estimates = [], []
+    for d, n in zip(direct, ns):
+        if "log_det" in d.attrs:
+            values.append(float(d.attrs["log_det"]))
+            estimates.append(float(d.attrs["log_det_error_estimate"]))
+        else:   # partial results of an earlier version: the sum from the stored coefficients
+            values.append(log_det_from_coefficients(d.get("a"), float(d.attrs["log_mass"]), int(n)))
+            estimates.append(np.nan)
+    node.add("log_hankel_direct", np.array(values), "log D_n of w_n = exp(-nV) h from the norms of the "
+             "direct polynomials, n log h_0 + sum_k 2(n-k) log a_k (workbench.polynomials.hankel)")
+    node.add("log_hankel_error_estimate", np.array(estimates),
+             "error estimate of log_hankel_direct: second discretisation plus rounding of the sum (NaN: "
+             "not recorded by the partial result reused)")
+    if model.has("log_hankel") and case.comparisons.log_hankel:
+        predicted = np.asarray(model.get("log_hankel"), dtype=float)
+        node.add("log_hankel_model", predicted, "log D_n from its large-n expansion (gfunction.hankel)")
+        node.add("err_log_hankel", compare.absolute_errors(values, predicted),
+                 "|log D_n direct - expansion| (every term known for the weight, /model/log_hankel_terms)")
 
 
 def _n_list(ns: np.ndarray, limit: int = 8) -> str:
@@ -294,6 +337,9 @@ def comparison_notes(tree: Group, case: Case) -> tuple[list[str], list[str]]:
     if wanted.small_norm and not comp.has("small_norm"):
         notes.append("small-norm check not made: " + str(model.attrs.get(
             "small_norm_skipped", "the model side gave no outer parametrix on the circles")))
+    if wanted.log_hankel and not comp.has("err_log_hankel"):
+        notes.append("log D_n not compared with its expansion: " + str(model.attrs.get(
+            "log_hankel_skipped", "the model side gave no expansion")))
     if wanted.zeros and not comp.has("err_zeros_edge"):
         notes.append("edge zeros not compared: " + str(model.attrs.get(
             "edge_zeros_skipped", model.attrs.get("edge_zeros_left_skipped", "the model side gave no edge zeros"))))
@@ -613,6 +659,9 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
                  "zeros of the model problem in the local variable: Airy zeros a_j (scipy.special.ai_zeros) "
                  "at a soft edge, -j_{alpha,j}^2/4 (Bessel zeros j_{alpha,j}) at a hard edge")
 
+    if case.comparisons.log_hankel:
+        unverified += _log_hankel_model(node, mu, factors or (), ns_arr)
+
     bulk = [np.asarray(pred.bulk_zeros(int(n)), dtype=float) for n in ns_arr]
     width = max([b.size for b in bulk] + [1])
     padded = np.full((len(bulk), width), np.nan)
@@ -667,6 +716,32 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     node.attrs["verified"] = not unverified
     node.attrs["message"] = "; ".join(unverified) or "none"
     return ModelSide(node, helpers)
+
+
+def _log_hankel_model(node: Group, mu, factors, ns: np.ndarray) -> list[str]:
+    """``/model/log_hankel``: the expansion of log D_n at the run's n, each term, its sources."""
+    import json
+
+    from gfunction.hankel import TERM_LABELS, hankel_expansion
+
+    try:
+        expansion = hankel_expansion(mu, factors, on_failure="mark")
+    except InputError as exc:   # outside the formulas: said in the notes, not a failure
+        node.attrs["log_hankel_skipped"] = str(exc)
+        return []
+    node.add("log_hankel", expansion.log_det(ns),
+             f"log D_n from its large-n expansion ({expansion.regime}; gfunction.hankel)")
+    terms = node.group("log_hankel_terms")
+    terms.attrs.update({"description": "each term of the expansion of log D_n at the n of /model/n "
+                                       "(their sum is /model/log_hankel)",
+                        "regime": expansion.regime,
+                        "coefficients": json.dumps(dict(expansion.coefficients)),
+                        "constant_parts": json.dumps(dict(expansion.constant_parts)),
+                        "sources": json.dumps(dict(expansion.sources)),
+                        "checks": dict(expansion.checks)})
+    for name, value in expansion.terms(ns).items():
+        terms.add(name, value, TERM_LABELS.get(name, name))
+    return [] if expansion.verified else [f"log D_n expansion: {expansion.message}"]
 
 
 def _orthogonality_matrix(rc, z, n: int):

@@ -36,7 +36,8 @@ OKABE_ITO = {
 
 #: cycle used for series: blue, vermillion, bluish green, orange, purple, sky blue, black
 SERIES = ("#0072B2", "#D55E00", "#009E73", "#E69F00", "#CC79A7", "#56B4E9", "#000000")
-MARKERS = ("o", "s", "^", "D", "v", "P", "X")
+#: one more marker than colours: the eighth series (blue again) is told apart by its star
+MARKERS = ("o", "s", "^", "D", "v", "P", "X", "*")
 DASHES = ("-", "--", "-.", ":", (0, (5, 1)), (0, (3, 1, 1, 1, 1, 1)), (0, (1, 1)))
 
 COLUMN_WIDTH_IN = 3.4

@@ -84,7 +84,7 @@ def summary_lines(tree, name: str = "") -> list[str]:
                    ("err_a", "|err a_n|"), ("err_b", "|err b_n|"), ("err_values", "err p_n"),
                    ("err_zeros_bulk", "err bulk"), ("err_zeros_edge", "err edge"),
                    ("err_zeros_gap", "err gap"), ("band_count_mismatch", "count miss"),
-                   ("small_norm", "small-norm")]
+                   ("small_norm", "small-norm"), ("err_log_hankel", "err log Dn")]
         columns = [(k, t) for k, t in columns if comp.has(k)]
         lines.append("  " + "".join(f"{t:>11}" for _, t in columns))
         data = [np.asarray(comp.get(k)) for k, _ in columns]
