@@ -57,14 +57,14 @@ def parse_end(text: str, default: float, where: str = "end") -> float:
         return -math.inf
     if not _NUMBER.fullmatch(token):
         raise InputError(f"set {where}: {token!r} is not a number; write intervals as a:b,c:d "
-                         "with plain decimal numbers (e.g. -1:1,2:3)")
+                         "with plain decimal numbers (e.g. -1:1,2:3)", about="set")
     value = float(token)
     if not math.isfinite(value):
         raise InputError(f"set {where}: {token!r} is not finite in double precision; "
-                         "use an empty end or inf for an unbounded side")
+                         "use an empty end or inf for an unbounded side", about="set")
     if value == 0.0 and any(c in "123456789" for c in token.lower().partition("e")[0]):
         raise InputError(f"set {where}: {token!r} underflows to 0 in double precision; "
-                         "use numbers above 2.3e-308 in magnitude")
+                         "use numbers above 2.3e-308 in magnitude", about="set")
     return value
 
 
@@ -81,30 +81,32 @@ class IntervalSet:
         cleaned: list[tuple[float, float]] = []
         for item in intervals:
             if len(item) != 2:
-                raise InputError(f"an interval needs two ends, got {tuple(item)!r}")
+                raise InputError(f"an interval needs two ends, got {tuple(item)!r}", about="set")
             a, b = float(item[0]), float(item[1])
             if math.isnan(a) or math.isnan(b):
-                raise InputError("an interval end is NaN; give finite numbers or inf")
+                raise InputError("an interval end is NaN; give finite numbers or inf", about="set")
             if not a < b:
                 raise InputError(
                     f"interval {_fmt(a)}:{_fmt(b)} is reversed or empty; write the smaller end first (e.g. {_fmt(min(a, b))}:{_fmt(max(a, b))})"
                     if a != b
-                    else f"interval {_fmt(a)}:{_fmt(b)} is a single point; give a < b"
+                    else f"interval {_fmt(a)}:{_fmt(b)} is a single point; give a < b",
+                    about="set",
                 )
             cleaned.append((a, b))
         if not cleaned:
-            raise InputError("the set is empty; give at least one interval a:b")
+            raise InputError("the set is empty; give at least one interval a:b", about="set")
         cleaned.sort()
         for (a0, b0), (a1, b1) in zip(cleaned, cleaned[1:]):
             if a1 <= b0:
                 raise InputError(
-                    f"intervals {_fmt(a0)}:{_fmt(b0)} and {_fmt(a1)}:{_fmt(b1)} overlap or touch; merge them into one interval"
+                    f"intervals {_fmt(a0)}:{_fmt(b0)} and {_fmt(a1)}:{_fmt(b1)} overlap or touch; merge them into one interval",
+                    about="set",
                 )
         for k, (a, b) in enumerate(cleaned):
             if (a == -math.inf and k != 0) or (b == math.inf and k != len(cleaned) - 1):
-                raise InputError("only the outer ends of the set may be infinite")
+                raise InputError("only the outer ends of the set may be infinite", about="set")
             if a == math.inf or b == -math.inf:
-                raise InputError("an interval cannot start at +inf or end at -inf")
+                raise InputError("an interval cannot start at +inf or end at -inf", about="set")
         object.__setattr__(self, "intervals", tuple(cleaned))
 
     # -- constructors ---------------------------------------------------
@@ -116,19 +118,20 @@ class IntervalSet:
     def parse(cls, text: str) -> "IntervalSet":
         """Parse ``a:b,c:d`` (see the module docstring)."""
         if not isinstance(text, str) or text.strip() == "":
-            raise InputError("empty set; write intervals as a:b,c:d (e.g. -1:1 or 0: for [0, inf))")
+            raise InputError("empty set; write intervals as a:b,c:d (e.g. -1:1 or 0: for [0, inf))", about="set")
         if len(text) > 2000:
-            raise InputError("the set text is longer than 2000 characters")
+            raise InputError("the set text is longer than 2000 characters", about="set")
         for column, char in enumerate(text, start=1):
             if not char.isascii() or (not char.isprintable() and char not in " \t"):
                 raise InputError(f"character {char!r} (U+{ord(char):04X}) at column {column} of the set is "
-                                 "not allowed; write the set in ASCII as a:b,c:d (e.g. -1:1,2:3)")
+                                 "not allowed; write the set in ASCII as a:b,c:d (e.g. -1:1,2:3)", about="set")
         pieces = [p for p in text.split(",")]
         intervals = []
         for k, piece in enumerate(pieces, start=1):
             if piece.count(":") != 1:
                 raise InputError(
-                    f"set piece {k} {piece.strip()!r} must look like a:b (an empty end means infinity, e.g. 0:)"
+                    f"set piece {k} {piece.strip()!r} must look like a:b (an empty end means infinity, e.g. 0:)",
+                    about="set",
                 )
             left, right = piece.split(":")
             a = parse_end(left, -math.inf, f"piece {k}")
