@@ -368,8 +368,7 @@ def _refuse_interior_singularities(pr) -> None:
     D = pr.szego
     if D is None:
         return
-    edges = set(pr.g.edge_points)
-    inside = [c for c, _ in D.points if c not in edges]
+    inside = D.interior_points
     if inside:
         raise InputError(
             f"corrections beyond leading order need a local parametrix at every singular point of the "

@@ -102,7 +102,7 @@ from equilibrium.verification import failure_message, failure_policy, float_chec
 from equilibrium.radical import sqrt_R
 from equilibrium.weight import Factor
 
-__all__ = ["SzegoFunction", "szego_function", "chebyshev_cauchy"]
+__all__ = ["SzegoFunction", "szego_function", "chebyshev_cauchy", "interior_singular_points"]
 
 _LIFT = 1e-300
 _MAX_NODES = 4096
@@ -179,6 +179,11 @@ class SzegoFunction:
     @property
     def genus(self) -> int:
         return len(self.support) - 1
+
+    @property
+    def interior_points(self) -> tuple[float, ...]:
+        """The singular points of ``h`` inside a band, not at an edge (:func:`interior_singular_points`)."""
+        return _inside_bands(self.points, self.support)
 
     def log_h(self, x) -> np.ndarray:
         """``log h(x)`` at real ``x`` (all factors)."""
@@ -300,6 +305,27 @@ def _singular_on_support(factors, support) -> tuple:
                     c = e
             merged[c] = merged.get(c, 0.0) + p
     return tuple(sorted((c, p) for c, p in merged.items() if p != 0.0))
+
+
+def _inside_bands(points, support) -> tuple[float, ...]:
+    edges = {e for ab in support for e in ab}
+    return tuple(c for c, _ in points if c not in edges)
+
+
+def interior_singular_points(factors: Sequence[Factor], support) -> tuple[float, ...]:
+    """The singular points ``c`` of ``h = ∏ factors`` strictly inside a band of ``support``.
+
+    A point ``c`` of :attr:`Factor.singular_points` (``h ~ |x - c|^p``, e.g. a
+    Fisher–Hartwig root ``|x - c|^{2γ}`` from ``kind = fisher_hartwig`` or from the
+    expression ``abs(x - c)^p``) counts once the factors are merged and points within
+    a relative ``1e-12`` of an edge are moved onto it (there it is a Jacobi-type end,
+    handled by the Bessel parametrix).  At an interior point the local parametrix
+    is the confluent hypergeometric one, which is not implemented: the corrections
+    beyond leading order (``gfunction.series``, ``gfunction.residual``) assume ``h``
+    smooth inside the bands and refuse such a factor.
+    """
+    support = tuple((float(a), float(b)) for a, b in support)
+    return _inside_bands(_singular_on_support(tuple(factors), support), support)
 
 
 def szego_function(factors: Sequence[Factor], support, *, harmonic=None, tolerance: float = 1e-11,

@@ -26,17 +26,23 @@ _QUANTITIES = ("a", "b")
 
 
 def check_model_request(case, mu) -> None:
-    """Refuse, before anything is written, orders ≥ 1 or the residual method with a
-    Fisher–Hartwig point inside a band (no local parametrix there; ``gfunction.residual``)."""
+    """Refuse, before anything is written, orders ≥ 1 or the residual method with a singular
+    point of the factor inside a band (no local parametrix there;
+    :func:`gfunction.szego.interior_singular_points`), whether the factor is given as
+    ``kind = "fisher_hartwig"`` or as an expression such as ``abs(x-0.2)^0.8``."""
     spec = case.model
-    if (spec.order == 0 and spec.method == "series") or case.factor.kind != "fisher_hartwig":
+    if (spec.order == 0 and spec.method == "series") or case.factor.is_one:
         return
-    c = float(case.factor.c)
-    if any(a < c < b for a, b in mu.support):
+    from gfunction.szego import interior_singular_points
+
+    factors = case.factor.build(case.build_set(), case.field.parameters)
+    inside = interior_singular_points(factors, mu.support)
+    if inside:
+        points = ", ".join(f"c = {c:g}" for c in inside)
+        which = f"point {points} lies" if len(inside) == 1 else f"points {points} lie"
         raise InputError(f"{case.source}: [model] order = {spec.order}, method = {spec.method!r} need a local "
-                         f"parametrix at every singular point of the factor; the Fisher–Hartwig point c = {c:g} "
-                         "lies inside a band and has none (the confluent hypergeometric parametrix is not "
-                         "implemented): use order = 0 with method = \"series\"")
+                         f"parametrix at every singular point of the factor; the Fisher–Hartwig {which} inside a band and has none (the confluent hypergeometric parametrix "
+                         "is not implemented): use order = 0 with method = \"series\"")
 
 
 def model_orders(case, pred, ns: np.ndarray, node) -> list[str]:

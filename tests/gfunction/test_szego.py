@@ -6,8 +6,8 @@ import mpmath
 
 from equilibrium import Field, IntervalSet, solve
 from gfunction import predictor
-from gfunction.szego import chebyshev_cauchy, szego_function
-from equilibrium.weight import Weight, parse_factor
+from gfunction.szego import chebyshev_cauchy, interior_singular_points, szego_function
+from equilibrium.weight import PowerFactor, Weight, parse_factor
 from workbench.polynomials import recurrence_coefficients
 
 THREE = [(-3.0, -2.1), (-1.0, 0.5), (1.1, 2.9)]
@@ -103,3 +103,18 @@ def test_factor_against_direct_coefficients():
     a0 = predictor(mu).recurrence([800], [800]).a
     rc = recurrence_coefficients(Weight(field, 800, factors=fac), 801, measure=mu)
     assert abs(rc.a[800] - a0[0]) > 0.05
+
+
+def test_interior_singular_points_whatever_the_spelling_of_the_factor():
+    """A root |x - c|^{2γ} is one singular point whether built as PowerFactor (kind = fisher_hartwig)
+    or read from the expression abs(x - c)^p; inside a band it is interior, at an edge (within 1e-12
+    relative) it is an end, outside the support it does not count."""
+    line = IntervalSet.real_line()
+    bands = ((-2.0, -1.0), (1.0, 2.0))
+    assert interior_singular_points((PowerFactor(c=1.5, gamma=0.4),), bands) == (1.5,)
+    assert interior_singular_points(parse_factor("abs(x-1.5)^0.8", {}, line), bands) == (1.5,)
+    assert interior_singular_points(parse_factor("abs(x-1.5)^0.8*abs(x+1.2)^0.3", {}, line), bands) == (-1.2, 1.5)
+    assert interior_singular_points(parse_factor("abs(x-2)^0.8", {}, line), bands) == ()
+    assert interior_singular_points((PowerFactor(c=2.0 + 1e-13, gamma=0.4),), bands) == ()
+    assert interior_singular_points(parse_factor("abs(x)^0.8", {}, line), bands) == ()      # in the gap
+    assert interior_singular_points(parse_factor("exp(x)", {}, line), bands) == ()

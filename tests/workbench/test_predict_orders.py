@@ -56,3 +56,16 @@ def test_residual_method_small_n_is_marked(capsys):
                  "--method", "residual"])
     out = capsys.readouterr()
     assert code == 3 and "neglected lens and gap jumps" in out.err and "20" in out.out
+
+
+def test_a_root_inside_the_band_is_refused_beyond_leading_order(capsys):
+    """|x - 0.2|^0.8 (a Fisher–Hartwig root) inside the band of x²/2: order 0 runs; orders 1, 2 and
+    the residual method would need the confluent hypergeometric parametrix there and are refused
+    with one line (gfunction.szego.interior_singular_points)."""
+    base = ["predict", "--potential", "x^2/2", "--factor", "abs(x-0.2)^0.8", "--degrees", "10:12"]
+    assert main(base) == 0
+    capsys.readouterr()
+    for extra in (["--order", "1"], ["--order", "2"], ["--method", "residual"]):
+        assert main(base + extra) == 2
+        err = capsys.readouterr().err.strip()
+        assert len(err.splitlines()) == 1 and "0.2 inside a band" in err, err

@@ -8,9 +8,11 @@ at -1 with β = 0.3, a soft edge at 1/3, one band, so the correction constants d
 import numpy as np
 import pytest
 
+from equilibrium import solve
 from equilibrium.errors import InputError
 from workbench.case import parse_case
 from workbench.figures import draw_errors
+from workbench.orders import check_model_request
 from workbench.pipeline import run_case
 from workbench.results import read_run
 
@@ -69,6 +71,25 @@ def test_model_table_refusals(tmp_path):
         parse_case(CASE.replace('method = "residual"', 'method = "all"'))
     fh = CASE.replace('expression = "3*x"', 'expression = "x**2/2"').replace('intervals = "-1:1"', 'intervals = "-5:5"')
     fh = fh.replace('kind = "jacobi"\nalpha = 0.5\nbeta = 0.3', 'kind = "fisher_hartwig"\nc = 0.3\ngamma = 0.5')
-    with pytest.raises(InputError, match="Fisher–Hartwig point c = 0.3 lies inside a band"):
+    with pytest.raises(InputError, match="Fisher–Hartwig point c = 0.3 lies inside a band") as kind_error:
         run_case(parse_case(fh), tmp_path / "fh", progress=False)
     assert not (tmp_path / "fh").exists()
+    # the same root written as a [factor] expression is the same factor and refused the same way,
+    # for the series at order 1 and 2 and for the residual method, before anything is written
+    fh_expression = fh.replace('kind = "fisher_hartwig"\nc = 0.3\ngamma = 0.5', 'expression = "abs(x-0.3)^1.0"')
+    assert 'expression = "abs(x-0.3)^1.0"' in fh_expression
+    with pytest.raises(InputError) as expression_error:
+        run_case(parse_case(fh_expression), tmp_path / "fhx", progress=False)
+    assert str(expression_error.value) == str(kind_error.value)
+    assert not (tmp_path / "fhx").exists()
+    for model in ('order = 1\nmethod = "series"', 'order = 0\nmethod = "residual"'):
+        text = fh_expression.replace('order = 2\nmethod = "residual"', model)
+        assert model in text
+        with pytest.raises(InputError, match="c = 0.3 lies inside a band"):
+            run_case(parse_case(text), tmp_path / "fhx", progress=False)
+        assert not (tmp_path / "fhx").exists()
+    # a root at an end of the band is a Jacobi-type end (Bessel parametrix), not refused here
+    edge = parse_case(fh_expression.replace("abs(x-0.3)", "abs(x-1)").replace('"-5:5"', '"-1:1"'))
+    mu = solve(edge.build_field(), edge.build_set())
+    assert mu.support == ((-1.0, 1.0),)
+    check_model_request(edge, mu)
