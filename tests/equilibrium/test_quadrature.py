@@ -51,6 +51,34 @@ def test_gauss_jacobi_is_exact_to_degree_2n_minus_1(alpha, beta):
     assert np.sum(w * np.prod(t[:, None] - t[None, :], axis=1) ** 2) == 0.0
 
 
+@pytest.mark.parametrize("alpha,beta", [(0.3, -0.7), (1.5, 0.25), (-0.5, 0.5)])
+def test_gauss_jacobi_against_scipy_and_mpmath(alpha, beta):
+    """n = 60: nodes against scipy.special.roots_jacobi; weights against the closed form
+    w_i = 2^{α+β+1} Γ(n+α+1) Γ(n+β+1) / (Γ(n+α+β+1) n! (1 - x_i²) P_n'(x_i)²) (Abramowitz & Stegun
+    25.4.33) in 40-digit mpmath, with P_n' = (n+α+β+1)/2 P_{n-1}^{(α+1,β+1)} (DLMF 18.9.15) at the
+    Newton-polished node.  Measured: ours within 7e-14 of the closed form, scipy's weights 4.7e-12
+    from it (so the comparison with scipy's weights is at its accuracy, 1e-11)."""
+    from scipy.special import roots_jacobi
+
+    n = 60
+    t, w = gauss_jacobi(n, alpha, beta)
+    ref_t, ref_w = roots_jacobi(n, alpha, beta)
+    assert np.max(np.abs(t - ref_t)) <= 1e-15
+    assert np.max(np.abs(w - ref_w) / ref_w) <= 1e-11
+    with mpmath.workdps(40):
+        a, b = mpmath.mpf(alpha), mpmath.mpf(beta)
+        G = 2 ** (a + b + 1) * mpmath.gamma(n + a + 1) * mpmath.gamma(n + b + 1) / (
+            mpmath.gamma(n + a + b + 1) * mpmath.factorial(n))
+        for i in range(0, n, 6):
+            x = mpmath.mpf(t[i])
+            for _ in range(3):
+                x -= mpmath.jacobi(n, a, b, x) / ((n + a + b + 1) / 2 * mpmath.jacobi(n - 1, a + 1, b + 1, x))
+            slope = (n + a + b + 1) / 2 * mpmath.jacobi(n - 1, a + 1, b + 1, x)
+            exact = G / ((1 - x * x) * slope * slope)
+            assert abs(float(x - mpmath.mpf(t[i]))) <= 4e-16
+            assert abs(float((exact - mpmath.mpf(w[i])) / exact)) <= 2e-13
+
+
 def test_one_cache_for_legendre():
     """Gauss–Jacobi with α = β = 0 is the Gauss–Legendre rule of the angular panels, not a copy."""
     assert gauss_jacobi(17, 0.0, 0.0) is gauss_legendre(17)
