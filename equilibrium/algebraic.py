@@ -81,7 +81,7 @@ class Window:
         from the origin compared with its width: z - e = ζ - (e - c).
         """
         zeta = self.ellipse.zeta[self.ellipse.upper_half]
-        local = structure.ends - self.dV.center
+        local = structure.ends - self.dV.centre
         return zeta, sqrt_R(zeta, local) / _product_of_differences(zeta, local[structure.hard]), local
 
 
@@ -251,7 +251,7 @@ def gap_quadrature(window: Window, structure: BandStructure, gap: int, count: in
     rule = gap_rule(structure, gap, panel_points(count - 1))
     weight = gap_weight(rule, structure, gap) * rule.weights
     # t at the nodes from t(lo) and x - lo: no digits lost when the window is far from 0
-    t = (rule.lo - window.dV.center) / window.dV.half_width + rule.from_lo / window.dV.half_width
+    t = (rule.lo - window.dV.centre) / window.dV.half_width + rule.from_lo / window.dV.half_width
     return GapQuadrature(rule, weight, float(np.sum(np.abs(weight))), C.chebvander(t, count - 1))
 
 

@@ -66,8 +66,28 @@ def real_roots(coefficients: np.ndarray, t_lo: float, t_hi: float, imaginary_tol
     return roots[(roots > t_lo) & (roots < t_hi)]
 
 
+class IntervalMap:
+    """The affine map t = (x - c)/d of J = [lower, upper] onto [-1, 1] (c the centre, d the
+    half-width); shared by :class:`ChebyshevApproximation` and
+    :class:`equilibrium.ellipse.JoukowskiEllipse`, which both have ``lower`` and ``upper``."""
+
+    lower: float
+    upper: float
+
+    @property
+    def centre(self) -> float:
+        return 0.5 * (self.lower + self.upper)
+
+    @property
+    def half_width(self) -> float:
+        return 0.5 * (self.upper - self.lower)
+
+    def to_t(self, x):
+        return (np.asarray(x) - self.centre) / self.half_width
+
+
 @dataclass(frozen=True)
-class ChebyshevApproximation:
+class ChebyshevApproximation(IntervalMap):
     """f(x) ≈ Σ c_m T_m(t(x)) on [lower, upper].
 
     Attributes
@@ -84,19 +104,8 @@ class ChebyshevApproximation:
     exact: bool
 
     @property
-    def center(self) -> float:
-        return 0.5 * (self.lower + self.upper)
-
-    @property
-    def half_width(self) -> float:
-        return 0.5 * (self.upper - self.lower)
-
-    @property
     def degree(self) -> int:
         return len(self.coefficients) - 1
-
-    def to_t(self, x):
-        return (np.asarray(x) - self.center) / self.half_width
 
     def __call__(self, x):
         return C.chebval(self.to_t(x), self.coefficients)
@@ -125,10 +134,10 @@ def chebyshev_fit(
     doubles from 33 until the last eighth of the coefficients is below
     ``tolerance`` times the largest, and the tail is chopped.
     """
-    center, half = 0.5 * (lower + upper), 0.5 * (upper - lower)
+    centre, half = 0.5 * (lower + upper), 0.5 * (upper - lower)
 
     def sample(n: int) -> np.ndarray:
-        x = center + half * chebyshev_points(n)
+        x = centre + half * chebyshev_points(n)
         with np.errstate(all="ignore"):
             values = np.asarray(function(x))
         if np.iscomplexobj(values):

@@ -28,9 +28,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .chebyshev import IntervalMap
+
 
 @dataclass(frozen=True)
-class JoukowskiEllipse:
+class JoukowskiEllipse(IntervalMap):
     """Sample points on the ellipse |u| = ρ around [lower, upper]."""
 
     lower: float
@@ -43,17 +45,9 @@ class JoukowskiEllipse:
     zeta: np.ndarray  # z - centre, formed without cancellation (the window may lie far from 0)
 
     @property
-    def center(self) -> float:
-        return 0.5 * (self.lower + self.upper)
-
-    @property
-    def half_width(self) -> float:
-        return 0.5 * (self.upper - self.lower)
-
-    @property
     def real_crossing(self) -> float:
         """The point where the ellipse crosses the real axis right of J."""
-        return self.center + self.half_width * 0.5 * (self.rho + 1 / self.rho)
+        return self.centre + self.half_width * 0.5 * (self.rho + 1 / self.rho)
 
     @property
     def upper_half(self) -> slice:
@@ -101,7 +95,7 @@ class JoukowskiEllipse:
 
     def u_of_z(self, z: np.ndarray) -> np.ndarray:
         """Inverse map onto |u| ≥ 1 (the exterior branch)."""
-        t = (np.asarray(z, dtype=complex) - self.center) / self.half_width
+        t = self.to_t(np.asarray(z, dtype=complex))
         root = np.sqrt(t - 1) * np.sqrt(t + 1)  # branch ~ t at infinity, cut on [-1, 1]
         return t + root
 
@@ -117,9 +111,9 @@ def ellipse_for(lower: float, upper: float, degree: int, bands: int) -> Joukowsk
     rho = 1.0 + 1.0 / spread
     size = 1 << max(7, math.ceil(math.log2(max(36.0 / math.log(rho), 4.0 * spread))))
     u = rho * np.exp(2j * np.pi * np.arange(size) / size)
-    center, half = 0.5 * (lower + upper), 0.5 * (upper - lower)
+    centre, half = 0.5 * (lower + upper), 0.5 * (upper - lower)
     zeta = half * 0.5 * (u + 1 / u)
-    z = center + zeta
+    z = centre + zeta
     dz_du = half * 0.5 * (1 - u ** -2)
     for array in (u, z, dz_du, zeta):
         array.setflags(write=False)

@@ -211,7 +211,7 @@ class EquilibriumMeasure:
         mass = 0.0
         for j, (a, b) in enumerate(self.support):
             t_a, t_b = float(self._window.t(a)), float(self._window.t(b))
-            roots = self._window.dV.center + self._window.dV.half_width * real_roots(self._state.h, t_a, t_b)
+            roots = self._window.dV.centre + self._window.dV.half_width * real_roots(self._state.h, t_a, t_b)
             ends = np.concatenate([[a], roots, [b]])
             middles = 0.5 * (ends[:-1] + ends[1:])
             negative = self._regular_part(j, middles) < 0
@@ -708,7 +708,7 @@ class _Pieces:
                 points=self.points,
             )
         a1 = e[0]
-        X_left = ellipse.center - ellipse.half_width * 0.5 * (ellipse.rho + 1 / ellipse.rho)
+        X_left = ellipse.centre - ellipse.half_width * 0.5 * (ellipse.rho + 1 / ellipse.rho)
         left_end = max(X_left, sigma_lo)
         if left_end >= a1:
             return None
@@ -830,7 +830,7 @@ def _real_zeros_of_h(measure: EquilibriumMeasure) -> np.ndarray | None:
     if len(coefficients) > COLLEAGUE_MAX:
         return None
     roots = real_roots(coefficients, -_TRUSTED_T, _TRUSTED_T, imaginary_tolerance=1e-8)
-    return measure._window.dV.center + measure._window.dV.half_width * roots
+    return measure._window.dV.centre + measure._window.dV.half_width * roots
 
 
 def _critical_points(measure: EquilibriumMeasure, critical: np.ndarray | None, lo: float, hi: float) -> np.ndarray:
@@ -842,7 +842,7 @@ def _critical_points(measure: EquilibriumMeasure, critical: np.ndarray | None, l
     if t_lo >= t_hi:
         return np.zeros(0)
     roots = real_roots(measure._state.h, t_lo, t_hi, samples=2001)
-    return window.dV.center + window.dV.half_width * roots
+    return window.dV.centre + window.dV.half_width * roots
 
 
 def _off_support_regions(measure: EquilibriumMeasure) -> list[tuple[float, float]]:
@@ -854,7 +854,7 @@ def _off_support_regions(measure: EquilibriumMeasure) -> list[tuple[float, float
     ellipse = measure._window.ellipse
     span = window_hi - window_lo
     right_cut = max(window_hi, ellipse.real_crossing) + 2 * span
-    left_cut = min(window_lo, 2 * ellipse.center - ellipse.real_crossing) - 2 * span
+    left_cut = min(window_lo, 2 * ellipse.centre - ellipse.real_crossing) - 2 * span
     pieces = measure.complement()
     gaps = [(lo, hi) for lo, hi in pieces if lo >= e[0] and hi <= e[-1]]
     right = [(lo, min(hi, right_cut)) for lo, hi in pieces if lo >= e[-1] and lo < right_cut]

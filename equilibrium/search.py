@@ -142,11 +142,11 @@ def _initial_window(field: Field, on: IntervalSet) -> tuple[float, float]:
     lo, hi = on.hull
     if math.isfinite(lo) and math.isfinite(hi):
         return lo, hi
-    center = lo if math.isfinite(lo) else (hi if math.isfinite(hi) else 0.0)
+    centre = lo if math.isfinite(lo) else (hi if math.isfinite(hi) else 0.0)
     R = 4.0
     while True:
-        grid_lo = lo if math.isfinite(lo) else center - R
-        grid_hi = hi if math.isfinite(hi) else center + R
+        grid_lo = lo if math.isfinite(lo) else centre - R
+        grid_hi = hi if math.isfinite(hi) else centre + R
         xs = np.linspace(grid_lo, grid_hi, 4001)
         xs = xs[on.contains(xs)]
         values = _sample_V(field, xs)
@@ -225,8 +225,8 @@ def _positive_parts(window: Window, structure: BandStructure, h: np.ndarray, min
         for left, right in zip(points[:-1], points[1:]):
             middle = 0.5 * (left + right)
             if sign * C.chebval(middle, h) > 0:
-                x_left = window.dV.center + window.dV.half_width * left
-                x_right = window.dV.center + window.dV.half_width * right
+                x_left = window.dV.centre + window.dV.half_width * left
+                x_right = window.dV.centre + window.dV.half_width * right
                 if left == t_a:
                     x_left = a
                 if right == t_b:
@@ -479,7 +479,7 @@ def _real_roots_in(window: Window, h: np.ndarray, a: float, b: float, candidates
     """
     t_a, t_b = window.t(a), window.t(b)
     roots = real_roots(h, t_a, t_b) if candidates is None else candidates[(candidates > t_a) & (candidates < t_b)]
-    return window.dV.center + window.dV.half_width * roots
+    return window.dV.centre + window.dV.half_width * roots
 
 
 def _structure_from_checks(window: Window, measure: EquilibriumMeasure, on: IntervalSet) -> BandStructure | None:
@@ -516,10 +516,10 @@ def _structure_from_checks(window: Window, measure: EquilibriumMeasure, on: Inte
         if values[i] < -1e-10 * max(1.0, abs(measure.lagrange)):
             negative = xs[values < 0]
             width = max(negative.max() - negative.min(), 1e-6 * span)
-            center = xs[i]
-            a, b = center - width / 2, center + width / 2
+            centre = xs[i]
+            a, b = centre - width / 2, centre + width / 2
             a, b = max(a, lo + 1e-9 * span), min(b, hi - 1e-9 * span)
-            position = np.searchsorted(ends, center)
+            position = np.searchsorted(ends, centre)
             new_ends = np.insert(ends, position, [a, b])
             new_hard = np.insert(hard, position, [False, False])
             if np.all(np.diff(new_ends) > 0):

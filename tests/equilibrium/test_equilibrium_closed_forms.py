@@ -60,17 +60,17 @@ class TestSemicircle:
         np.testing.assert_allclose(self.mu.effective_potential(x), exact_eff, rtol=1e-11)
 
 
-@pytest.mark.parametrize("stiffness, center", [(1e6, 17.0), (1e6, -40.0), (1e8, 5.0)])
-def test_narrow_well_far_from_the_origin(stiffness, center):
+@pytest.mark.parametrize("stiffness, centre", [(1e6, 17.0), (1e6, -40.0), (1e8, 5.0)])
+def test_narrow_well_far_from_the_origin(stiffness, centre):
     """V = K (x - x0)²/2 given by its monomial coefficients: the semicircle law
     scaled by 1/√K about x0 (Deift 1999, §6.7, and the change of variables
     y = √K (x - x0), which adds log K to ℓ). The support is a few thousandths
     wide at |x0| up to 40, so its ends are resolved only to ulp(x0)/width
     ≈ 1e-12 of the width; Newton's iteration stops at that rounding floor."""
-    mu = solve(Field.from_coefficients([stiffness * center**2 / 2, -stiffness * center, stiffness / 2]))
+    mu = solve(Field.from_coefficients([stiffness * centre**2 / 2, -stiffness * centre, stiffness / 2]))
     radius = 2 / math.sqrt(stiffness)
     assert mu.verified, mu.message
-    np.testing.assert_allclose(np.array(mu.support), [[center - radius, center + radius]], atol=1e-10 * radius)
+    np.testing.assert_allclose(np.array(mu.support), [[centre - radius, centre + radius]], atol=1e-10 * radius)
     assert abs(mu.lagrange - 1 - math.log(stiffness)) < 1e-10 * (1 + math.log(stiffness))
 
 
