@@ -47,8 +47,24 @@ class Transition:
     evaluations: int
 
 
-def structure_margin(field: Field, on: IntervalSet, structure: BandStructure) -> tuple[float, BandStructure, str]:
-    """Solve a fixed band structure for ``field`` and return its margin m and the solved structure."""
+@dataclass(frozen=True)
+class StructureMargin:
+    """The margin of one band structure solved for one field.
+
+    ``margin`` -- the smallest of the normalised quantities that must stay positive for the
+    structure to hold (the density inside each band and at each soft edge, the effective
+    potential off the support); it changes sign at a phase transition.  ``kind`` says which
+    one is smallest; ``structure`` is the solved structure (its ends), from which the next
+    parameter continues.
+    """
+
+    margin: float
+    structure: BandStructure
+    kind: str
+
+
+def structure_margin(field: Field, on: IntervalSet, structure: BandStructure) -> StructureMargin:
+    """Solve a fixed band structure for ``field`` and return its margin and the solved structure."""
     ends = structure.ends
     span = ends[-1] - ends[0]
     # the window must see the whole region where a band could be born, not only the support
@@ -89,7 +105,7 @@ def structure_margin(field: Field, on: IntervalSet, structure: BandStructure) ->
         margins.append(value / scale)
         kinds.append("effective potential touches zero off the support")
     i = int(np.argmin(margins))
-    return float(margins[i]), state.structure, kinds[i]
+    return StructureMargin(float(margins[i]), state.structure, kinds[i])
 
 
 def locate_transition(
@@ -134,10 +150,10 @@ def locate_transition(
         # about; continuing from the last one can leave the branch)
         evaluations[0] += 1
         nearest = solved_at[min(solved_at, key=lambda u: abs(u - t))]
-        value, solved, kind = structure_margin(family(t), on, nearest)
-        last["kind"] = kind
-        solved_at[t] = solved
-        return value
+        solved = structure_margin(family(t), on, nearest)
+        last["kind"] = solved.kind
+        solved_at[t] = solved.structure
+        return solved.margin
 
     m_start = margin(start)
     # march toward the other end until the margin changes sign (continuation in small steps)

@@ -78,7 +78,7 @@ import numpy as np
 from equilibrium.errors import InputError, NumericalFailure
 from equilibrium.verification import failure_message, failure_policy, float_checks, settle
 
-__all__ = ["ModelProblem", "model_problem", "gamma_factor", "lattice_decomposition", "jump_residuals",
+__all__ = ["ModelProblem", "model_problem", "gamma_factor", "LatticePoint", "lattice_decomposition", "jump_residuals",
            "GapAbelMap", "gap_abel_map"]
 
 _LIFT = 1e-300  # imaginary lift selecting the + boundary value on a cut
@@ -99,13 +99,23 @@ def gamma_factor(z, support) -> np.ndarray:
     return out
 
 
-def lattice_decomposition(Z: np.ndarray, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray, float]:
-    """Write ``Z = p + τ q`` with real ``p, q``; return rounded ``p, q`` and the rounding error."""
+@dataclass(frozen=True)
+class LatticePoint:
+    """``Z = p + τ q`` with integer vectors ``p, q``; ``rounding`` is the largest distance of the
+    real solutions ``p, q`` from the integers they were rounded to (0 for a lattice point)."""
+
+    p: np.ndarray
+    q: np.ndarray
+    rounding: float
+
+
+def lattice_decomposition(Z: np.ndarray, tau: np.ndarray) -> LatticePoint:
+    """Write ``Z = p + τ q`` with real ``p, q`` and round them to the lattice ``Z^g + τ Z^g``."""
     Z = np.atleast_1d(np.asarray(Z, dtype=complex))
     q = np.linalg.solve(tau.imag, Z.imag)
     p = Z.real - tau.real @ q
     pr, qr = np.round(p), np.round(q)
-    return pr.astype(int), qr.astype(int), float(max(np.max(np.abs(p - pr)), np.max(np.abs(q - qr))))
+    return LatticePoint(pr.astype(int), qr.astype(int), float(max(np.max(np.abs(p - pr)), np.max(np.abs(q - qr)))))
 
 
 @dataclass(frozen=True)
@@ -385,11 +395,11 @@ def model_problem(support, *, tolerance: float = 1e-9, on_failure: str = "raise"
     gap_q = np.zeros((g, g), int)
     worst = 0.0
     for j in range(k):
-        _, q, err = lattice_decomposition(C[j], tau)
-        band_q[j], worst = q, max(worst, err)
+        point = lattice_decomposition(C[j], tau)
+        band_q[j], worst = point.q, max(worst, point.rounding)
     for j in range(g):
-        _, q, err = lattice_decomposition(D[j], tau)
-        gap_q[j], worst = q, max(worst, err)
+        point = lattice_decomposition(D[j], tau)
+        gap_q[j], worst = point.q, max(worst, point.rounding)
     checks["lattice_rounding"] = worst
     if abs(np.linalg.det(gap_q)) < 0.5:
         raise NumericalFailure(

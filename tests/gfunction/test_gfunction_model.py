@@ -179,3 +179,17 @@ def test_prediction_results_of_one_band(gaussian):
     p = predictor(gaussian).predict([10, 11])
     assert p.verified and p.gap_zeros.shape == (2, 0) and p.band_counts.tolist() == [[10], [11]]
     assert np.max(np.abs(p.a - 1)) < 1e-13 and np.max(np.abs(p.b)) < 1e-13
+
+
+def test_lattice_decomposition_recovers_integer_coordinates():
+    """Z = p + τ q with integer p, q (genus 2, τ with positive definite imaginary part) plus a
+    perturbation of 1e-9: the integers come back and the rounding is the perturbation's size."""
+    from gfunction.outer import LatticePoint, lattice_decomposition
+
+    tau = np.array([[0.2 + 1.3j, -0.4 + 0.35j], [-0.4 + 0.35j, 0.7 + 0.9j]])
+    p, q = np.array([3, -2]), np.array([-1, 4])
+    point = lattice_decomposition(p + tau @ q, tau)
+    assert isinstance(point, LatticePoint)
+    assert np.array_equal(point.p, p) and np.array_equal(point.q, q) and point.rounding < 1e-14
+    shifted = lattice_decomposition(p + tau @ q + np.array([1e-9, -2e-9]), tau)
+    assert np.array_equal(shifted.q, q) and 0.9e-9 < shifted.rounding < 2.1e-9
