@@ -19,6 +19,7 @@ from equilibrium import Field, IntervalSet, solve
 from gfunction import g_function, jump_residuals, matching_mismatch, model_problem, predictor, szego_function
 from gfunction.residual_problem import residual_solver
 from gfunction.series import corrected_recurrence
+from equilibrium.weight import parse_factor
 
 
 def best(fn, repeats=3):
@@ -35,13 +36,8 @@ def main():
     pred = predictor(mu)
     degrees = np.arange(1000, 2000)
 
-    class _Factor:  # |x - 1.5|^1 · e^{0.3x} in the factor protocol of gfunction.szego
-        singular_points = ((1.5, 1.0),)
-
-        def log_value(self, x, omit=()):
-            return 0.3 * x + (0.0 if 1.5 in omit else np.log(np.abs(x - 1.5)))
-
-    factor = (_Factor(),)
+    # |x - 1.5|^1 · e^{0.3x}: a Fisher–Hartwig root and a smooth factor (equilibrium.weight)
+    factor = parse_factor("abs(x-1.5)^1*exp(0.3*x)")
     solver = residual_solver(pred)
     per = 5                                        # degrees per timing of the residual method
     rows = [

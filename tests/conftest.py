@@ -239,3 +239,90 @@ def _reference_table(name: str) -> tuple[dict[str, str], dict[str, np.ndarray]]:
     names = rows[0].split(",")
     values = np.array([[float(v) for v in row.split(",")] for row in rows[1:]])
     return header, {column: values[:, j] for j, column in enumerate(names)}
+
+
+@pytest.fixture(scope="session")
+def omega_to_rounding():
+    """Function: the phases' frequencies Ω_j of a polynomial field on the real line, to ~30 digits.
+
+    The double Ω of :func:`equilibrium.solve` carries an error of a few 1e-16 (its
+    ``mass_error``), which the phases ``nΩ`` multiply by n; tests that measure rates or
+    agreements of 1e-13 at n ~ 4000 take Ω from here.  Source: the endpoint equations of
+    the equilibrium measure of a polynomial V with soft edges (Deift, *Orthogonal polynomials
+    and random matrices*, 1999, §6.6-6.7; from memory): with ``R = Π(z - e_i)`` and ``h`` a
+    polynomial, ``G(z) = (V'(z) - h(z) R(z)^{1/2})/2 = 1/z + O(z^-2)`` at infinity, and
+    ``∫_gap h |R|^{1/2} = 0`` across every gap (equal effective potential on all bands); the
+    density is ``|h| |R|^{1/2}/2π`` and ``Ω_j`` the mass of the bands right of band ``j``.
+    Solved by mpmath (Newton from the double solution, tanh-sinh quadrature).
+
+    Parameters
+    ----------
+    field : equilibrium.Field with a polynomial V;  measure : its double-precision measure.
+
+    Returns
+    -------
+    float array (bands - 1,): Ω_j correctly rounded.
+    """
+    return _omega_to_rounding
+
+
+_OMEGA_CACHE: dict = {}
+
+
+def _omega_to_rounding(field, measure, dps: int = 30) -> np.ndarray:
+    key = (tuple(float(c) for c in field.polynomial), dps)
+    if key not in _OMEGA_CACHE:
+        _OMEGA_CACHE[key] = _omega_mp(field, measure, dps)
+    return _OMEGA_CACHE[key].copy()
+
+
+def _omega_mp(field, measure, dps: int) -> np.ndarray:
+    import mpmath
+
+    with mpmath.workdps(dps + 10):
+        V = [mpmath.mpf(float(c)) for c in field.polynomial]
+        dV = [k * V[k] for k in range(1, len(V))]                  # ascending coefficients of V'
+        k = len(measure.support)
+        deg = len(dV) - 1
+        hdeg = deg - k                                             # degree of h
+
+        def sqrt_series(e, M):                                     # Π(1 - e_i w)^{1/2} to w^M
+            p = [mpmath.mpf(1)]
+            for ei in e:
+                q = [mpmath.mpf(0)] * (len(p) + 1)
+                for i, c in enumerate(p):
+                    q[i] += c
+                    q[i + 1] -= ei * c
+                p = q
+            p = (p + [mpmath.mpf(0)] * (M + 1))[:M + 1]
+            s = [mpmath.mpf(1)] + [mpmath.mpf(0)] * M
+            for m in range(1, M + 1):
+                s[m] = (p[m] - sum(s[i] * s[m - i] for i in range(1, m))) / 2
+            return s
+
+        def unpack(u):
+            e = list(u[:2 * k])
+            h = [c * dV[-1] for c in list(u[2 * k:])] + [dV[-1]]  # h ascending, leading coefficient that of V'
+            return e, h
+
+        def hR(e, h):
+            return lambda x: sum(c * x ** i for i, c in enumerate(h)) * mpmath.sqrt(abs(mpmath.fprod(x - ei for ei in e)))
+
+        def equations(*u):
+            e, h = unpack(u)
+            s = sqrt_series(e, hdeg + k + 2)
+
+            def coefficient(power):                                # of z^power in h(z) z^k Σ s_m z^-m
+                return sum(c * s[i + k - power] for i, c in enumerate(h) if 0 <= i + k - power < len(s))
+
+            out = [coefficient(p) - dV[p] for p in range(deg)] + [coefficient(-1) + 2]
+            out += [mpmath.quad(hR(e, h), [e[2 * j + 1], e[2 * j + 2]]) for j in range(k - 1)]
+            return out
+
+        start = [mpmath.mpf(v) for band in measure.support for v in band] + [mpmath.mpf(0)] * hdeg
+        u = mpmath.findroot(equations, start, tol=mpmath.mpf(10) ** (-dps - 5), maxsteps=60)
+        e, h = unpack([u[i] for i in range(len(start))])
+        density = hR(e, h)
+        masses = [abs(mpmath.quad(density, [e[2 * j], e[2 * j + 1]])) / (2 * mpmath.pi) for j in range(k)]
+        assert abs(sum(masses) - 1) < mpmath.mpf(10) ** (-dps), "the endpoint equations were not solved"
+        return np.array([float(sum(masses[j + 1:])) for j in range(k - 1)])

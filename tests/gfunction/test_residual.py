@@ -1,7 +1,8 @@
 """The residual matrix R = I + R^(1)/n + R^(2)/n² and the corrected recurrence coefficients.
 
 Sources: DLMF 9.7.2 and 10.17.1 (series coefficients), DLMF 18.9.2 (Laguerre and Jacobi recurrences,
-re-expanded here with sympy), the Freud string equation (derived in the test), direct recurrence
+re-expanded here with sympy), the Freud string equation (derived in the test), Ω to rounding from the
+endpoint equations solved by mpmath (tests/conftest.py), direct recurrence
 coefficients of workbench.polynomials (discretised Stieltjes) and direct Y(z) (continued fractions).
 """
 
@@ -251,17 +252,27 @@ def _same_phase_degrees(pr, targets, spread: float = 1.6) -> list:
     return out
 
 
-@pytest.mark.parametrize("expr", ["x**4/4 - 3.1*x**2/2 + 0.23*x", "x**6/6 - 5*x**4/4 + 4.5*x**2/2 + 0.1*x"])
-def test_multi_band_orders_against_direct(expr):
-    """Two and three bands, irrational Ω, against the direct coefficients at degrees of equal phase near
-    400, 800, 1600.  Measured (two bands, n = 400, 984, 1813 ... three bands, n = 400, 944, 2032):
-    slopes of err_a, err_b at order 1 -1.99/-2.02 and -2.00/-2.01; at order 2 -3.0 for b (-2.99, -3.02)
-    and -2.6..-2.7 for a, whose order-2 errors (5.8e-10 → 8.2e-12, three bands) meet a pre-asymptotic
-    n^-4 term at n = 400 and the direct side's own error (~2e-13) at the largest n."""
+@pytest.mark.parametrize("expr, targets, spread", [
+    ("x**4/4 - 3.1*x**2/2 + 0.23*x", [200, 400, 800, 1600, 3200], 1.25),
+    ("x**6/6 - 5*x**4/4 + 4.5*x**2/2 + 0.1*x", [400, 800, 1600, 2500], 1.6)])
+def test_multi_band_orders_against_direct(expr, targets, spread, omega_to_rounding):
+    """Two and three bands, irrational Ω, against the direct coefficients at degrees of equal phase
+    from 200 (400) to 3471 (2576), with Ω to rounding (the ``omega_to_rounding`` fixture: the
+    measure's double Ω is off by 1e-16 … 8e-16, which the phases multiply by n, ~1e-12 at n = 3000,
+    and which flattened the order-2 slopes to -2.25 (a) and -2.74 (b) for two bands).
+    Measured: two bands (n = 200, 425, 984, 1813, 3471) slopes -1.99 / -2.01 at order 1 and
+    -3.17 / -3.06 at order 2 (a / b); three bands (n = 400, 944, 2032, 2576) -2.00 / -2.01 and
+    -2.75 / -3.05.  The three-band a_n at order 2 falls like n^-3 -- n³|residual − order 2| stays
+    between 0.05 and 0.19 for 200 random n from 200 to 10^5 -- but its constant c_3(nΩ) is not
+    matched well by equal-phase degrees of a two-dimensional phase this short (the order-0 errors
+    of those degrees scatter by a factor 2 too), hence the -2.75."""
+    import dataclasses
+
     field = Field.from_expression(expr)
     mu = solve(field)
-    pr = predictor(mu)
-    ns = _same_phase_degrees(pr, [400, 800, 1600])
+    pr = predictor(dataclasses.replace(mu, omega=omega_to_rounding(field, mu)))
+    ns = _same_phase_degrees(pr, targets, spread)
+    assert ns[-1] <= 4000
     r = corrected_recurrence(pr, ns, 2)
     err = np.zeros((2, 3, len(ns)))
     for i, n in enumerate(ns):
@@ -271,8 +282,12 @@ def test_multi_band_orders_against_direct(expr):
             err[1, K, i] = abs(r.b.at_order(K)[i] - rc.b[n])
     slopes = np.polyfit(np.log(ns), np.log(err.reshape(-1, len(ns)).T), 1)[0].reshape(2, 3)
     assert np.all(np.abs(slopes[:, 1] + 2) < 0.2), (slopes, err)
-    assert -3.3 < slopes[1, 2] < -2.7 and slopes[0, 2] < -2.4, (slopes, err)
-    assert np.all(err[:, 2] < 1e-3 * err[:, 0]) and np.all(err[:, 2, -1] < 1e-10), err
+    assert abs(slopes[1, 2] + 3) < 0.2, (slopes, err)
+    if pr.genus == 1:
+        assert abs(slopes[0, 2] + 3) < 0.25, (slopes, err)
+    else:
+        assert slopes[0, 2] < -2.6, (slopes, err)
+    assert np.all(err[:, 2] < 1e-3 * err[:, 0]) and np.all(err[:, 2, -1] < 2e-3 * err[:, 1, -1]), err
 
 
 @pytest.mark.parametrize("expr", ["x**4/4 - 3.1*x**2/2 + 0.23*x", "x**6/6 - 5*x**4/4 + 4.5*x**2/2 + 0.1*x"])

@@ -1,10 +1,12 @@
 """The residual problem solved by spectral collocation (gfunction.residual_problem).
 
 Sources: direct recurrence coefficients (workbench.polynomials, discretised Stieltjes with its own error
-estimate), Laguerre and Hermite closed forms (DLMF 18.9.2; CONVENTIONS check values), the order-2 series of
+estimate), Ω to rounding from the endpoint equations solved by mpmath (tests/conftest.py), Laguerre and Hermite closed forms (DLMF 18.9.2; CONVENTIONS check values), the order-2 series of
 gfunction.series, and the effective potential of x²/2 in closed form (common knowledge, from memory:
 2U + V - ℓ = x√(x²-4)/2 - 2 log((x + √(x²-4))/2) for x > 2).
 """
+
+import dataclasses
 
 import numpy as np
 import pytest
@@ -103,25 +105,39 @@ def _two_band():
     return field, mu, predictor(mu)
 
 
-def test_against_direct_and_order_two():
-    """Residual method against the direct coefficients at n = 1000 (two bands) and 1000 (three bands):
-    measured |Δa| 2.1e-13, |Δb| 7.2e-13 (two bands, n = 984), within the direct side's own estimate
-    ~2e-13; at n = 10^6 it agrees with the order-2 series to rounding (their difference is O(n^-3))."""
-    for expr in ("x**4/4 - 3.1*x**2/2 + 0.23*x", "x**6/6 - 5*x**4/4 + 4.5*x**2/2 + 0.1*x"):
-        field = Field.from_expression(expr)
-        mu = solve(field)
-        pr = predictor(mu)
-        S = residual_solver(pr)
-        n = 1000
-        sol = S.solve([n, 10 ** 6])
-        rc = recurrence_coefficients(Weight(field, n), n, measure=mu)
-        assert abs(sol.a[0] - rc.a[n]) <= 1e-11 and abs(sol.b[0] - rc.b[n]) <= 1e-11
-        assert np.all(sol.verified) and np.all(sol.error_estimate < 1e-14)
-        series = corrected_recurrence(pr, [10 ** 6], 2)
-        assert abs(sol.a[1] - series.a.at_order(2)[0]) < 4e-16 * 4
-        assert abs(sol.b[1] - series.b.at_order(2)[0]) < 4e-16 * 4
+@pytest.mark.parametrize("expr", ["x**4/4 - 3.1*x**2/2 + 0.23*x", "x**6/6 - 5*x**4/4 + 4.5*x**2/2 + 0.1*x"])
+def test_against_direct_and_order_two(expr, omega_to_rounding):
+    """Residual method against the direct coefficients at n = 1000, 2000, 4000 (two and three bands).
+
+    With Ω correct to rounding (mpmath, the ``omega_to_rounding`` fixture) the two agree to
+    ≤ 1e-11 (measured max(|Δa|, |Δb|) 5.7e-14 … 2.6e-13 two bands, 2.1e-13 … 5.7e-13 three bands:
+    the direct side's own error).  With the measure's double Ω (off by 1.1e-16 and 7.8e-16) the
+    phases nΩ are off by n δΩ and the difference grows like n (measured 2.7e-13 … 1.0e-12 two
+    bands, 2.1e-12 … 4.8e-12 three bands; 1.3e-11 at n = 3000): the error estimate, which carries
+    that phase error, covers it.  At n = 10^6 the method agrees with the order-2 series to
+    rounding (their difference is O(n^-3)); its estimate there is the phase error, ~1e-9."""
+    field = Field.from_expression(expr)
+    mu = solve(field)
+    exact = omega_to_rounding(field, mu)
+    assert np.max(np.abs(mu.omega - exact)) <= mu.checks["mass_error"]    # the δΩ of the phase error
+    ns = [1000, 2000, 4000]
+    direct = [recurrence_coefficients(Weight(field, n), n, measure=mu) for n in ns]
+    for omega in (mu.omega, exact):
+        pr = predictor(dataclasses.replace(mu, omega=np.asarray(omega)))
+        sol = residual_solver(pr).solve(ns + [10 ** 6])
+        assert np.all(sol.verified_degrees) and sol.checks["error_estimate"] < 1e-14
         for key in ("imag_a2", "imag_b", "collocation_residual", "symmetry"):
             assert sol.checks[key] < 1e-13, (key, sol.checks)
+        diff = np.array([max(abs(sol.a[i] - rc.a[n]), abs(sol.b[i] - rc.b[n])) for i, (n, rc) in
+                         enumerate(zip(ns, direct))])
+        assert np.all(diff <= sol.error_estimate[:3] + [rc.error_estimate for rc in direct]), (diff, sol)
+        if omega is exact:
+            assert np.all(diff <= 1e-11), diff
+        # the phase error grows like n (times |∂(a, b)/∂w| at the phase of each degree)
+        assert 100 * sol.phase_error[0] < sol.phase_error[3] < 1e4 * sol.phase_error[0], sol.phase_error
+        series = corrected_recurrence(pr, [10 ** 6], 2)
+        assert abs(sol.a[3] - series.a.at_order(2)[0]) < 4e-16 * 4
+        assert abs(sol.b[3] - series.b.at_order(2)[0]) < 4e-16 * 4
 
 
 def test_refusals():
