@@ -25,6 +25,9 @@ gap_zeros     the zero of p_n in each gap against n, direct (squares) and predic
 edge_zeros    zeros next to the outer edges in the Airy (soft) or Bessel (hard) scaling
               (n^{2/3} c (x_j - e) against the Airy zeros a_j, n^2 c (x_j - e) against
               -j_{alpha,j}^2/4), one panel per outer edge
+recurrence    (files of ``recurrence --out``) a_k and b_k against k
+zeros         (files of ``zeros --out``) histogram of the zeros of p_K, mass 1
+              (files of ``equilibrium --out`` get the density alone)
 phase         (sweep files) number of bands over the parameter grid; the transition
               curves through the located transitions of the grid edges
               (/grid/transition_*); Ω_1 contours inside each region of one band count
@@ -49,6 +52,8 @@ __all__ = [
     "draw_gap_zeros",
     "draw_edge_zeros",
     "draw_phase_diagram",
+    "draw_recurrence",
+    "draw_zeros",
     "draw_all",
     "save_figure",
 ]
@@ -108,8 +113,12 @@ def draw_density(tree: Group):
     """ψ(x) on each band (line) against the normalised histogram of the zeros of p_n (bars)."""
     eq = tree.groups.get("equilibrium")
     last = _largest_direct(tree)
-    if eq is None or not eq.has("x") or last is None or not last.has("zeros"):
+    if eq is None or not eq.has("x"):
         return None
+    if last is None or not last.has("zeros"):
+        if tree.attrs.get("format") != "workbench-equilibrium":
+            return None
+        return _density_alone(eq)
     x = np.asarray(eq.get("x"), dtype=float)
     psi = np.asarray(eq.get("density"), dtype=float)
     support = np.atleast_2d(eq.get("support"))
@@ -162,6 +171,63 @@ def draw_density(tree: Group):
 
     _legend_below(fig, handles, labels, entries_per_row=3,
                   handler_map={tuple: HandlerTuple(ndivide=None, pad=0.0)})
+    return fig
+
+
+def _density_alone(eq: Group):
+    """ψ(x) on each band of a file of ``workbench equilibrium --out`` (no zeros there)."""
+    x = np.asarray(eq.get("x"), dtype=float)
+    psi = np.asarray(eq.get("density"), dtype=float)
+    support = np.atleast_2d(eq.get("support"))
+    edges = (np.asarray(eq.get("edges")).reshape(-1, 2) if eq.has("edges")
+             else np.full(support.shape, "soft", dtype=object))
+    fig, axes = new_figure(height=2.4)
+    ax = axes[0, 0]
+    for j, (a, b) in enumerate(support):
+        xs, ys = _band_density(x, psi, a, b)
+        ax.plot(xs, ys, color=SERIES[j % len(SERIES)], lw=1.0)
+    ax.set_ylim(0.0, 1.15 * _visible_top(x, psi, support, edges))
+    ax.set_xlabel("$x$")
+    ax.set_ylabel(r"$\psi(x)$")
+    ax.set_title(f"equilibrium density, {support.shape[0]} band" + ("s" if support.shape[0] > 1 else ""))
+    return fig
+
+
+def draw_recurrence(tree: Group):
+    """a_k, b_k against k of a file of ``workbench recurrence --out``."""
+    rec = tree.groups.get("recurrence")
+    if rec is None or not rec.has("a") or np.asarray(rec.get("a")).size < 2:
+        return None
+    a, b = np.asarray(rec.get("a"), dtype=float), np.asarray(rec.get("b"), dtype=float)
+    k = np.arange(a.size)
+    fig, axes = new_figure(height=2.6)
+    ax = axes[0, 0]
+    marker = "o" if a.size <= 60 else None
+    (ha,) = ax.plot(k[1:], a[1:], color=SERIES[0], lw=0.9, marker=marker, ms=2.5, mfc="none")
+    (hb,) = ax.plot(k, b, color=SERIES[1], lw=0.9, ls=DASHES[1], marker=marker and "s", ms=2.5, mfc="none")
+    ax.set_xlabel("$k$")
+    ax.set_ylabel("coefficient")
+    ax.set_title(f"recurrence coefficients, $n = {rec.attrs.get('n', '?'):g}$"
+                 if isinstance(rec.attrs.get("n"), (int, float)) else "recurrence coefficients")
+    _legend_below(fig, [ha, hb], [r"$a_k^{(n)}$", r"$b_k^{(n)}$"])
+    return fig
+
+
+def draw_zeros(tree: Group):
+    """Histogram of the zeros of p_K (normalised to mass 1) of a file of ``workbench zeros --out``."""
+    node = tree.groups.get("zeros")
+    if node is None or not node.has("zeros") or np.asarray(node.get("zeros")).size < 2:
+        return None
+    x = np.asarray(node.get("zeros"), dtype=float)
+    fig, axes = new_figure(height=2.4)
+    ax = axes[0, 0]
+    bins = max(4, int(np.sqrt(x.size)) + 2)
+    counts, edges = np.histogram(x, bins=bins)
+    ax.stairs(counts / (x.size * np.diff(edges)), edges, fill=True, alpha=0.35, color=SERIES[0], lw=0)
+    ax.plot(x, np.zeros_like(x), ls="none", marker="|", color=SERIES[0], ms=4)
+    ax.set_xlabel("$x$")
+    ax.set_ylabel("zeros per unit length / $K$")
+    ax.set_title(f"zeros of $p_{{{node.attrs.get('degree', x.size)}}}$")
     return fig
 
 
@@ -517,7 +583,12 @@ FIGURES: dict[str, Callable[[Group], object]] = {
     "gap_zeros": draw_gap_zeros,
     "edge_zeros": draw_edge_zeros,
     "phase": draw_phase_diagram,
+    "recurrence": draw_recurrence,
+    "zeros": draw_zeros,
 }
+#: the figures of the files of single commands (``--out`` of equilibrium, recurrence, zeros)
+COMMAND_FIGURES = {"workbench-equilibrium": ("density",), "workbench-recurrence": ("recurrence",),
+                   "workbench-zeros": ("zeros",)}
 
 
 def save_figure(fig, stem: Path, formats: Iterable[str], dpi: int = 300) -> list[Path]:
@@ -559,6 +630,8 @@ def draw_all(tree: Group, directory: str | Path, *, formats: Iterable[str] = ("p
     names = list(which) if which is not None else list(FIGURES)
     if tree.attrs.get("format") == "workbench-sweep":
         names = ["phase"]
+    elif tree.attrs.get("format") in COMMAND_FIGURES:
+        names = list(COMMAND_FIGURES[tree.attrs["format"]])
     written: dict[str, list[Path]] = {}
     with journal_style():
         for name in names:

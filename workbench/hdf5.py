@@ -5,6 +5,10 @@ renamed over the destination only once it is complete and closed, so a run
 killed at any moment leaves either the previous complete file or none
 (POSIX ``rename`` is atomic within one file system).
 
+The temporary file of :func:`tempfile.mkstemp` is private (mode 0600); before the
+rename it is given the mode any new file of the user gets, ``0666 & ~umask``
+(:func:`new_file_mode`), so results can be shared as the user's other files are.
+
 Attributes hold scalars, strings or small arrays; :func:`to_attribute`
 converts Python values (``None`` becomes the string ``"none"``, dicts become
 JSON text) so the files can be read back with plain h5py and no project code.
@@ -108,6 +112,13 @@ def set_attributes(node: h5py.HLObject, attributes: Mapping[str, Any]) -> None:
         node.attrs[key] = to_attribute(value)
 
 
+def new_file_mode() -> int:
+    """``0o666 & ~umask``: the mode ``open(path, "w")`` would give a new file (POSIX)."""
+    mask = os.umask(0)      # reading the umask means setting it; put it back at once
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 @contextlib.contextmanager
 def atomic_file(path: str | os.PathLike[str]) -> Iterator[h5py.File]:
     """Open a new HDF5 file that appears at ``path`` only when complete.
@@ -139,6 +150,7 @@ def atomic_file(path: str | os.PathLike[str]) -> Iterator[h5py.File]:
         handle.flush()
         handle.close()
         handle = None
+        os.chmod(tmp_name, new_file_mode())
         with open(tmp_name, "rb") as stream:
             os.fsync(stream.fileno())
         os.replace(tmp_name, target)

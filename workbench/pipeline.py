@@ -676,7 +676,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
         node.add("value_x", points, "bulk points (inner 70% of each band)")
         node.add("values_shape", np.array([pred.band_form(points, int(n)) for n in ns_arr]),
                  "Re[M11+ e^{n(g+ - V/2 + ell/2)} + M11- e^{n(g- - V/2 + ell/2)}]: predicted "
-                 "p_n w^{1/2} divided by gamma_n e^{-n ell/2}")
+                 "p_n w^{1/2} divided by gamma_n e^{-n ell/2}", dims=("n", "value_x"))
 
     helpers = {}
     if case.comparisons.small_norm and not case.factor.is_one:
@@ -699,7 +699,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
         for n in ns_arr:
             helpers[int(n)] = {"small_norm": _small_norm_check(pred, mu, int(n), circles, radii, g_on)}
         node.add("contour_radii", radii, "radii of the circles of the small-norm check, "
-                                         "centred at the middle of the support hull")
+                                         "centred at the middle of the support hull", dims=())
 
     dense = _dense_range(ns_arr)
     if dense.size:
@@ -739,6 +739,7 @@ def _log_hankel_model(node: Group, mu, factors, ns: np.ndarray) -> list[str]:
                         "constant_parts": json.dumps(dict(expansion.constant_parts)),
                         "sources": json.dumps(dict(expansion.sources)),
                         "checks": dict(expansion.checks)})
+    terms.add("n", ns, "values of n")
     for name, value in expansion.terms(ns).items():
         terms.add(name, value, TERM_LABELS.get(name, name))
     return [] if expansion.verified else [f"log D_n expansion: {expansion.message}"]

@@ -15,6 +15,20 @@ Every dataset carries a ``description`` attribute (what it is, in which
 convention) so a file can be read with plain h5py and no project code: the
 :func:`read_run` reader below uses nothing but h5py and numpy.
 
+Dimensions are labelled with HDF5 dimension scales (the netCDF-4 convention, so
+xarray's h5netcdf engine and other netCDF readers see named dimensions): the 1-D
+datasets named in :data:`COORDINATES` (``n`` in ``/comparison`` and ``/model``,
+``x`` in ``/equilibrium``, ``k`` of a recurrence file, …) are scales, and the
+first axis of every other dataset of the same group whose length matches one of
+them is attached to it (``n`` first).  A dataset can name its dimensions itself
+(``Group.add(..., dims=(...))``; ``dims=()`` for none), e.g. a sweep's grid
+axes, or arrays of another length that happens to equal the number of n.
+
+Files written by ``workbench equilibrium/recurrence/zeros --out`` carry the same
+provenance attributes as a run (:func:`write_command_file`, formats
+``workbench-equilibrium``, ``workbench-recurrence``, ``workbench-zeros``) and are
+read by ``show`` and ``plot`` like run files.
+
 In memory a run is a tree of :class:`Group` nodes holding attributes,
 arrays and sub-groups.  The pipeline builds that tree; :func:`write_run`
 stores it; :func:`read_run` restores it; :func:`figures` and ``show`` work
@@ -35,7 +49,7 @@ import subprocess
 import sys
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Iterable, Mapping
+from typing import Any, Iterable, Mapping, Sequence
 
 import h5py
 import numpy as np
@@ -50,6 +64,10 @@ __all__ = [
     "write_run",
     "read_run",
     "write_group_file",
+    "write_command_file",
+    "COMMAND_FORMATS",
+    "READABLE_FORMATS",
+    "COORDINATES",
     "read_group_file",
     "write_partial",
     "load_partials",
@@ -62,6 +80,12 @@ __all__ = [
 
 FORMAT = "workbench-run"
 FORMAT_VERSION = 1
+#: the formats of the files written by ``--out`` of single commands
+COMMAND_FORMATS = ("workbench-equilibrium", "workbench-recurrence", "workbench-zeros")
+#: every format ``show`` and ``plot`` read
+READABLE_FORMATS = (FORMAT, "workbench-sweep") + COMMAND_FORMATS
+#: 1-D datasets that are dimension scales of their group (their name is the dimension's)
+COORDINATES = ("n", "n_dense", "x", "value_x", "k", "j")
 
 
 @dataclass
@@ -70,6 +94,8 @@ class Dataset:
 
     data: np.ndarray
     attrs: dict[str, Any] = field(default_factory=dict)
+    #: names of the dimensions (coordinates of the same group) per axis; None: by length (module doc)
+    dims: tuple[str | None, ...] | None = None
 
 
 @dataclass
@@ -80,12 +106,17 @@ class Group:
     datasets: dict[str, Dataset] = field(default_factory=dict)
     groups: dict[str, "Group"] = field(default_factory=dict)
 
-    def add(self, name: str, data: Any, description: str, **attrs: Any) -> Dataset:
-        """Add a dataset; ``description`` is mandatory so files stay self-describing."""
+    def add(self, name: str, data: Any, description: str, *, dims: Sequence[str | None] | None = None,
+            **attrs: Any) -> Dataset:
+        """Add a dataset; ``description`` is mandatory so files stay self-describing.
+
+        ``dims`` names the coordinate (a 1-D dataset of this group) of each axis; by default
+        the first axis is labelled by length (module docstring)."""
         array = np.asarray(data)
         if array.dtype.kind == "U":
             array = array.astype(object)
-        item = Dataset(array, {"description": description, **attrs})
+        item = Dataset(array, {"description": description, **attrs},
+                       None if dims is None else tuple(dims))
         self.datasets[name] = item
         return item
 
@@ -128,10 +159,50 @@ def _store_array(parent: h5py.Group, name: str, item: Dataset) -> None:
     set_attributes(node, item.attrs)
 
 
+#: the NAME of a dimension scale that is no variable (netCDF-4 convention: a dimension without coordinate)
+_DIMENSION_ONLY = "This is a netCDF dimension but not a netCDF variable."
+
+
+def _dimensions(node: Group) -> tuple[dict[str, int], dict[str, tuple[str | None, ...]]]:
+    """The coordinates of ``node`` (name -> length) and the coordinate of each axis of each other
+    dataset (None where no coordinate fits: that axis gets a dimension of its own)."""
+    scales = {name: item.data.shape[0] for name, item in node.datasets.items()
+              if item.data.ndim == 1 and (name in COORDINATES or any(
+                  name in (other.dims or ()) for other in node.datasets.values()))}
+    out = {}
+    for name, item in node.datasets.items():
+        if name in scales or item.data.ndim == 0:
+            continue
+        if item.dims is not None:
+            dims = tuple(d if d in scales and scales[d] == size else None
+                         for d, size in zip(item.dims, item.data.shape))
+        else:
+            first = [c for c in ("n",) + COORDINATES[1:] if scales.get(c) == item.data.shape[0]]
+            dims = (first[0] if first else None,)
+        out[name] = dims + (None,) * (item.data.ndim - len(dims))
+    return scales, out
+
+
 def _store_group(target: h5py.Group, node: Group) -> None:
     set_attributes(target, node.attrs)
     for name, item in node.datasets.items():
         _store_array(target, name, item)
+    # every axis of every dataset gets a dimension scale (netCDF readers want all or none):
+    # a coordinate of the group, or a dimension of its own, NAME_index<axis>, with no data
+    scales, labelled = _dimensions(node)
+    for coordinate in scales:
+        target[coordinate].make_scale(coordinate)
+    for name, dims in labelled.items():
+        for axis, coordinate in enumerate(dims):
+            if coordinate is None:
+                coordinate = f"{name}_index{axis}"
+                size = target[name].shape[axis]
+                if coordinate in target:
+                    continue
+                own = target.create_dataset(coordinate, shape=(size,), dtype="f4")
+                own.make_scale(f"{_DIMENSION_ONLY}{size:10d}")
+                own.attrs["description"] = f"axis {axis} of {name}: a dimension without coordinate (no data)"
+            target[name].dims[axis].attach_scale(target[coordinate])
     for name, child in node.groups.items():
         _store_group(target.create_group(name), child)
 
@@ -141,6 +212,26 @@ def write_run(path: str | os.PathLike[str], tree: Group) -> Path:
     with atomic_file(path) as handle:
         _store_group(handle, tree)
         handle.attrs["format"] = FORMAT
+        handle.attrs["format_version"] = FORMAT_VERSION
+    return Path(path)
+
+
+def write_command_file(path: str | os.PathLike[str], tree: Group, kind: str, parameters: Mapping[str, Any],
+                       seconds: float) -> Path:
+    """Atomically write the result of ``workbench KIND --out`` with the provenance of a run file.
+
+    ``kind`` is ``equilibrium``, ``recurrence`` or ``zeros`` (format ``workbench-KIND``);
+    ``parameters`` describes the weight (``field``, ``set``, ``factor``, ``n``, …).
+    """
+    fmt = f"workbench-{kind}"
+    if fmt not in COMMAND_FORMATS:
+        raise ValueError(f"unknown command file kind {kind!r}")
+    attrs = provenance("", "command line", parameters, {"total": seconds}, kind=kind)
+    attrs.pop("case_text")
+    with atomic_file(path) as handle:
+        _store_group(handle, tree)
+        set_attributes(handle, attrs)
+        handle.attrs["format"] = fmt
         handle.attrs["format_version"] = FORMAT_VERSION
     return Path(path)
 
@@ -164,18 +255,40 @@ def _decode(value: Any) -> Any:
     return value
 
 
+#: attributes HDF5 keeps for dimension scales (references into the file): not content
+_SCALE_ATTRIBUTES = frozenset({"CLASS", "NAME", "REFERENCE_LIST", "DIMENSION_LIST"})
+
+
+def _dimension_only(item: h5py.Dataset) -> bool:
+    label = item.attrs.get("NAME") if "NAME" in item.attrs else None
+    if isinstance(label, bytes):
+        label = label.decode(errors="replace")
+    return isinstance(label, str) and label.startswith(_DIMENSION_ONLY)
+
+
+def _stored_dims(item: h5py.Dataset) -> tuple[str | None, ...] | None:
+    """The coordinate names attached to each axis (None when no axis has one)."""
+    names = []
+    for axis in item.dims:
+        scale = axis[0] if len(axis) else None
+        names.append(None if scale is None or _dimension_only(scale) else scale.name.rsplit("/", 1)[-1])
+    return tuple(names) if any(names) else None
+
+
 def _load_group(source: h5py.Group) -> Group:
-    node = Group(attrs={k: _decode(v) for k, v in source.attrs.items()})
+    node = Group(attrs={k: _decode(v) for k, v in source.attrs.items() if k not in _SCALE_ATTRIBUTES})
     for name, item in source.items():
         if isinstance(item, h5py.Group):
             node.groups[name] = _load_group(item)
+        elif _dimension_only(item):
+            continue        # a dimension without data (_store_group), not content
         else:
             if h5py.check_string_dtype(item.dtype) is not None:
                 data = np.asarray(item.asstr()[()], dtype=object)
             else:
                 data = item[()]
-            node.datasets[name] = Dataset(np.asarray(data),
-                                          {k: _decode(v) for k, v in item.attrs.items()})
+            attrs = {k: _decode(item.attrs[k]) for k in item.attrs.keys() if k not in _SCALE_ATTRIBUTES}
+            node.datasets[name] = Dataset(np.asarray(data), attrs, _stored_dims(item))
     return node
 
 
@@ -187,9 +300,10 @@ def read_run(path: str | os.PathLike[str]) -> Group:
         raise InputError(f"{path} is a folder; give a file written by 'workbench run' or 'sweep'")
     try:
         with h5py.File(path, "r") as handle:
-            if handle.attrs.get("format") not in (FORMAT, "workbench-sweep"):
-                raise InputError(f"{path} is not a workbench run file (no 'format' attribute "
-                                 f"'{FORMAT}'); give a file written by 'workbench run' or 'sweep'")
+            if handle.attrs.get("format") not in READABLE_FORMATS:
+                raise InputError(f"{path} is not a workbench file (no 'format' attribute "
+                                 f"'{FORMAT}' or the like); give a file written by 'workbench run', 'sweep' "
+                                 "or the --out of 'equilibrium', 'recurrence', 'zeros'")
             return _load_group(handle)
     except (OSError, KeyError) as exc:
         # h5py's messages run over several lines; the command line promises one

@@ -722,6 +722,11 @@ def sweep_case(case, out: str | os.PathLike[str] | None = None, *, workers: int 
                            "transitions_failed": counts["failed"]})
         tree.attrs["timings_s"] = json.dumps({"sweep": round(outcome.seconds, 4),
                                               "transitions": round(time.perf_counter() - t, 4)})
+    # the grid axes are the dimension scales of every grid quantity (workbench.results)
+    axis_names = tuple(f"axis_{a.name}" for a in case.sweep.axes)
+    for key, item in grid.datasets.items():
+        if key not in axis_names:
+            item.dims = axis_names
     draw = case.figures.enabled if draw is None else draw
     figure_files: dict[str, list[Path]] = {}
     if draw:

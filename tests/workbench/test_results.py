@@ -122,7 +122,7 @@ def test_reading_a_foreign_file_is_input_error(tmp_path):
     path = tmp_path / "other.h5"
     with h5py.File(path, "w") as f:
         f["x"] = 1
-    with pytest.raises(InputError, match="not a workbench run file"):
+    with pytest.raises(InputError, match="not a workbench file"):
         read_run(path)
     (tmp_path / "junk.h5").write_bytes(b"not hdf5")
     with pytest.raises(InputError, match="cannot read"):

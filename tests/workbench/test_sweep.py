@@ -224,6 +224,13 @@ def test_transitions_are_located_on_the_grid_edges(tmp_path):
     finite = np.isfinite(located)
     rows = np.nonzero(finite)[0]
     assert np.all(t[rows] < located[finite]) and np.all(located[finite] < t[rows + 1])  # inside its edge
+    # the grid axes are dimension scales of the grid quantities (labelled dimensions for netCDF readers)
+    import h5py
+
+    with h5py.File(result.path, "r") as f:
+        labels = [[axis[0].name for axis in list(f[f"grid/{name}"].dims)[:2]] for name in ("bands", "omega")]
+        assert labels == [["/grid/axis_t", "/grid/axis_s"]] * 2
+        assert f["grid/transition_t"].dims[1][0].name == "/grid/axis_s"   # one fewer t: a dimension of its own
     # resumable: a second call takes every located transition from the journal
     again = sweep_case(case, tmp_path / "out", workers=1, progress=False, draw=False)
     np.testing.assert_array_equal(np.asarray(read_run(again.path).groups["grid"].get("transition_t")), located)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+import time
 
 from equilibrium import solve, solve_signed
 from workbench.commands._common import add_field_options, add_output_options, check_output, field_and_set_from_args
@@ -27,12 +28,17 @@ def run(args: argparse.Namespace) -> int:
     check_output(args)
     field, on = field_and_set_from_args(args)
     # marked, not raised: an unverified measure is printed (and written) with its failed figures, exit 3
+    started = time.perf_counter()
     mu = solve_signed(field, on, on_failure="mark") if args.signed else solve(field, on, on_failure="mark")
     if args.out:
-        from workbench.results import write_group_file
+        from workbench.results import write_command_file
 
         tree = measure_group(mu)
-        write_group_file(args.out, _wrap(tree), command="workbench equilibrium", field=field.description, set=on.describe())
+        tree.attrs.update({"field": field.description, "set": on.describe()})
+        write_command_file(args.out, _wrap(tree), "equilibrium",
+                           {"field": f"V = {field.description}", "field_parameters": dict(field.parameters),
+                            "set": on.describe(), "signed": bool(args.signed), "factor": "h = 1"},
+                           time.perf_counter() - started)
     if args.json:
         print(measure_json(mu))
     else:

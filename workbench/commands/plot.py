@@ -12,7 +12,8 @@ def register(subparsers) -> None:
     parser = subparsers.add_parser(
         "plot", help="redraw the figures of a run or sweep file (no recomputation)",
         description="Draw every figure that the data in FILE.h5 supports, from that data alone.")
-    parser.add_argument("file", metavar="FILE.h5", help="file written by 'workbench run' or 'sweep'")
+    parser.add_argument("file", metavar="FILE.h5",
+                        help="file written by 'workbench run', 'sweep' or 'equilibrium/recurrence/zeros --out'")
     parser.add_argument("--out", metavar="DIR", default=None,
                         help="folder for the figures (default: figures/ beside the file)")
     parser.add_argument("--formats", default="pdf,png", help="comma-separated: pdf, png (default both)")

@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+import time
 
 import numpy as np
 
@@ -59,15 +60,19 @@ def run(args: argparse.Namespace) -> int:
     weight, field, on, n = build_weight(args)
     tolerance = _tolerance(args.tolerance)
     check_memory(weight, count)
+    started = time.perf_counter()
     rc = recurrence_coefficients(weight, count, tolerance=tolerance)
     if args.out:
-        from workbench.hdf5 import atomic_file, set_attributes
+        from workbench.results import Group, write_command_file
 
-        with atomic_file(args.out) as handle:
-            group = handle.create_group("recurrence")
-            group.create_dataset("a", data=rc.a)
-            group.create_dataset("b", data=rc.b)
-            set_attributes(group, _attributes(rc, weight, field, on, count))
+        root = Group()
+        group = root.group("recurrence")
+        group.attrs.update(_attributes(rc, weight, field, on, count))
+        group.add("k", np.arange(count + 1), "index k of the coefficients")
+        group.add("a", rc.a, "a_k^{(n)} (a[0] = 0) of x p_k = a_{k+1} p_{k+1} + b_k p_k + a_k p_{k-1}")
+        group.add("b", rc.b, "b_k^{(n)}")
+        write_command_file(args.out, root, "recurrence", file_parameters(weight, field, on),
+                           time.perf_counter() - started)
     if args.json:
         print(json.dumps({
             "a": rc.a.tolist(), "b": rc.b.tolist(), "error_estimate": rc.error_estimate,
@@ -83,6 +88,12 @@ def run(args: argparse.Namespace) -> int:
     for k in range(count + 1):
         out.write(f"{k:>7}  {rc.a[k]:>24.17g}  {rc.b[k]:>24.17g}\n")
     return 0
+
+
+def file_parameters(weight, field, on) -> dict:
+    """The ``parameters`` attribute of a command file: the weight as the run files describe it."""
+    return {"field": f"V = {field.description}", "field_parameters": dict(field.parameters),
+            "set": on.describe(), "factor": f"h = {weight.factor_description}", "n": weight.n}
 
 
 def _attributes(rc, weight, field, on, count) -> dict:

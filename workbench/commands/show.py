@@ -17,7 +17,8 @@ def register(subparsers) -> None:
         "show", help="print a summary table of a run or sweep file",
         description="Print what a workbench HDF5 file holds: the case, the equilibrium measure, "
                     "direct against predicted quantities at every n, and the fitted rates.")
-    parser.add_argument("file", metavar="FILE.h5", help="file written by 'workbench run' or 'sweep'")
+    parser.add_argument("file", metavar="FILE.h5",
+                        help="file written by 'workbench run', 'sweep' or 'equilibrium/recurrence/zeros --out'")
     parser.set_defaults(handler=run)
 
 
@@ -59,8 +60,12 @@ def text_list(value) -> list[str]:
 
 def summary_lines(tree, name: str = "") -> list[str]:
     """Text summary of a run (or sweep) tree read back from a file."""
+    from workbench.results import COMMAND_FORMATS
+
     attrs = tree.attrs
-    lines = [f"{name}: {attrs.get('format', '?')} of case '{attrs.get('case_name', '?')}' "
+    origin = (f"written by '{attrs.get('command', '?')}'" if attrs.get("format") in COMMAND_FORMATS
+              else f"of case '{attrs.get('case_name', '?')}'")
+    lines = [f"{name}: {attrs.get('format', '?')} {origin} "
              f"(workbench {attrs.get('workbench_version', '?')}, {attrs.get('created_utc', '?')}"
              + (f", commit {str(attrs['git_commit'])[:10]}" if "git_commit" in attrs else "") + ")"]
     params = json.loads(attrs.get("parameters", "{}") or "{}")
@@ -78,6 +83,7 @@ def summary_lines(tree, name: str = "") -> list[str]:
                      f"  Omega {np.array2string(np.asarray(eq.get('omega')), precision=6)}"
                      f"  ell = {eq.attrs.get('lagrange'):.10g}  energy = {eq.attrs.get('energy'):.10g}"
                      f"  verified = {eq.attrs.get('verified')}")
+    lines += _command_lines(tree)
     comp = tree.groups.get("comparison")
     if comp is not None:
         columns = [("n", "n"), ("a_direct", "a_n direct"), ("a_model", "a_n model"),
@@ -122,6 +128,24 @@ def summary_lines(tree, name: str = "") -> list[str]:
     timings = json.loads(attrs.get("timings_s", "{}") or "{}")
     if timings:
         lines.append("  timings (s): " + ", ".join(f"{k} {v:.2f}" for k, v in timings.items()))
+    return lines
+
+
+def _command_lines(tree) -> list[str]:
+    """The /recurrence or /zeros group of a file written by ``recurrence`` or ``zeros --out``."""
+    lines = []
+    rec = tree.groups.get("recurrence")
+    if rec is not None and rec.has("a"):
+        a, b = np.asarray(rec.get("a")), np.asarray(rec.get("b"))
+        lines.append(f"  recurrence coefficients k = 0..{a.size - 1} of {rec.attrs.get('method', '?')}")
+        lines.append(f"    a_K = {a[-1]:.15g}  b_K = {b[-1]:.15g}  error estimate {_fmt(rec.attrs.get('error_estimate'), 1).strip()}"
+                     f"  verified = {rec.attrs.get('verified')}")
+    zeros = tree.groups.get("zeros")
+    if zeros is not None and zeros.has("zeros"):
+        x = np.asarray(zeros.get("zeros"))
+        lines.append(f"  zeros of p_{zeros.attrs.get('degree', x.size)}: {x.size} in [{x[0]:.15g}, {x[-1]:.15g}]")
+        lines.append(f"    recurrence error estimate {_fmt(zeros.attrs.get('error_estimate'), 1).strip()}"
+                     f"  verified = {zeros.attrs.get('verified')}")
     return lines
 
 

@@ -5,10 +5,11 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+import time
 
 
 from ._common import add_field_options, check_output, positive_integer
-from .recurrence import _attributes, _tolerance, build_weight
+from .recurrence import _attributes, _tolerance, build_weight, file_parameters
 
 
 def register(subparsers) -> None:
@@ -35,19 +36,25 @@ def run(args: argparse.Namespace) -> int:
     degree = n if args.degree is None else positive_integer(args.degree, "--degree")
     tolerance = _tolerance(args.tolerance)
     check_memory(weight, degree)
+    started = time.perf_counter()
     rc = recurrence_coefficients(weight, degree - 1, tolerance=tolerance)
     rule = gauss_rule(rc, degree)
     if args.out:
-        from workbench.hdf5 import atomic_file, set_attributes
+        import numpy as np
 
-        with atomic_file(args.out) as handle:
-            group = handle.create_group("zeros")
-            group.create_dataset("zeros", data=rule.nodes)
-            group.create_dataset("log_weights", data=rule.log_weights)
-            attributes = _attributes(rc, weight, field, on, degree - 1)
-            attributes.update(degree=degree, gauss_checks=dict(rule.checks),
-                              description=f"zeros of p_{degree} ascending; log of the Gauss (Christoffel) weights")
-            set_attributes(group, attributes)
+        from workbench.results import Group, write_command_file
+
+        root = Group()
+        group = root.group("zeros")
+        attributes = _attributes(rc, weight, field, on, degree - 1)
+        attributes.update(degree=degree, gauss_checks=dict(rule.checks),
+                          description=f"zeros of p_{degree} ascending; log of the Gauss (Christoffel) weights")
+        group.attrs.update(attributes)
+        group.add("j", np.arange(1, degree + 1), "number j of the zero, ascending")
+        group.add("zeros", rule.nodes, f"zeros x_j of p_{degree}, ascending (eigenvalues of the Jacobi matrix)")
+        group.add("log_weights", rule.log_weights, "log of the Gauss (Christoffel) weights lambda_j")
+        write_command_file(args.out, root, "zeros", file_parameters(weight, field, on),
+                           time.perf_counter() - started)
     if args.json:
         print(json.dumps({
             "zeros": rule.nodes.tolist(), "log_weights": rule.log_weights.tolist(), "degree": degree, "n": n,
