@@ -42,7 +42,8 @@ import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
 
-__all__ = ["Corrections", "corrections", "outer_form", "band_form", "gap_zeros", "bulk_pieces", "bulk_zeros"]
+__all__ = ["Corrections", "corrections", "outer_form", "band_form", "value_form", "interior_singular_points",
+           "gap_zeros", "bulk_pieces", "bulk_zeros"]
 
 _LIFT = 1e-300j
 
@@ -162,6 +163,35 @@ def band_form(predictor, x, degree: int, order: int = 0, *, corrections: Correct
     if predictor.szego is not None:
         m = m / predictor.szego.boundary_values(x)[0]
     return 2.0 * (m * np.exp(n * (gp - shift))).real
+
+
+def value_form(predictor, x, degree: int, order: int = 0, *, corrections: Corrections | None = None) -> np.ndarray:
+    r"""``p_n w_n^{1/2} / (γ_n e^{-nℓ/2})`` on the bands, to a relative ``O(n^{-order-1})``.
+
+    With ``w_n = e^{-nV} h`` and ``p_n = γ_n π_n``, :func:`band_form` gives
+    ``π_n e^{-nV/2} e^{nℓ/2}/D_∞``, and ``h^{1/2} = |D_+|`` on the bands (``D_+ D_- = h``,
+    ``D_- = conj D_+`` for a real positive factor; ``gfunction.szego``), so
+
+        p_n w_n^{1/2} = γ_n e^{-nℓ/2} · D_∞ |D_+| · band_form.
+
+    Without a factor this is :func:`band_form` itself.  The bulk form does not hold next to a
+    singular point of the factor inside a band (:func:`interior_singular_points`), nor at the
+    edges: use it in the bulk.
+    """
+    form = band_form(predictor, x, degree, order, corrections=corrections)
+    if predictor.szego is None:
+        return form
+    return form * predictor.szego.limit * np.abs(predictor.szego.boundary_values(np.asarray(x, dtype=float))[0])
+
+
+def interior_singular_points(predictor) -> list[float]:
+    """The singular points ``c`` of the factor strictly inside a band (Fisher–Hartwig roots): the
+    bulk form has no local parametrix there (``gfunction.residual``)."""
+    if predictor.szego is None:
+        return []
+    support = predictor.measure.support
+    return [float(c) for c, _ in predictor.szego.points
+            if any(a + 1e-12 * max(1.0, abs(a)) < c < b - 1e-12 * max(1.0, abs(b)) for a, b in support)]
 
 
 def gap_zeros(predictor, degrees, order: int = 1, *, corrections: Corrections | None = None,

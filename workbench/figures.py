@@ -277,8 +277,17 @@ def draw_coefficients(tree: Group):
 ORDER_VARIANTS = (("", "order 0"), ("_order1", "order 1"), ("_order2", "order 2"), ("_residual", "residual"))
 
 
+#: the quantities drawn by order in the second row of the errors figure: (name in err_<name>, title,
+#: an extra leading series); the zeros and values beyond leading order come from workbench.orders
+ORDER_PANELS = (("a", "$a_n$ by order", None), ("b", "$b_n$ by order", None),
+                ("values", "$p_n$, bulk, by order", None),
+                ("zeros_edge_right", "zeros, right {kind} edge", None),
+                ("zeros_edge_left", "zeros, left {kind_left} edge", None),
+                ("zeros_gap", "zeros, gaps, by order", None))
+
+
 def _is_order_key(key: str) -> bool:
-    return any(key == f"err_{q}{suffix}" for q in ("a", "b") for suffix, _ in ORDER_VARIANTS[1:])
+    return key.startswith("err_") and any(key.endswith(suffix) for suffix, _ in ORDER_VARIANTS[1:])
 
 
 def _error_series(ax, n, comp, rates, key, text, k):
@@ -313,12 +322,15 @@ def draw_errors(tree: Group):
         return None
     n = np.asarray(comp.get("n"), dtype=float)
     rates = comp.groups.get("rates", Group())
-    variants = [(suffix, label) for suffix, label in ORDER_VARIANTS[1:] if comp.has(f"err_a{suffix}")]
+    variants = [(suffix, label) for suffix, label in ORDER_VARIANTS[1:]
+                if any(comp.has(f"err_{q}{suffix}") for q, _, _ in ORDER_PANELS)]
+    panels = [p for p in ORDER_PANELS if any(comp.has(f"err_{p[0]}{suffix}") for suffix, _ in variants)]
     if variants:
         from matplotlib.figure import Figure
 
-        fig = Figure(figsize=(3.4, 6.2), layout="constrained")
-        top, bottom = fig.subfigures(2, 1, height_ratios=[1.2, 1.0])
+        rows = (len(panels) + 1) // 2
+        fig = Figure(figsize=(3.4, 3.4 + 2.8 * rows), layout="constrained")
+        top, bottom = fig.subfigures(2, 1, height_ratios=[1.2, 1.0 * rows])
         ax = top.subplots()
     else:
         fig, axes = new_figure(height=3.2)
@@ -351,12 +363,20 @@ def draw_errors(tree: Group):
                   columnspacing=1.0, handletextpad=0.3)
     thin_tick_labels(fig, ax.xaxis)
     if variants:
-        pair = bottom.subplots(1, 2, sharey=True)
-        for axq, q in zip(pair, ("a", "b")):
+        grid = bottom.subplots((len(panels) + 1) // 2, 2, squeeze=False)
+        if len(panels) % 2:
+            grid[-1, -1].set_visible(False)
+        model = tree.groups.get("model", Group())
+        kinds = {"kind": model.attrs.get("edge_kind", "soft"), "kind_left": model.attrs.get("edge_kind_left", "soft")}
+        for axq, (q, title, extra) in zip(grid.ravel(), panels):
+            title = title.format(**kinds)
             hs, ls, ns = [], [], []
-            for k, (suffix, label) in enumerate([ORDER_VARIANTS[0]] + variants):
-                if comp.has(f"err_{q}{suffix}"):
-                    got = _error_series(axq, n, comp, rates, f"err_{q}{suffix}", label, k)
+            series = [(f"err_{q}{suffix}", label) for suffix, label in [ORDER_VARIANTS[0]] + variants]
+            if extra is not None:
+                series.insert(0, extra)
+            for k, (key, label) in enumerate(series):
+                if comp.has(key):
+                    got = _error_series(axq, n, comp, rates, key, label, k)
                     if got is not None:
                         hs.append(got[0])
                         ls.append(got[1])
@@ -367,11 +387,12 @@ def draw_errors(tree: Group):
                 used = np.concatenate(ns)
                 set_log_axis(axq.xaxis, float(used.min()), float(used.max()))
             axq.set_xlabel("$n$")
-            axq.set_title(f"${q}_n$ by order", fontsize=8)
+            axq.set_title(title, fontsize=8)
             axq.legend(hs, ls, loc="upper center", bbox_to_anchor=(0.5, -0.24), ncol=1, fontsize=5.5,
                        handletextpad=0.3, borderaxespad=0.0)
             thin_tick_labels(fig, axq.xaxis)
-        pair[0].set_ylabel("|direct $-$ model|")
+        for axq in grid[:, 0]:
+            axq.set_ylabel("|direct $-$ model|")
     return fig
 
 
@@ -396,7 +417,11 @@ def draw_gap_zeros(tree: Group):
         return None  # nothing to show (e.g. the model failed and no zero fell in a gap)
     eq = tree.groups.get("equilibrium", Group())
     support = np.atleast_2d(eq.get("support")) if eq.has("support") else None
-    fig, axes = new_figure(height=2.7)
+    orders = [(suffix, label) for suffix, label in ORDER_VARIANTS[1:] if comp.has(f"err_zeros_gap{suffix}")]
+    if orders:
+        fig, axes = new_figure(height=5.4, nrows=2, height_ratios=[1.2, 1.0])
+    else:
+        fig, axes = new_figure(height=2.7)
     ax = axes[0, 0]
     handles, labels = [], []
     for j in range(direct.shape[1]):
@@ -414,7 +439,31 @@ def draw_gap_zeros(tree: Group):
     ax.set_xlabel("$n$")
     ax.set_ylabel("zero of $p_n$ in the gap")
     ax.set_title("zeros in the gaps (no marker: no zero there)")
-    _legend_below(fig, handles, labels)
+    if not orders:
+        _legend_below(fig, handles, labels)
+        return fig
+    # beyond leading order (workbench.orders): the error of the gap zeros by order, with fitted slopes
+    ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, -0.2), ncol=2, fontsize=6.5)
+    axe = axes[1, 0]
+    rates = comp.groups.get("rates", Group())
+    n_arr = np.asarray(n, dtype=float)
+    hs, ls, used = [], [], []
+    for k, (suffix, label) in enumerate([ORDER_VARIANTS[0]] + orders):
+        got = _error_series(axe, n_arr, comp, rates, f"err_zeros_gap{suffix}", label, k)
+        if got is not None:
+            hs.append(got[0])
+            ls.append(got[1])
+            used.append(got[2])
+    axe.set_xscale("log")
+    axe.set_yscale("log")
+    if used:
+        both = np.concatenate(used)
+        set_log_axis(axe.xaxis, float(both.min()), float(both.max()))
+    axe.set_xlabel("$n$")
+    axe.set_ylabel("|direct $-$ model|")
+    axe.set_title("error of the gap zeros by order (max over gaps)", fontsize=8)
+    axe.legend(hs, ls, loc="upper center", bbox_to_anchor=(0.5, -0.3), ncol=2, fontsize=6.5)
+    thin_tick_labels(fig, axe.xaxis)
     return fig
 
 

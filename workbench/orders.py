@@ -8,6 +8,16 @@ coefficients ``corrections_a``, ``corrections_b`` (``c_1 … c_K`` per n;
 ``err_a`` (order 0), ``err_a_order1`` …, ``err_a_residual`` and the same for ``b``, each with a
 fitted rate in ``/comparison/rates``; the errors figure draws them side by side.
 
+The zeros and values of ``p_n`` go the same way (:func:`model_zero_orders`): with order K
+``/model`` also holds ``edge_zeros_order{k}`` and ``edge_zeros_left_order{k}`` (the Airy or
+Bessel form with ``R`` through ``R^{(k)}``, :func:`gfunction.edge_zeros.edge_zeros`),
+``gap_zeros_order{k}`` and ``values_shape_order{k}`` (:mod:`gfunction.polynomial_form`), all
+from one residual expansion per order and n; ``/comparison`` holds
+``err_zeros_edge_right_order{k}``, ``err_zeros_edge_left_order{k}``, ``err_zeros_edge_order{k}``,
+``err_zeros_gap_order{k}`` and ``err_values_order{k}`` with their rates.  Expected slopes
+(derived in those modules): edge zeros ``-(k+2)`` at soft edges, ``-(k+4)`` at hard edges
+(absolute; relative ``-(k+2)``), gap zeros ``-(k+1)``, bulk values ``-(k+1)``.
+
 To add a corrected quantity q: store ``q_order{k}`` in :func:`model_orders`, compare it in
 :func:`order_errors` as ``err_q_order{k}``, and give it a label in ``workbench.figures``.
 """
@@ -19,10 +29,13 @@ import numpy as np
 from equilibrium.errors import InputError
 from workbench.compare import absolute_errors
 
-__all__ = ["model_orders", "order_errors", "order_error_keys", "check_model_request"]
+__all__ = ["model_orders", "model_zero_orders", "order_errors", "order_error_keys", "order_suffixes",
+           "check_model_request"]
 
 #: the coefficient quantities with orders
 _QUANTITIES = ("a", "b")
+#: the zero and value errors with orders (``err_<name>_order{k}``; ``workbench.pipeline``)
+_ZERO_QUANTITIES = ("values", "zeros_edge", "zeros_edge_right", "zeros_edge_left", "zeros_gap")
 
 
 def check_model_request(case, mu) -> None:
@@ -81,6 +94,54 @@ def model_orders(case, pred, ns: np.ndarray, node) -> list[str]:
     return messages
 
 
+def model_zero_orders(case, pred, ns: np.ndarray, node, edges, points, count: int) -> list[str]:
+    """Edge zeros, gap zeros and bulk values at orders 1 … K into ``/model`` (module docstring).
+
+    ``edges`` -- ``(suffix, edge number)`` of the outer edges whose zeros the run predicts at
+    order 0 (``""`` right, ``"_left"`` left); ``points`` -- the bulk points of the values (None:
+    values not predicted); ``count`` -- zeros per edge.  One residual expansion per order and n serves all three.  Returns
+    the messages of the parts that are not verified.
+    """
+    from gfunction.edge_zeros import edge_zeros
+    from gfunction.polynomial_form import corrections, gap_zeros, value_form
+    from gfunction.residual import jump_expansion
+
+    top = int(case.model.order)
+    if top < 1:
+        return []
+    messages = []
+    jump = jump_expansion(pred, top)
+    for k in range(1, top + 1):
+        cor = corrections(pred, ns, k, jump=jump)
+        if not cor.verified:
+            messages.append(f"order {k} residual expansion: {cor.message}")
+        for suffix, index in edges:
+            found = [edge_zeros(pred, index, int(n), count, order=k, corrections=cor, on_failure="mark")
+                     for n in ns]
+            messages += sorted({z.message for z in found if not z.verified})
+            node.add(f"edge_zeros{suffix}_order{k}", np.array([z.zeros for z in found]),
+                     f"zeros next to the {'left' if suffix else 'right'} edge from the {found[0].form} with R "
+                     f"through R^({k})/n^{k} (gfunction.edge_zeros), counted from the edge inward")
+        if pred.genus:
+            gaps = gap_zeros(pred, ns, k, corrections=cor, on_failure="mark")
+            if not gaps.verified:
+                messages.append(gaps.message)
+            node.add(f"gap_zeros_order{k}", np.asarray(gaps.zeros, dtype=float),
+                     f"zero of p_n in gap j from the outer form with R through R^({k})/n^{k} "
+                     "(gfunction.polynomial_form; NaN: none)")
+        if points is not None:
+            node.add(f"values_shape_order{k}", np.array([value_form(pred, points, int(n), k, corrections=cor)
+                                                         for n in ns]),
+                     f"predicted p_n w^{{1/2}} / (gamma_n e^{{-n ell/2}}) at value_x with R through R^({k})/n^{k} "
+                     "(gfunction.polynomial_form.value_form)", dims=("n", "value_x"))
+    return messages
+
+
+def order_suffixes(model, stem: str) -> list[str]:
+    """The suffixes ``_order1``, ``_order2`` … of the datasets ``<stem>_order{k}`` in ``model``."""
+    return [f"_order{k}" for k in range(1, 10) if model.has(f"{stem}_order{k}")]
+
+
 def _variants(model) -> list[str]:
     """Suffixes of the stored predictions beyond leading order, in order: ``_order1`` …, ``_residual``."""
     out = [f"_order{k}" for k in range(1, 10) if model.has(f"a_order{k}")]
@@ -105,5 +166,7 @@ def order_errors(node, model, direct: dict) -> None:
 
 def order_error_keys(node) -> list[str]:
     """The error datasets of :func:`order_errors` present in ``node`` (for rates and checks)."""
-    return [f"err_{q}{suffix}" for suffix in ([f"_order{k}" for k in range(1, 10)] + ["_residual"])
+    keys = [f"err_{q}{suffix}" for suffix in ([f"_order{k}" for k in range(1, 10)] + ["_residual"])
             for q in _QUANTITIES if node.has(f"err_{q}{suffix}")]
+    return keys + [f"err_{q}_order{k}" for k in range(1, 10) for q in _ZERO_QUANTITIES
+                   if node.has(f"err_{q}_order{k}")]

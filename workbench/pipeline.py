@@ -38,6 +38,7 @@ shrink like ``1/n``.
 
 from __future__ import annotations
 
+import re
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -49,7 +50,8 @@ from equilibrium.errors import InputError, NumericalFailure
 from workbench import compare
 from workbench.case import Case
 from workbench.hdf5 import check_output_directory, make_output_directory
-from workbench.orders import check_model_request, model_orders, order_error_keys, order_errors
+from workbench.orders import (check_model_request, model_orders, model_zero_orders, order_error_keys, order_errors,
+                             order_suffixes)
 from workbench.results import (
     Group,
     load_partials,
@@ -236,14 +238,16 @@ def comparison_group(tree: Group, ns: Sequence[int], case: Case) -> Group:
     if model.has("values_shape") and case.comparisons.values:
         ell = float(eq.attrs["lagrange"])
         # the model's bulk form times gamma_n e^{-n ell/2} from the direct log-mass and a_k
-        predicted = np.array([compare.value_normalisation(float(d.attrs["log_mass"]), d.get("a"), int(n), ell)
-                              * np.asarray(shape, dtype=float)
-                              for d, n, shape in zip(direct, ns, model.get("values_shape"))])
+        norms = np.array([compare.value_normalisation(float(d.attrs["log_mass"]), d.get("a"), int(n), ell)
+                          for d, n in zip(direct, ns)])
         values = np.array([d.get("values") for d in direct])
-        node.add("values_model", predicted, "predicted p_n w^{1/2} at the bulk points "
-                 "(model form times the direct gamma_n)")
-        node.add("err_values", np.max(compare.absolute_errors(values, predicted), axis=1),
-                 "max over the bulk points of |p_n w^{1/2} direct - model|")
+        for suffix in [""] + order_suffixes(model, "values_shape"):
+            predicted = norms[:, None] * np.asarray(model.get(f"values_shape{suffix}"), dtype=float)
+            what = _order_words(suffix)
+            node.add(f"values_model{suffix}", predicted, f"predicted p_n w^{{1/2}} at the bulk points ({what}; "
+                     "model form times the direct gamma_n)")
+            node.add(f"err_values{suffix}", np.max(compare.absolute_errors(values, predicted), axis=1),
+                     f"max over the bulk points of |p_n w^{{1/2}} direct - model| ({what})")
     _log_hankel_comparison(node, direct, ns, model, case)
     if all(d.has("small_norm") for d in direct) and case.comparisons.small_norm:
         node.add("small_norm", np.array([np.max(d.get("small_norm")) for d in direct]),
@@ -305,6 +309,11 @@ def _log_hankel_comparison(node: Group, direct: Sequence[Group], ns: np.ndarray,
                  "|log D_n direct - expansion| (every term known for the weight, /model/log_hankel_terms)")
 
 
+def _order_words(suffix: str) -> str:
+    """``""`` -> ``"order 0"``, ``"_order2"`` -> ``"order 2"``: the order of a stored prediction."""
+    return "order 0" if not suffix else suffix.lstrip("_").replace("order", "order ")
+
+
 def _n_list(ns: np.ndarray, limit: int = 8) -> str:
     values = [int(v) for v in ns]
     shown = ", ".join(str(v) for v in values[:limit])
@@ -328,12 +337,9 @@ def comparison_notes(tree: Group, case: Case) -> tuple[list[str], list[str]]:
         return notes, failures  # the failed model has its own message
     ns = np.asarray(comp.get("n"))
     wanted = case.comparisons
-    with_factor = not case.factor.is_one
     if wanted.values and not comp.has("err_values"):
-        notes.append("values of p_n not compared: " + (
-            f"the bulk form of the model side leaves out the Szego function of the factor "
-            f"({case.factor.describe()})"
-            if with_factor else "the model side gave no bulk form"))
+        notes.append("values of p_n not compared: " + str(model.attrs.get(
+            "values_skipped", "the model side gave no bulk form")))
     if wanted.small_norm and not comp.has("small_norm"):
         notes.append("small-norm check not made: " + str(model.attrs.get(
             "small_norm_skipped", "the model side gave no outer parametrix on the circles")))
@@ -363,12 +369,12 @@ def comparison_notes(tree: Group, case: Case) -> tuple[list[str], list[str]]:
                      "inside the matching discs of the outer edges, where the Airy/Bessel forms hold)")
     # a comparison that was made must have a number at every n
     for key in ERROR_QUANTITIES + tuple(order_error_keys(comp)):
-        if key == "err_zeros_gap" or not comp.has(key):
+        if key.startswith("err_zeros_gap") or not comp.has(key):
             continue
         values = np.asarray(comp.get(key), dtype=float)
         bad = ~np.isfinite(values)
         if key.startswith("err_zeros_edge"):
-            side = key.removeprefix("err_zeros_edge").removeprefix("_")
+            side = re.sub(r"_order\d+$", "", key.removeprefix("err_zeros_edge")).removeprefix("_")
             if side in EDGE_SUFFIX and comp.has(f"edge_zeros{EDGE_SUFFIX[side]}_compared"):
                 bad &= np.asarray(comp.get(f"edge_zeros{EDGE_SUFFIX[side]}_compared")) > 0
             else:
@@ -390,6 +396,7 @@ def _zero_errors(node: Group, zeros_direct, model: Group, support, gap_direct) -
         node.add("err_zeros_bulk", np.asarray(errs),
                  "max over the predicted bulk zeros of the distance to the nearest zero of p_n")
     worst_form, worst_scaling = [], []
+    worst_orders: dict[str, list] = {}
     for side, _ in EDGE_SIDES:
         suffix = EDGE_SUFFIX[side]
         if not model.has(f"edge_zeros{suffix}"):
@@ -401,11 +408,16 @@ def _zero_errors(node: Group, zeros_direct, model: Group, support, gap_direct) -
         node.add(f"edge_zeros{suffix}_direct", found, f"zeros of p_n next to the {side} edge, counted inward")
         # zeros beyond the matching disc have no prediction (NaN): the error is over the others
         worst_form.append(compare.finite_maximum(compare.absolute_errors(found, predicted)))
+        kind = model.attrs.get(f"edge_kind{suffix}", "soft")
+        for order in order_suffixes(model, f"edge_zeros{suffix}"):
+            err = compare.finite_maximum(compare.absolute_errors(found, model.get(f"edge_zeros{suffix}{order}")))
+            worst_orders.setdefault(order, []).append(err)
+            node.add(f"err_zeros_edge_{side}{order}", err, f"max over the zeros next to the {side} ({kind}) "
+                     f"edge of |direct - predicted| ({_order_words(order)})")
         scaling = np.asarray(model.get(f"edge_zeros{suffix}_scaling"), dtype=float)
         worst_scaling.append(compare.finite_maximum(compare.absolute_errors(found, scaling)))
         node.add(f"edge_zeros{suffix}_compared", np.isfinite(predicted).sum(axis=1),
                  f"number of zeros next to the {side} edge predicted inside the matching disc and compared")
-        kind = model.attrs.get(f"edge_kind{suffix}", "soft")
         node.add(f"err_zeros_edge_{side}", worst_form[-1],
                  f"max over the zeros next to the {side} ({kind}) edge of |direct - predicted| (order 0)")
         reference = np.asarray(model.get(f"edge_model_zeros{suffix}"), dtype=float)[:m]
@@ -420,6 +432,9 @@ def _zero_errors(node: Group, zeros_direct, model: Group, support, gap_direct) -
                  "max over the outer edges and their zeros of |direct - predicted| (Airy or Bessel form, order 0)")
         node.add("err_zeros_edge_scaling", compare.finite_maximum(np.array(worst_scaling).T),
                  "max over the outer edges and their zeros of |direct - scaling prediction|")
+    for order, worst in worst_orders.items():
+        node.add(f"err_zeros_edge{order}", compare.finite_maximum(np.array(worst).T),
+                 f"max over the outer edges and their zeros of |direct - predicted| ({_order_words(order)})")
     if model.has("gap_zeros") and gap_direct.shape[1]:
         predicted = np.asarray(model.get("gap_zeros"), dtype=float).reshape(gap_direct.shape)
         node.add("gap_zeros_model", predicted, "predicted zero in gap j (NaN: none)")
@@ -427,6 +442,13 @@ def _zero_errors(node: Group, zeros_direct, model: Group, support, gap_direct) -
         err = np.where(both, compare.absolute_errors(predicted, gap_direct), np.nan)
         node.add("err_zeros_gap", compare.finite_maximum(err),
                  "max over gaps of |gap zero direct - predicted| (where both exist)")
+        for order in order_suffixes(model, "gap_zeros"):
+            predicted = np.asarray(model.get(f"gap_zeros{order}"), dtype=float).reshape(gap_direct.shape)
+            node.add(f"gap_zeros_model{order}", predicted, f"predicted zero in gap j ({_order_words(order)})")
+            both = np.isfinite(predicted) & np.isfinite(gap_direct)
+            err = np.where(both, compare.absolute_errors(predicted, gap_direct), np.nan)
+            node.add(f"err_zeros_gap{order}", compare.finite_maximum(err),
+                     f"max over gaps of |gap zero direct - predicted| where both exist ({_order_words(order)})")
         node.add("gap_zero_presence_mismatch",
                  (np.isfinite(predicted) != np.isfinite(gap_direct)).sum(axis=1),
                  "gaps where one of direct/model has a zero and the other none")
@@ -603,6 +625,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     """
     from gfunction.edge_zeros import edge_scaling_zeros, edge_zeros
     from gfunction.local import edge_parametrix
+    from gfunction.polynomial_form import interior_singular_points, value_form
     from gfunction.predict import predictor
 
     ns_arr = np.asarray(sorted(ns), dtype=np.int64)
@@ -636,6 +659,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
 
     support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
     k = support.shape[0]
+    edges = []   # (suffix, edge number) of the outer edges with zeros predicted
     for side, index in EDGE_SIDES:
         index = index % (2 * k)
         where = "b_k" if side == "right" else "a_1"
@@ -648,6 +672,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
         form = [edge_zeros(pred, index, int(n), EDGE_ZEROS, order=0, on_failure="mark") for n in ns_arr]
         unverified += sorted({z.message for z in scaling + form if not z.verified})
         suffix, name = EDGE_SUFFIX[side], form[0].form
+        edges.append((suffix, index))
         node.attrs.update({f"edge_kind{suffix}": form[0].kind, f"edge_alpha{suffix}": float(form[0].alpha)})
         node.add(f"edge_zeros{suffix}", np.array([z.zeros for z in form]),
                  f"predicted zeros next to the {side} edge {where} from the {name} of the local parametrix "
@@ -671,12 +696,20 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
                                    "order) away from the ends of each band and from singular points "
                                    "of the factor (10% of the band width); NaN pads row i")
 
-    if case.factor.is_one:
+    points = None
+    interior = interior_singular_points(pred)
+    if interior:
+        node.attrs["values_skipped"] = (
+            f"the factor ({case.factor.describe()}) is singular at c = {', '.join(f'{c:g}' for c in interior)} "
+            "inside a band, where the bulk form has no local parametrix")
+    else:
         points = _bulk_points(mu, case.polynomials.value_points)
         node.add("value_x", points, "bulk points (inner 70% of each band)")
-        node.add("values_shape", np.array([pred.band_form(points, int(n)) for n in ns_arr]),
-                 "Re[M11+ e^{n(g+ - V/2 + ell/2)} + M11- e^{n(g- - V/2 + ell/2)}]: predicted "
-                 "p_n w^{1/2} divided by gamma_n e^{-n ell/2}", dims=("n", "value_x"))
+        node.add("values_shape", np.array([value_form(pred, points, int(n)) for n in ns_arr]),
+                 "D_inf |D_+| Re[M11+ e^{n(g+ - V/2 + ell/2)}/D_+ + M11- e^{n(g- - V/2 + ell/2)}/D_-]: predicted "
+                 "p_n w^{1/2} divided by gamma_n e^{-n ell/2} (D the Szego function of the factor, 1 without one; "
+                 "gfunction.polynomial_form.value_form, order 0)", dims=("n", "value_x"))
+    unverified += model_zero_orders(case, pred, ns_arr, node, edges, points, EDGE_ZEROS)
 
     helpers = {}
     if case.comparisons.small_norm and not case.factor.is_one:

@@ -1,7 +1,7 @@
 """A run with [model] order = 2 and method = "residual": stored predictions, errors per order, rates,
 the errors figure with the orders side by side, and the refusals of the [model] table.
 
-Sources: the direct coefficients of the run itself (V = 3x on [-1, 1] with a Jacobi factor: a hard edge
+Sources: the direct coefficients, zeros and values of the run itself (V = 3x on [-1, 1] with a Jacobi factor: a hard edge
 at -1 with β = 0.3, a soft edge at 1/3, one band, so the correction constants do not depend on n).
 """
 
@@ -59,8 +59,26 @@ def test_orders_in_a_run(tmp_path):
     for q in ("a", "b"):
         assert abs(rates[f"err_{q}_order2"].attrs["slope"] + 3) < 0.2, rates[f"err_{q}_order2"].attrs
     assert "note" in rates["err_a_residual"].attrs                  # rounding level: no rate
+    # zeros and values by order (workbench.orders.model_zero_orders) against the run's direct zeros and
+    # values.  Measured at n = 100, 200, 400: soft right edge 7.9e-6 … 5.3e-7 (order 0), 3.4e-8 …
+    # 5.8e-10 (order 1, slope -2.95), 2.4e-10 … 1.0e-12 (order 2, -3.96); hard left edge 3.1e-8 …
+    # 1.2e-10 (order 0, -3.99), 4.6e-11 … 4.6e-14 (order 1, -5.00), order 2 at rounding from n = 200;
+    # bulk values 5.4e-3 … 1.7e-3 (order 0), 9.4e-5 … 5.7e-6 (order 1, -2.02), 1.3e-6 … 2.8e-8 (order 2)
+    for k in (1, 2):
+        assert np.asarray(model.get(f"edge_zeros_order{k}")).shape == (3, 5)
+        assert np.asarray(model.get(f"values_shape_order{k}")).shape == np.asarray(model.get("values_shape")).shape
+    assert abs(rates["err_zeros_edge_right"].attrs["slope"] + 2) < 0.1
+    assert abs(rates["err_zeros_edge_right_order1"].attrs["slope"] + 3) < 0.1
+    assert abs(rates["err_zeros_edge_right_order2"].attrs["slope"] + 4) < 0.1
+    assert abs(rates["err_zeros_edge_left"].attrs["slope"] + 4) < 0.1
+    assert abs(rates["err_zeros_edge_left_order1"].attrs["slope"] + 5) < 0.2
+    assert np.max(comp.get("err_zeros_edge_left_order2")) < 1e-12
+    assert abs(rates["err_values_order1"].attrs["slope"] + 2) < 0.2
+    values = [np.asarray(comp.get(f"err_values{s}")) for s in ("", "_order1", "_order2")]
+    assert np.all(values[1] < 0.05 * values[0]) and np.all(values[2] < 0.05 * values[1]), values
     fig = draw_errors(tree)
-    assert fig is not None and len(fig.subfigs) == 2 and len(fig.subfigs[1].axes) == 2
+    # a_n, b_n, values, right and left edge zeros by order
+    assert fig is not None and len(fig.subfigs) == 2 and len([a for a in fig.subfigs[1].axes if a.get_visible()]) == 5
     assert (tmp_path / "run" / "figures" / "errors.png").exists()
 
 
@@ -93,3 +111,40 @@ def test_model_table_refusals(tmp_path):
     mu = solve(edge.build_field(), edge.build_set())
     assert mu.support == ((-1.0, 1.0),)
     check_model_request(edge, mu)
+
+
+GAPS = """[case]
+name = "gaps"
+[field]
+expression = "x**4/4 - 3*x**2/2 + 0.35*x"
+[model]
+order = 1
+[polynomials]
+n = [95, 182]
+[comparisons]
+small_norm = false
+[figures]
+formats = ["png"]
+dpi = 100
+"""
+
+
+def test_gap_zeros_by_order_in_a_run(tmp_path):
+    """Two bands (Omega = 0.382): the gap zero of p_n from the run's direct zeros against the outer form
+    at orders 0 and 1 (gfunction.polynomial_form.gap_zeros).  Measured: order 0 9.9e-3, 1.0e-3
+    (n = 95, 182), order 1 2.6e-6, 2.0e-5 (the coefficients move with n Omega); bulk values 7.3e-3,
+    2.5e-3 (order 0) and 2.7e-5, 8.0e-6 (order 1); n = 182 is one of the degrees of tests/gfunction/test_corrected_zeros.py, where
+    the slopes over n = 182 … 1699 are -1.08 and -2.10."""
+    from workbench.figures import draw_gap_zeros
+
+    out = run_case(parse_case(GAPS), tmp_path / "run", progress=False)
+    assert out.verified, out.messages
+    tree = read_run(out.path)
+    model, comp = tree.groups["model"], tree.groups["comparison"]
+    assert np.asarray(model.get("gap_zeros_order1")).shape == (2, 1)
+    e0, e1 = np.asarray(comp.get("err_zeros_gap")), np.asarray(comp.get("err_zeros_gap_order1"))
+    assert np.all(np.isfinite(e0)) and np.all(e1 < 0.05 * e0), (e0, e1)
+    assert np.all(np.asarray(comp.get("err_values_order1")) < 0.02 * np.asarray(comp.get("err_values")))
+    fig = draw_gap_zeros(tree)
+    assert fig is not None and len(fig.axes) == 2
+    assert (tmp_path / "run" / "figures" / "gap_zeros.png").exists()
