@@ -311,6 +311,24 @@ def _error_series(ax, n, comp, rates, key, text, k):
     return points, text, n[ok]
 
 
+def _order_panel(ax, n, comp, rates, series) -> tuple[list, list]:
+    """Error series ``(key, label)`` on log-log axes against n, one colour each; ``(handles, labels)``."""
+    hs, ls, used = [], [], []
+    for k, (key, label) in enumerate(series):
+        got = _error_series(ax, n, comp, rates, key, label, k) if comp.has(key) else None
+        if got is not None:
+            hs.append(got[0])
+            ls.append(got[1])
+            used.append(got[2])
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    if used:
+        both = np.concatenate(used)
+        set_log_axis(ax.xaxis, float(both.min()), float(both.max()))
+    ax.set_xlabel("$n$")
+    return hs, ls
+
+
 def draw_errors(tree: Group):
     """Errors against n (log-log) with the fitted slope s ± standard error, one marker per quantity.
 
@@ -370,23 +388,10 @@ def draw_errors(tree: Group):
         kinds = {"kind": model.attrs.get("edge_kind", "soft"), "kind_left": model.attrs.get("edge_kind_left", "soft")}
         for axq, (q, title, extra) in zip(grid.ravel(), panels):
             title = title.format(**kinds)
-            hs, ls, ns = [], [], []
             series = [(f"err_{q}{suffix}", label) for suffix, label in [ORDER_VARIANTS[0]] + variants]
             if extra is not None:
                 series.insert(0, extra)
-            for k, (key, label) in enumerate(series):
-                if comp.has(key):
-                    got = _error_series(axq, n, comp, rates, key, label, k)
-                    if got is not None:
-                        hs.append(got[0])
-                        ls.append(got[1])
-                        ns.append(got[2])
-            axq.set_xscale("log")
-            axq.set_yscale("log")
-            if ns:
-                used = np.concatenate(ns)
-                set_log_axis(axq.xaxis, float(used.min()), float(used.max()))
-            axq.set_xlabel("$n$")
+            hs, ls = _order_panel(axq, n, comp, rates, series)
             axq.set_title(title, fontsize=8)
             axq.legend(hs, ls, loc="upper center", bbox_to_anchor=(0.5, -0.24), ncol=1, fontsize=5.5,
                        handletextpad=0.3, borderaxespad=0.0)
@@ -445,21 +450,8 @@ def draw_gap_zeros(tree: Group):
     # beyond leading order (workbench.orders): the error of the gap zeros by order, with fitted slopes
     ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, -0.2), ncol=2, fontsize=6.5)
     axe = axes[1, 0]
-    rates = comp.groups.get("rates", Group())
-    n_arr = np.asarray(n, dtype=float)
-    hs, ls, used = [], [], []
-    for k, (suffix, label) in enumerate([ORDER_VARIANTS[0]] + orders):
-        got = _error_series(axe, n_arr, comp, rates, f"err_zeros_gap{suffix}", label, k)
-        if got is not None:
-            hs.append(got[0])
-            ls.append(got[1])
-            used.append(got[2])
-    axe.set_xscale("log")
-    axe.set_yscale("log")
-    if used:
-        both = np.concatenate(used)
-        set_log_axis(axe.xaxis, float(both.min()), float(both.max()))
-    axe.set_xlabel("$n$")
+    hs, ls = _order_panel(axe, np.asarray(n, dtype=float), comp, comp.groups.get("rates", Group()),
+                          [(f"err_zeros_gap{suffix}", label) for suffix, label in [ORDER_VARIANTS[0]] + orders])
     axe.set_ylabel("|direct $-$ model|")
     axe.set_title("error of the gap zeros by order (max over gaps)", fontsize=8)
     axe.legend(hs, ls, loc="upper center", bbox_to_anchor=(0.5, -0.3), ncol=2, fontsize=6.5)
@@ -485,9 +477,15 @@ def draw_edge_zeros(tree: Group):
     if not panels:
         return None
     n = comp.get("n")
-    fig, axes = new_figure(height=2.2 * len(panels) + 0.5, nrows=len(panels))
-    references, handles, labels = {}, [], []
+    by_order = any(model.has(f"edge_zeros{p[0]}_order1") for p in panels)
+    fig, axes = new_figure(height=2.2 * len(panels) + 0.5, nrows=len(panels), ncols=2 if by_order else 1,
+                           **({"width_ratios": [1.0, 0.8]} if by_order else {}))
+    references, handles, labels, order_lines = {}, [], [], {}
     for row, (ax, (suffix, side, letter, key, hard)) in enumerate(zip(axes[:, 0], panels)):
+        if by_order:
+            drawn = _edge_errors_by_order(axes[row, 1], comp, model, suffix, int(np.asarray(n)[-1]))
+            for label, line in drawn.items():
+                order_lines.setdefault(label, line)
         scaled = np.atleast_2d(np.asarray(comp.get(f"edge_scaled_direct{suffix}"), dtype=float))
         reference = np.asarray(comp.get(key), dtype=float)
         j = np.arange(1, reference.size + 1)
@@ -501,13 +499,39 @@ def draw_edge_zeros(tree: Group):
                 labels.append(f"$n = {int(n[i])}$")
         ax.set_xlabel("$j$ (counted from the edge)")
         ax.set_ylabel((r"$n^{2} c\,(x_j - %s)$" if hard else r"$n^{2/3} c\,(x_j - %s)$") % letter)
-        ax.set_title(f"zeros at the {side} {'hard' if hard else 'soft'} edge, "
-                     f"{'Bessel' if hard else 'Airy'} scaling")
+        ax.set_title(f"{'' if by_order else 'zeros at the '}{side} {'hard' if hard else 'soft'} edge, "
+                     f"{'Bessel' if hard else 'Airy'} scaling", fontsize=8 if by_order else None)
         ax.xaxis.set_major_locator(__import__("matplotlib.ticker", fromlist=["MaxNLocator"]).MaxNLocator(integer=True))
-    handles = list(references.values()) + handles
-    labels = list(references) + labels
-    _legend_below(fig, handles, labels, entries_per_row=4)
+    handles = list(references.values()) + handles + list(order_lines.values())
+    labels = list(references) + labels + [f"error, {label}" for label in order_lines]
+    _legend_below(fig, handles, labels, entries_per_row=4 if not order_lines else 3, fontsize=6.5)
     return fig
+
+
+def _edge_errors_by_order(ax, comp, model, suffix: str, n_last: int) -> dict:
+    """|direct - predicted| of each zero next to an edge at the largest n, one series per order
+    (the scaling prediction, the form with R = I, with R through R^(k)): stored data only.
+    Returns the lines by label (for the legend)."""
+    found = np.atleast_2d(np.asarray(comp.get(f"edge_zeros{suffix}_direct"), dtype=float))[-1]
+    j = np.arange(1, found.size + 1)
+    series = [(f"edge_zeros{suffix}_scaling", "scaling"), (f"edge_zeros{suffix}", "order 0")] + [
+        (f"edge_zeros{suffix}_order{k}", f"order {k}") for k in range(1, 10) if model.has(f"edge_zeros{suffix}_order{k}")]
+    drawn = {}
+    for k, (key, label) in enumerate(series):
+        if not model.has(key):
+            continue
+        err = np.abs(found - np.atleast_2d(np.asarray(model.get(key), dtype=float))[-1])
+        ok = np.isfinite(err) & (err > 0)
+        # grey shades and their own markers: the colours of the left panels stand for n
+        (line,) = ax.plot(j[ok], err[ok], marker=MARKERS[-1 - k % len(MARKERS)], mfc="none", lw=0.6, ms=3.5,
+                          color=str(0.65 - 0.65 * k / max(1, len(series) - 1)), ls=DASHES[k % len(DASHES)])
+        drawn[label] = line
+    ax.set_yscale("log")
+    ax.set_xlabel("$j$")
+    ax.set_ylabel(r"$|x_j - x_j^{\mathrm{model}}|$")
+    ax.set_title(f"by order, $n = {n_last}$", fontsize=7)
+    ax.xaxis.set_major_locator(__import__("matplotlib.ticker", fromlist=["MaxNLocator"]).MaxNLocator(integer=True))
+    return drawn
 
 
 def _snap_to_transitions(line: np.ndarray, x: np.ndarray, y: np.ndarray, grid: Group, names) -> np.ndarray:

@@ -80,6 +80,9 @@ def test_orders_in_a_run(tmp_path):
     # a_n, b_n, values, right and left edge zeros by order
     assert fig is not None and len(fig.subfigs) == 2 and len([a for a in fig.subfigs[1].axes if a.get_visible()]) == 5
     assert (tmp_path / "run" / "figures" / "errors.png").exists()
+    from workbench.figures import draw_edge_zeros
+    edge = draw_edge_zeros(tree)      # per edge: the scaled zeros, and their errors by order at n = 400
+    assert edge is not None and len(edge.axes) == 4
 
 
 def test_model_table_refusals(tmp_path):
