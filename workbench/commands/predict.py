@@ -10,6 +10,12 @@ gfunction.polynomial_form); ``--method residual`` takes a_N, b_N from the residu
 problem solved numerically (gfunction.residual_problem), with an error estimate, and the
 gap zeros of ``--order``.  Below n* = log(1/1e-13)/c the residual method's values are
 marked not verified (the lens and gap jumps it neglects exceed 1e-13; exit 3), never refused.
+
+``--edge-zeros M`` adds the first M zeros of p_N next to each outer edge of the support
+(gfunction.edge_zeros): the Airy form Ai(ζ) + c Ai'(ζ) at a soft edge, the Bessel form
+J_α(u) + (κ/2) u J_α'(u) at a hard edge with Jacobi exponent α, in the exact local variable
+and with the residual matrix through R^(K)/N^K at ``--order K`` (errors: soft edge N^{-K-2},
+hard edge relative N^{-K-2}); zeros beyond the matching disc are null.
 """
 
 from __future__ import annotations
@@ -55,13 +61,17 @@ def register(subparsers) -> None:
     p.add_argument("--method", default="series", metavar="METHOD",
                    help="'series' (the correction series, default) or 'residual' (a_N, b_N from the residual "
                         "problem solved numerically, with an error estimate)")
+    p.add_argument("--edge-zeros", default="0", metavar="M",
+                   help="also the first M zeros next to each outer edge (Airy form at soft, Bessel form at hard "
+                        "edges, at --order; default 0: none; at most 50)")
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
     p.set_defaults(handler=run)
 
 
 #: measured seconds per degree on the development machine (loaded), used to refuse long ranges up front:
 #: corrected gap zeros (gfunction.polynomial_form, genus >= 1) and the residual problem
-_SECONDS_PER_DEGREE = {"gap_zeros": 0.15, "residual": 0.06}
+_SECONDS_PER_DEGREE = {"gap_zeros": 0.15, "residual": 0.06, "edge_zeros": 0.05}
+_MAX_EDGE_ZEROS = 50
 _BUDGET_SECONDS = 600.0
 
 
@@ -85,16 +95,61 @@ def _method(text) -> str:
     return text
 
 
-def _refuse_long(degrees: np.ndarray, order: int, method: str, genus: int) -> None:
+def _edge_count(text) -> int:
+    try:
+        value = int(str(text).strip())
+    except ValueError:
+        value = None
+    if value is None or not 0 <= value <= _MAX_EDGE_ZEROS or not str(text).strip().isascii():
+        raise InputError(f"--edge-zeros must be an integer from 0 to {_MAX_EDGE_ZEROS}; got {text!r} "
+                         "(e.g. --edge-zeros 5)")
+    return value
+
+
+def _refuse_long(degrees: np.ndarray, order: int, method: str, genus: int, edge_count: int = 0) -> None:
     cost = 0.0
     if order and genus:
         cost += _SECONDS_PER_DEGREE["gap_zeros"] * degrees.size
     if method == "residual":
         cost += _SECONDS_PER_DEGREE["residual"] * degrees.size
+    if edge_count:
+        # two outer edges, each zero a bracketed root of the form (measured ~5 ms per zero and degree)
+        cost += _SECONDS_PER_DEGREE["edge_zeros"] * degrees.size * 2 * max(1.0, edge_count / 5)
     if cost > _BUDGET_SECONDS:
-        raise InputError(f"--degrees with {degrees.size} degrees at --order {order} --method {method} would take "
-                         f"about {cost / 60:.0f} minutes (limit {_BUDGET_SECONDS / 60:.0f}); split the range, "
-                         f"or use --order 0 / --method series")
+        edge = f" --edge-zeros {edge_count}" if edge_count else ""
+        hints = ["split the range"] + (["use --order 0 / --method series"] if order or method != "series" else [])
+        hints += ["ask for fewer --edge-zeros"] if edge_count else []
+        raise InputError(f"--degrees with {degrees.size} degrees at --order {order} --method {method}{edge} would "
+                         f"take about {cost / 60:.0f} minutes (limit {_BUDGET_SECONDS / 60:.0f}); "
+                         + ", or ".join(hints))
+
+
+def _edge_zeros(pr, degrees: np.ndarray, count: int, order: int) -> tuple[dict, list[str]]:
+    """The zeros next to the outer edges (``gfunction.edge_zeros``), one residual expansion per degree
+    shared by both edges; returns ``(JSON part, messages of unverified parts)``."""
+    from gfunction.edge_zeros import edge_zeros
+    from gfunction.local import edge_parametrix
+    from gfunction.polynomial_form import corrections
+
+    cor = corrections(pr, degrees, order)
+    last = 2 * len(pr.measure.support) - 1
+    out, messages = {}, []
+    if cor is not None and not cor.verified:
+        messages.append(cor.message)
+    for side, index in (("left", 0), ("right", last)):
+        try:
+            edge_parametrix(pr, index)
+        except InputError as exc:   # e.g. a factor singular at a soft edge: no Airy parametrix there
+            out[side] = {"zeros": None, "note": str(exc)}
+            continue
+        found = [edge_zeros(pr, index, int(n), count, order=order, corrections=cor, on_failure="mark")
+                 for n in degrees]
+        messages += sorted({z.message for z in found if not z.verified})
+        first = found[0]
+        out[side] = {"edge": float(first.position), "kind": first.kind, "form": first.form,
+                     "alpha": float(first.alpha) if first.kind == "hard" else None,
+                     "zeros": [[_number(x) for x in z.zeros] for z in found]}
+    return out, messages
 
 
 def run(args) -> int:
@@ -106,6 +161,7 @@ def run(args) -> int:
 
     degrees = _degrees(args.degrees)
     order, method = _order(args.order), _method(args.method)
+    edge_count = _edge_count(getattr(args, "edge_zeros", "0"))
     field, on = field_and_set_from_args(args)
     factors = None
     text = getattr(args, "factor", None)
@@ -114,9 +170,15 @@ def run(args) -> int:
     mu = solve(field, on=on, on_failure="mark")
     # marked, not raised: the table is printed with the failed checks, exit 3
     pr = predictor(mu, factors, on_failure="mark")
-    _refuse_long(degrees, order, method, pr.genus)
+    _refuse_long(degrees, order, method, pr.genus, edge_count)
     pred = corrected_prediction(pr, degrees, order=order, method=method, on_failure="mark")
     verified, message = pred.verified, pred.message
+    edges = None
+    if edge_count:
+        edges, unverified = _edge_zeros(pr, degrees, edge_count, order)
+        if unverified:
+            verified = False
+            message = "; ".join([m for m in (message, *unverified) if m])
     result = {
         "degrees": [int(d) for d in pred.degrees],
         "a": [_number(x) for x in pred.a],
@@ -137,6 +199,8 @@ def run(args) -> int:
     }
     if method == "residual":
         result["error_estimate"] = [_number(x) for x in pred.error_estimate]
+    if edges is not None:
+        result["edge_zeros"] = edges
     if args.json:
         json.dump(result, sys.stdout)
         sys.stdout.write("\n")
@@ -151,6 +215,15 @@ def run(args) -> int:
         gz = ", ".join("-" if v is None else f"{v:.10g}" for v in result["gap_zeros"][i])
         est = f" {pred.error_estimate[i]:>10.2e}" if method == "residual" else ""
         out.write(f"{d:>8} {pred.a[i]:>20.15f} {pred.b[i]:>20.15f}{est}  [{gz}] {result['band_counts'][i]}\n")
+    for side, part in (edges or {}).items():
+        if part["zeros"] is None:
+            out.write(f"{side} edge: no zeros predicted ({part['note']})\n")
+            continue
+        alpha = f", alpha {part['alpha']:g}" if part["kind"] == "hard" else ""
+        out.write(f"zeros next to the {side} {part['kind']} edge {part['edge']:.10g} ({part['form']}{alpha}, "
+                  f"order {order}), from the edge inward:\n")
+        for d, row in zip(result["degrees"], part["zeros"]):
+            out.write(f"{d:>8}  " + ", ".join("-" if v is None else f"{v:.15g}" for v in row) + "\n")
     return _status(verified, message)
 
 
