@@ -42,8 +42,8 @@ import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
 
-__all__ = ["Corrections", "corrections", "outer_form", "band_form", "value_form", "interior_singular_points",
-           "gap_zeros", "bulk_pieces", "bulk_zeros"]
+__all__ = ["Corrections", "corrections", "outer_form", "band_form", "value_form", "gap_zeros", "bulk_pieces",
+           "bulk_zeros"]
 
 _LIFT = 1e-300j
 
@@ -175,23 +175,13 @@ def value_form(predictor, x, degree: int, order: int = 0, *, corrections: Correc
         p_n w_n^{1/2} = γ_n e^{-nℓ/2} · D_∞ |D_+| · band_form.
 
     Without a factor this is :func:`band_form` itself.  The bulk form does not hold next to a
-    singular point of the factor inside a band (:func:`interior_singular_points`), nor at the
+    singular point of the factor inside a band (``SzegoFunction.interior_points``), nor at the
     edges: use it in the bulk.
     """
     form = band_form(predictor, x, degree, order, corrections=corrections)
     if predictor.szego is None:
         return form
     return form * predictor.szego.limit * np.abs(predictor.szego.boundary_values(np.asarray(x, dtype=float))[0])
-
-
-def interior_singular_points(predictor) -> list[float]:
-    """The singular points ``c`` of the factor strictly inside a band (Fisher–Hartwig roots): the
-    bulk form has no local parametrix there (``gfunction.residual``)."""
-    if predictor.szego is None:
-        return []
-    support = predictor.measure.support
-    return [float(c) for c, _ in predictor.szego.points
-            if any(a + 1e-12 * max(1.0, abs(a)) < c < b - 1e-12 * max(1.0, abs(b)) for a, b in support)]
 
 
 def gap_zeros(predictor, degrees, order: int = 1, *, corrections: Corrections | None = None,

@@ -625,7 +625,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     """
     from gfunction.edge_zeros import edge_scaling_zeros, edge_zeros
     from gfunction.local import edge_parametrix
-    from gfunction.polynomial_form import interior_singular_points, value_form
+    from gfunction.polynomial_form import value_form
     from gfunction.predict import predictor
 
     ns_arr = np.asarray(sorted(ns), dtype=np.int64)
@@ -697,7 +697,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
                                    "of the factor (10% of the band width); NaN pads row i")
 
     points = None
-    interior = interior_singular_points(pred)
+    interior = () if pred.szego is None else pred.szego.interior_points
     if interior:
         node.attrs["values_skipped"] = (
             f"the factor ({case.factor.describe()}) is singular at c = {', '.join(f'{c:g}' for c in interior)} "
