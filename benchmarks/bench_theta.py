@@ -1,16 +1,20 @@
 """Timings of Riemann theta sums, period matrices and the Abel map (median of repeats after warm-up).
 
-Run:  python benchmarks/bench_theta.py
+Run:  python benchmarks/bench_theta.py [--reduction-only]
 Targets: theta of genus 3 at 1e5 points <= 1 s; curve of genus 2 in a few ms.
+The basis reduction (issue 16): genus 4-6 with and without it, interleaved in one run.
 """
 
 from __future__ import annotations
 
+import os
+import sys
 import time
 
 import numpy as np
 
 from gfunction.curve import curve_of_bands
+from gfunction import theta as theta_module
 from gfunction.theta import riemann_theta
 
 
@@ -36,7 +40,43 @@ def bands_of_genus(g: int) -> list[tuple[float, float]]:
     return [(edges[2 * j], edges[2 * j + 1]) for j in range(g + 1)]
 
 
+def reduction_table(rounds: int = 3) -> None:
+    """Lattice points and arguments per second with and without the basis reduction (same rounds)."""
+    rng = np.random.default_rng(1)
+    original = theta_module._reduction
+    identity = lambda t: np.eye(t.shape[0], dtype=np.int64)  # noqa: E731
+    print(f"Basis reduction (LLL), tol 1e-14, arguments u = x + 0.5 i y (normal); load {os.getloadavg()[0]:.1f}")
+    print(f"{'case':>14} {'args':>6} {'points before':>13} {'after':>8} {'args/s before':>14} "
+          f"{'after':>9} {'speed-up (rounds)':>18}")
+    cases = []
+    for g in (4, 5, 6):
+        cases.append((f"bands g={g}", curve_of_bands(bands_of_genus(g)).tau))
+    for g in (4, 5):
+        t = curve_of_bands(bands_of_genus(g)).tau
+        cases.append((f"0.5 Im, g={g}", t.real + 0.5j * t.imag))     # smaller Im tau
+    for name, tau in cases:
+        g = tau.shape[0]
+        npts = {4: 2000, 5: 500, 6: 100}[g]
+        u = rng.normal(size=(npts, g)) + 0.5j * rng.normal(size=(npts, g))
+        counts, rates = {}, {True: [], False: []}
+        for _ in range(rounds):
+            for reduce in (False, True):
+                theta_module._reduction = original if reduce else identity
+                if reduce not in counts:
+                    counts[reduce] = riemann_theta(u, tau).lattice_points     # covers all npts shifts
+                t = median_time(lambda: riemann_theta(u, tau), repeats=1)
+                rates[reduce].append(npts / t)
+        theta_module._reduction = original
+        ratio = [a / b for a, b in zip(rates[True], rates[False])]
+        print(f"{name:>14} {npts:>6} {counts[False]:>13} {counts[True]:>8} {np.median(rates[False]):>14.0f} "
+              f"{np.median(rates[True]):>9.0f} {min(ratio):>8.2f}-{max(ratio):<8.2f}")
+    print()
+
+
 def main() -> None:
+    reduction_table()
+    if "--reduction-only" in sys.argv:
+        return
     rng = np.random.default_rng(0)
     print("Riemann theta (tol 1e-14), period matrices of equally spaced bands")
     print("(wall = elapsed seconds; cpu = CPU seconds of this process, less sensitive to a loaded machine)")

@@ -437,8 +437,7 @@ class Predictor:
             # one lattice for every Illinois step: it covers the shifts of the whole gap
             # (a 1 % larger ball than the dense sample needs; coverage is re-checked per call)
             tt = np.linspace(0.0, np.pi, 1025)
-            cc = (gap_abel(tt) + self.model.d).imag @ np.linalg.inv(self.model.tau.imag)
-            lattice = theta_lattice(self.model.tau, shifts=1.01 * (cc - np.rint(cc)))
+            lattice = theta_lattice(self.model.tau, arguments=gap_abel(tt) + self.model.d, margin=1.01)
             # Illinois steps on the bracketing grid cell, each row with its own phases
 
             def m11_on_gap(t, sel):
