@@ -1,8 +1,8 @@
 """Timings of the recurrence coefficients computed from the weight (workbench.polynomials).
 
-    python benchmarks/bench_polynomials.py [--quick] [--plot] [--rounds R] [--large]
+    python benchmarks/bench_polynomials.py [--quick] [--plot] [--rounds R] [--large] [--floor [K ...]]
 
-Three tables.
+Three tables (and a fourth on its own).
 
 1. ``recurrence_coefficients`` in process for n = K from 250 to 10⁴ (equilibrium
    measure for the node placement, both discretisations, both Stieltjes runs on
@@ -18,6 +18,9 @@ Three tables.
    against numpy loop, interleaved.
 3. ``--large``: n = K = 10⁵ through the CLI: wall time, CPU time and the peak
    resident memory of the child process, error estimate.
+4. ``--floor K ...``: the rounding floor of the coefficients at these K (see
+   :func:`table_floor`): the same discretisation summed in another order and with
+   its inputs moved by one ulp, beside the two-discretisation error estimate.
 
 The BLAS/OpenMP thread counts are set to 1 before numpy is imported; the
 recurrence itself runs its two discretisations on two threads (``WORKBENCH_THREADS``).
@@ -183,6 +186,41 @@ def table_large() -> None:
           f"error estimate {out['error_estimate']:.1e}, verified {out['verified']}")
 
 
+def table_floor(sizes) -> None:
+    """How far below the two-discretisation estimate rounding alone reaches (issue 16, item 5).
+
+    Same discretisation, three ways: summed in a random order of its nodes (only the order
+    of the sums changes), and with every node and log weight moved by at most one ulp
+    (relative eps, the rounding every computed node and weight already carries).  When
+    these differ from the plain run by as much as the secondary discretisation does, the
+    error estimate sits at the rounding floor of the procedure's own inputs.
+    """
+    import dataclasses
+
+    from workbench.polynomials.discretisation import SECONDARY
+
+    print()
+    print(f"rounding floor of the coefficients (largest |change| of a_k, b_k, k <= K); "
+          f"load average {os.getloadavg()[0]:.2f}")
+    print(f"{'K':>7} {'M':>7} {'summation order':>16} {'inputs +-1 ulp':>15} {'two discretisations':>20}")
+    eps = np.finfo(float).eps
+    for size in sizes:
+        weight = Weight(Field.from_expression(FIELD), size)
+        m = measure_for(weight, size + 1)
+        disc = discretise(weight, size + 1, PRIMARY, m)
+        a, b = stieltjes(disc, size)
+        rng = np.random.default_rng(size)
+        perm = rng.permutation(disc.size)
+        shuffled = dataclasses.replace(disc, nodes=disc.nodes[perm], log_weights=disc.log_weights[perm])
+        rounded = dataclasses.replace(disc, nodes=disc.nodes * (1 + eps * rng.uniform(-1, 1, disc.size)),
+                                      log_weights=disc.log_weights + eps * rng.uniform(-1, 1, disc.size))
+        rows = []
+        for other in (shuffled, rounded, discretise(weight, size + 1, SECONDARY, m)):
+            a2, b2 = stieltjes(other, size)
+            rows.append(max(np.max(np.abs(a - a2)), np.max(np.abs(b - b2))))
+        print(f"{size:>7} {disc.size:>7} {rows[0]:>16.1e} {rows[1]:>15.1e} {rows[2]:>20.1e}", flush=True)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="only the two target sizes of table 1")
@@ -190,7 +228,12 @@ def main() -> None:
     parser.add_argument("--rounds", type=int, default=5, help="interleaved rounds of table 2 (default 5)")
     parser.add_argument("--large", action="store_true", help="also n = K = 10^5 through the CLI (about a minute)")
     parser.add_argument("--only-cli", action="store_true", help="skip table 1")
+    parser.add_argument("--floor", type=int, nargs="*", default=None, metavar="K",
+                        help="only the rounding-floor table at these K (default 4000 16000)")
     args = parser.parse_args()
+    if args.floor is not None:
+        table_floor(args.floor or [4000, 16000])
+        return
     if not args.only_cli:
         table_in_process(args)
     table_cli(args.rounds)
