@@ -152,12 +152,16 @@ def thin_tick_labels(fig, axis) -> None:
         axis.set_major_locator(FixedLocator(ticks[::keep]))
 
 
-def _renderer(fig):
+def _renderer(fig, draw: bool = True):
+    """An Agg renderer of ``fig``; ``draw=False`` skips drawing (enough to measure a text or a
+    legend, whose size does not depend on the layout; a full draw costs a whole figure's text
+    layout and mathtext parsing)."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg
 
     fig = fig.figure  # the root figure of a SubFigure (a Figure is its own)
     canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
-    canvas.draw()
+    if draw:
+        canvas.draw()
     return canvas.get_renderer()
 
 
@@ -168,7 +172,7 @@ def legend_below(fig, handles, labels, ncol: int = 2, **kwargs):
         legend = fig.legend(handles, labels, loc="outside lower center", ncol=ncol, **kwargs)
         if ncol == 1:
             return legend
-        width = legend.get_window_extent(_renderer(fig)).width
+        width = legend.get_window_extent(_renderer(fig, draw=False)).width
         if width <= fig.bbox.width * 0.98:
             return legend
         legend.remove()
