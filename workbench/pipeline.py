@@ -38,6 +38,7 @@ shrink like ``1/n``.
 
 from __future__ import annotations
 
+import functools
 import re
 import time
 from dataclasses import dataclass, field
@@ -468,6 +469,7 @@ class RunOutcome:
     verified: bool
     messages: tuple[str, ...] = ()   # why the run is not verified (empty when it is)
     notes: tuple[str, ...] = ()      # what was switched or skipped, and why (not failures)
+    model_reused: bool = False       # the model stage was read from partial/model.h5
 
     @property
     def message(self) -> str:
@@ -476,16 +478,16 @@ class RunOutcome:
 
 
 def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True,
-             draw: bool | None = None, after_each_n: Callable[[int], None] | None = None) -> RunOutcome:
+             draw: bool | None = None, after_each_n: Callable[[int], None] | None = None,
+             workers: int | None = None, scheduler: str | None = None) -> RunOutcome:
     """Run every stage of ``case``; results go to ``out`` (default: the case's output folder).
 
     ``after_each_n`` is called with n after each finished n has been stored
-    (the tests use it to interrupt a run at a known point).
+    (the tests use it to interrupt a run at a known point; serial runs only).
+    ``workers`` (a local process pool) or ``scheduler`` (a Dask scheduler address) run the
+    direct stage in parallel with the executors of :func:`workbench.sweep.run_points`; each
+    worker stores its n in ``partial/`` as the serial loop does (:func:`direct_point`).
     """
-    import sys
-
-    from tqdm import tqdm
-
     directory = case.output_directory(out)
     check_output_directory(directory)
     timings: dict[str, float] = {}
@@ -518,13 +520,23 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
 
     ns = list(case.polynomials.n)
     t = time.perf_counter()
-    try:
-        model = model_predictions(case, mu, ns)
-    except NumericalFailure as exc:
-        # the direct side and the equilibrium measure still stand on their own
-        model = ModelSide(Group(attrs={"description": "model-problem predictions", "available": False,
-                                       "failure": str(exc)}))
-        messages.append(f"model problem failed: {exc}")
+    # the model stage is stored with the partial results: a resume reads it instead of recomputing
+    cached = load_model_partial(directory, case.digest)
+    model_reused = cached is not None
+    if cached is not None:
+        model = ModelSide(cached)
+    else:
+        bar = _bar(model_steps(ns), 0, f"{case.name}: model", "step", progress)
+        try:
+            model = model_predictions(case, mu, ns, step=bar.update)
+            write_model_partial(directory, model.group, case.digest)
+        except NumericalFailure as exc:
+            # the direct side and the equilibrium measure still stand on their own
+            model = ModelSide(Group(attrs={"description": "model-problem predictions", "available": False,
+                                           "failure": str(exc)}))
+            messages.append(f"model problem failed: {exc}")
+        finally:
+            bar.close()
     tree.groups["model"] = model.group
     if model.group.attrs.get("verified") is False:
         messages.append(f"model predictions not verified: {model.group.attrs['message']}")
@@ -534,10 +546,15 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
     reused = tuple(sorted(finished))
     computed = []
     todo = [n for n in ns if n not in finished]
-    bar = tqdm(total=len(ns), initial=len(ns) - len(todo), desc=f"{case.name}: direct",
-               unit="n", file=sys.stderr, disable=not progress or not sys.stderr.isatty(),
-               leave=False)
+    parallel = workers is not None or scheduler is not None
+    if model_reused and todo and not parallel:
+        # the per-n checks of the model side are functions, not data: rebuilt for the n still to do
+        model.helpers.update(small_norm_helpers(case, mu, todo))
     t = time.perf_counter()
+    if todo and parallel:
+        finished.update(_direct_in_parallel(case, directory, todo, model, workers, scheduler, progress))
+        computed, todo = list(todo), []
+    bar = _bar(len(ns), len(ns) - len(todo), f"{case.name}: direct", "n", progress)
     try:
         for n in todo:
             weight = build_weight(case, field_, on, n)
@@ -595,7 +612,108 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
     write_run(path, tree)
     return RunOutcome(path=path, tree=tree, figures=figure_files, computed=tuple(computed),
                       reused=reused, seconds=time.perf_counter() - start, verified=verified,
-                      messages=tuple(messages), notes=tuple(notes))
+                      messages=tuple(messages), notes=tuple(notes), model_reused=model_reused)
+
+
+def _direct_in_parallel(case: Case, directory: Path, todo: Sequence[int], model: "ModelSide",
+                        workers: int | None, scheduler: str | None, progress: bool) -> dict[int, Group]:
+    """The direct stage at ``todo`` on a process pool or a Dask cluster; the stored results."""
+    import functools
+    import os
+
+    from workbench.sweep import Journal, run_points
+
+    payload = {"text": case.text, "source": case.source, "reduced": case.reduced,
+               "directory": str(directory),
+               # as in the serial loop, where model_predictions (or small_norm_helpers) gives the checks
+               "small_norm": bool(case.comparisons.small_norm and case.factor.is_one
+                                  and model.group.attrs.get("available", True))}
+    journal = Journal(Path(directory) / "partial" / f"direct-{os.getpid()}.jsonl", case.digest)
+    try:
+        outcome = run_points([{"n": int(n)} for n in todo], functools.partial(direct_point, payload), journal,
+                             workers=workers, scheduler=scheduler, progress=progress,
+                             description=f"{case.name}: direct")
+    finally:
+        journal.path.unlink(missing_ok=True)
+    failed = [result for result in outcome.results.values() if "error" in result]
+    if failed:
+        kind = InputError if failed[0].get("error_kind") == "InputError" else NumericalFailure
+        raise kind(f"direct stage: {failed[0]['error']}")
+    found = load_partials(directory, case.digest, todo)
+    missing = [n for n in todo if n not in found]
+    if missing:
+        raise NumericalFailure(f"direct stage: the workers stored no result for n = {missing}")
+    return found
+
+
+@functools.lru_cache(maxsize=2)
+def _worker_state(text: str, source: str, reduced: bool):
+    """The case, field, set and measure in a worker process (solved once per process)."""
+    from workbench.case import parse_case
+
+    case = parse_case(text, source=source, reduced=reduced)
+    field_, on, mu, _ = solve_case(case)
+    return case, field_, on, mu, {}
+
+
+def direct_point(payload: Mapping[str, Any], params: Mapping[str, float]) -> dict[str, Any]:
+    """The direct stage at one n in a worker: computed, stored in ``partial/`` (the point function of
+    :func:`workbench.sweep.run_points`; the small answer goes to its journal)."""
+    case, field_, on, mu, predictors = _worker_state(payload["text"], payload["source"], payload["reduced"])
+    n = int(params["n"])
+    helper = None
+    if payload["small_norm"]:
+        if "pred" not in predictors:
+            from gfunction.predict import predictor
+
+            predictors["pred"] = predictor(mu, on_failure="mark")
+        helper = _small_norm_circles(case, mu, predictors["pred"], [n])[0][n]
+    node = direct_group(case, build_weight(case, field_, on, n), n, mu, helper)
+    write_partial(payload["directory"], n, node, case.digest)
+    return {"n": n, "seconds": float(node.attrs["seconds"])}
+
+
+def _bar(total: int, initial: int, description: str, unit: str, progress: bool):
+    """A tqdm bar on stderr (shown only when stderr is a terminal and ``progress``)."""
+    import sys
+
+    from tqdm import tqdm
+
+    return tqdm(total=total, initial=initial, desc=description, unit=unit, file=sys.stderr,
+                disable=not progress or not sys.stderr.isatty(), leave=False)
+
+
+def model_path(directory: str | Path) -> Path:
+    """Where the model stage of a run is kept for a resume (beside the per-n partial results)."""
+    return Path(directory) / "partial" / "model.h5"
+
+
+def write_model_partial(directory: str | Path, node: Group, digest: str) -> Path:
+    """Store the /model group, tied to the case digest (atomic, like the per-n results)."""
+    from workbench.results import write_group_file
+
+    return write_group_file(model_path(directory), node, case_digest=digest)
+
+
+def load_model_partial(directory: str | Path, digest: str) -> Group | None:
+    """The stored /model group of the same case, or None (absent, another case, unreadable)."""
+    import h5py
+
+    from workbench.results import read_group_file
+
+    path = model_path(directory)
+    if not path.exists():
+        return None
+    try:
+        with h5py.File(path, "r") as handle:
+            if handle.attrs.get("case_digest") != digest:
+                return None
+        node = read_group_file(path)
+    except OSError:
+        return None
+    node.attrs.pop("case_digest", None)
+    node.attrs.pop("conventions", None)
+    return node
 
 
 # ----------------------------------------------------------------- model side
@@ -610,7 +728,17 @@ class ModelSide:
         return self.helpers.get(n)
 
 
-def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
+#: steps of the model stage that do not repeat per n (model_steps)
+_MODEL_FIXED_STEPS = 7
+
+
+def model_steps(ns: Sequence[int]) -> int:
+    """Number of steps :func:`model_predictions` reports: fixed ones, then edge and bulk zeros per n."""
+    return _MODEL_FIXED_STEPS + 2 * len(ns)
+
+
+def model_predictions(case: Case, mu, ns: Sequence[int],
+                      step: Callable[[int], Any] | None = None) -> ModelSide:
     """Everything the steepest-descent side predicts at the values ``ns`` (degree = scaling).
 
     Stored in ``/model``: ``a``, ``b`` (outer parametrix), ``phases`` ``w = nΩ``
@@ -622,7 +750,10 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     plus ``a_dense``/``b_dense``/``gap_zeros_dense`` at the degrees ``n_dense``
     (every integer of the range when it has at most 400, else 400 integers
     spread evenly over it) for the quasi-periodic pattern of the figures.
+
+    ``step(k)`` is called after each piece of work, :func:`model_steps` in all (a progress bar).
     """
+    step = step or (lambda k=1: None)
     from gfunction.edge_zeros import edge_scaling_zeros, edge_zeros
     from gfunction.local import edge_parametrix
     from gfunction.polynomial_form import value_form
@@ -636,7 +767,9 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     # the factor h enters through its Szegő function (the same factor objects as the direct side)
     factors = build_weight(case, mu.field, mu.on, 1.0).factors if not case.factor.is_one else None
     pred = predictor(mu, factor=factors, on_failure="mark")
+    step(1)
     prediction = pred.predict(ns_arr, on_failure="mark")
+    step(1)
     unverified = [prediction.message] if not prediction.verified else []
     node.attrs["checks"] = dict(prediction.checks)
     node.attrs["g_function_checks"] = dict(pred.g.checks)
@@ -656,6 +789,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
     node.add("band_counts", np.asarray(prediction.band_counts, dtype=np.int64),
              "predicted number of zeros of p_n in each band")
     unverified += model_orders(case, pred, ns_arr, node)
+    step(1)
 
     support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
     k = support.shape[0]
@@ -667,9 +801,13 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
             edge_parametrix(pred, index)
         except InputError as exc:   # a factor singular at a soft edge has no Airy parametrix
             node.attrs[f"edge_zeros{EDGE_SUFFIX[side]}_skipped"] = str(exc)
+            step(len(ns_arr) // 2 if side == "right" else len(ns_arr) - len(ns_arr) // 2)
             continue
-        scaling = [edge_scaling_zeros(pred, index, int(n), EDGE_ZEROS, on_failure="mark") for n in ns_arr]
-        form = [edge_zeros(pred, index, int(n), EDGE_ZEROS, order=0, on_failure="mark") for n in ns_arr]
+        scaling, form = [], []
+        for i, n in enumerate(ns_arr):
+            scaling.append(edge_scaling_zeros(pred, index, int(n), EDGE_ZEROS, on_failure="mark"))
+            form.append(edge_zeros(pred, index, int(n), EDGE_ZEROS, order=0, on_failure="mark"))
+        step(len(ns_arr) // 2 if side == "right" else len(ns_arr) - len(ns_arr) // 2)
         unverified += sorted({z.message for z in scaling + form if not z.verified})
         suffix, name = EDGE_SUFFIX[side], form[0].form
         edges.append((suffix, index))
@@ -686,8 +824,12 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
 
     if case.comparisons.log_hankel:
         unverified += _log_hankel_model(node, mu, factors or (), ns_arr)
+    step(1)
 
-    bulk = [np.asarray(pred.bulk_zeros(int(n)), dtype=float) for n in ns_arr]
+    bulk = []
+    for n in ns_arr:
+        bulk.append(np.asarray(pred.bulk_zeros(int(n)), dtype=float))
+        step(1)
     width = max([b.size for b in bulk] + [1])
     padded = np.full((len(bulk), width), np.nan)
     for i, b in enumerate(bulk):
@@ -710,6 +852,7 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
                  "p_n w^{1/2} divided by gamma_n e^{-n ell/2} (D the Szego function of the factor, 1 without one; "
                  "gfunction.polynomial_form.value_form, order 0)", dims=("n", "value_x"))
     unverified += model_zero_orders(case, pred, ns_arr, node, edges, points, EDGE_ZEROS)
+    step(1)
 
     helpers = {}
     if case.comparisons.small_norm and not case.factor.is_one:
@@ -717,22 +860,10 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
                                             "function of h (D_inf^{sigma3} M D^{-sigma3}), which the "
                                             "model side does not provide")
     elif case.comparisons.small_norm:
-        lo, hi = support[0, 0], support[-1, 1]
-        centre, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
-        radius = case.comparisons.contour_radius * half
-        if case.set.is_compact:
-            # Y jumps on all of Σ and its continued fraction converges slowly near Σ:
-            # the circles enclose the whole set, not only the support
-            ends = np.array([case.set.intervals[0][0], case.set.intervals[-1][1]])
-            radius = max(radius, 1.25 * float(np.max(np.abs(ends - centre))))
-        radii = np.array([radius, 2.0 * radius])
-        theta = 2 * np.pi * (np.arange(case.comparisons.contour_points) + 0.5) / case.comparisons.contour_points
-        circles = centre + radii[:, None] * np.exp(1j * theta)[None, :]
-        g_on = pred.g(circles)
-        for n in ns_arr:
-            helpers[int(n)] = {"small_norm": _small_norm_check(pred, mu, int(n), circles, radii, g_on)}
+        helpers, radii = _small_norm_circles(case, mu, pred, ns_arr)
         node.add("contour_radii", radii, "radii of the circles of the small-norm check, "
                                          "centred at the middle of the support hull", dims=())
+    step(1)
 
     dense = _dense_range(ns_arr)
     if dense.size:
@@ -746,9 +877,40 @@ def model_predictions(case: Case, mu, ns: Sequence[int]) -> ModelSide:
             node.add("gap_zeros_dense", gaps.zeros, "predicted gap zeros on n_dense (NaN: none)")
             dense_parts.append(gaps)
         unverified += [f"on n_dense: {p.message}" for p in dense_parts if not p.verified]
+    step(1)
     node.attrs["verified"] = not unverified
     node.attrs["message"] = "; ".join(unverified) or "none"
     return ModelSide(node, helpers)
+
+
+def _small_norm_circles(case: Case, mu, pred, ns: Sequence[int]):
+    """The small-norm check of each n (a function of the direct coefficients) and the circle radii."""
+    support = np.asarray(mu.support, dtype=float).reshape(-1, 2)
+    helpers = {}
+    lo, hi = support[0, 0], support[-1, 1]
+    centre, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
+    radius = case.comparisons.contour_radius * half
+    if case.set.is_compact:
+        # Y jumps on all of Σ and its continued fraction converges slowly near Σ:
+        # the circles enclose the whole set, not only the support
+        ends = np.array([case.set.intervals[0][0], case.set.intervals[-1][1]])
+        radius = max(radius, 1.25 * float(np.max(np.abs(ends - centre))))
+    radii = np.array([radius, 2.0 * radius])
+    theta = 2 * np.pi * (np.arange(case.comparisons.contour_points) + 0.5) / case.comparisons.contour_points
+    circles = centre + radii[:, None] * np.exp(1j * theta)[None, :]
+    g_on = pred.g(circles)
+    for n in ns:
+        helpers[int(n)] = {"small_norm": _small_norm_check(pred, mu, int(n), circles, radii, g_on)}
+    return helpers, radii
+
+
+def small_norm_helpers(case: Case, mu, ns: Sequence[int]) -> dict[int, dict[str, Any]]:
+    """The per-n helpers of :class:`ModelSide` rebuilt for ``ns`` (a run resumed from a stored model)."""
+    if not case.comparisons.small_norm or not case.factor.is_one:
+        return {}
+    from gfunction.predict import predictor
+
+    return _small_norm_circles(case, mu, predictor(mu, on_failure="mark"), list(ns))[0]
 
 
 def _log_hankel_model(node: Group, mu, factors, ns: np.ndarray) -> list[str]:

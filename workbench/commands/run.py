@@ -18,6 +18,10 @@ def register(subparsers) -> None:
                         help="use the [reduced] sizes of the case (quick check)")
     parser.add_argument("--no-figures", action="store_true", help="do not draw figures")
     parser.add_argument("--quiet", action="store_true", help="no progress bar, summary only")
+    parser.add_argument("--workers", type=int, default=None,
+                        help="processes for the direct stage (default: one, in this process)")
+    parser.add_argument("--scheduler", metavar="tcp://HOST:PORT", default=None,
+                        help="run the direct stage on this Dask distributed scheduler")
     parser.set_defaults(handler=run)
 
 
@@ -26,9 +30,16 @@ def run(args: argparse.Namespace) -> int:
     from workbench.commands.show import summary_lines
     from workbench.pipeline import run_case
 
+    from equilibrium.errors import InputError
+
+    if args.workers is not None and args.workers < 1:
+        raise InputError(f"--workers {args.workers} must be >= 1")
+    if args.scheduler is not None and "://" not in args.scheduler:
+        raise InputError(f"--scheduler {args.scheduler!r}: give an address like tcp://127.0.0.1:8786")
     case = load_case(args.case, reduced=args.reduced)
     outcome = run_case(case, args.out, progress=not args.quiet,
-                       draw=False if args.no_figures else None)
+                       draw=False if args.no_figures else None, workers=args.workers,
+                       scheduler=args.scheduler)
     done = (f"computed n = {list(outcome.computed)}" if outcome.computed else "nothing to compute")
     if outcome.reused:
         done += f"; resumed n = {list(outcome.reused)} from partial results"
