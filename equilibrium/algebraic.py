@@ -140,7 +140,8 @@ def monic_leading(half_width: float, degree: int) -> float:
     """Chebyshev coefficient of T_degree(t) in the monic polynomial x^degree, x = c + d t."""
     if degree == 0:
         return 1.0
-    return half_width ** degree / 2.0 ** (degree - 1)
+    # (d/2)^m * 2, not d^m / 2^(m-1): the quotient of two overflowing powers is finite
+    return 2.0 * math.exp(degree * math.log(half_width / 2.0)) if half_width > 0 else 0.0
 
 
 def q_hard(z: np.ndarray, structure: BandStructure) -> np.ndarray:

@@ -36,6 +36,7 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from equilibrium.errors import InputError
+from workbench import limits
 
 __all__ = [
     "Case",
@@ -566,6 +567,9 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
             raise InputError(f"{source} line {match.group(1)}: malformed TOML: {message} "
                              f"(column {match.group(2)})") from None
         raise InputError(f"{source}: malformed TOML: {message}") from None
+    except RecursionError:
+        raise InputError(f"{source}: malformed TOML: arrays or tables nested too deep for a case file "
+                         "(a case nests at most three levels)") from None
 
     for key in data:
         if key not in _TOP_LEVEL:
@@ -595,6 +599,8 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
         name = Path(source).stem if source and not source.startswith("<") else "case"
     if not re.fullmatch(r"[A-Za-z0-9_\-]+", name):
         raise check.fail(f"case name {name!r} may hold only letters, digits, '_' and '-'", "case", "name")
+    if len(name) > 200:  # the output folder out/NAME-reduced must stay within a file system's 255 bytes
+        raise check.fail(f"case name {name[:20]}... has {len(name)} characters; use at most 200", "case", "name")
 
     field_spec = _field(check, tables["field"], tables["factor"].get("expression"))
     set_spec = _set(check, tables["set"])
@@ -686,6 +692,7 @@ def _check_expression(check: _Validator, spec: FieldSpec, factor_text: Any = Non
     except ImportError:  # the parser is not there yet: the error surfaces at run time
         return
     try:
+        limits.check_expression(spec.expression, dict(spec.parameters), "[field] expression")
         Field.from_expression(spec.expression, parameters=dict(spec.parameters))
     except InputError as exc:
         hint = ""
@@ -739,6 +746,7 @@ def _set(check: _Validator, table: dict[str, Any]) -> SetSpec:
                         raise InputError(f"set pair {k}: {end!r} is not a number")
                 pairs.append(tuple(ends))
             sigma = IntervalSet(pairs)
+        limits.check_intervals(len(sigma.intervals))
     except InputError as exc:
         raise check.fail(f"[set] intervals {raw!r}: {exc}", "set", "intervals") from None
     spec = SetSpec(intervals=sigma.intervals, signed=bool(table.get("signed", False)))
@@ -771,6 +779,9 @@ def _factor(check: _Validator, table: dict[str, Any], set_spec: SetSpec, field_s
             raise check.fail(f"key '{key}' in [factor] does not apply to kind = {kind!r}",
                              "factor", key)
     spec = FactorSpec(kind=kind, **{k: float(table[k]) for k in allowed[kind] if k in table})
+    for key in allowed[kind]:
+        if not math.isfinite(getattr(spec, key)):
+            raise check.fail(f"[factor] {key} = {getattr(spec, key)} must be a finite number", "factor", key)
     if kind == "jacobi":
         for key in ("alpha", "beta"):
             if not getattr(spec, key) > -1:
@@ -793,14 +804,18 @@ def _polynomials(check: _Validator, table: dict[str, Any], where_n: str) -> Poly
             if key not in known:
                 raise check.fail(f"unknown key '{key}' in n = {{...}}; known keys: "
                                  f"{', '.join(sorted(known))}", where_n, "n")
-        try:
-            start, stop, num = int(values["start"]), int(values["stop"]), int(values["num"])
-        except (KeyError, TypeError, ValueError):
-            raise check.fail("n = { start, stop, num } needs three integers", where_n, "n") from None
+        if not all(key in values and _is_instance(values[key], (int,)) for key in ("start", "stop", "num")):
+            found = {key: values.get(key) for key in ("start", "stop", "num")}
+            raise check.fail(f"n = {{ start, stop, num }} needs three integers (found {found}), "
+                             "e.g. n = { start = 40, stop = 640, num = 5 }", where_n, "n")
+        start, stop, num = int(values["start"]), int(values["stop"]), int(values["num"])
         spacing = values.get("spacing", "geometric")
         if spacing not in ("geometric", "linear") or start < 1 or stop < start or num < 1:
             raise check.fail("n = { start >= 1, stop >= start, num >= 1, spacing = \"geometric\" or "
                              "\"linear\" }", where_n, "n")
+        if stop > limits.MAX_N or num > limits.MAX_N:
+            raise check.fail(f"n = {{ start = {start}, stop = {stop}, num = {num} }}: stop and num must be at most "
+                             f"the supported {limits.MAX_N}", where_n, "n")
         import numpy as np
 
         grid = (np.geomspace(start, stop, num) if spacing == "geometric"
@@ -813,14 +828,18 @@ def _polynomials(check: _Validator, table: dict[str, Any], where_n: str) -> Poly
         ns = tuple(sorted(set(values)))
     if ns[0] < 2:
         raise check.fail(f"n must be >= 2, got {ns[0]}", where_n, "n")
-    if ns[-1] > 20000:
-        raise check.fail(f"n = {ns[-1]} is larger than the supported 20000", where_n, "n")
+    if ns[-1] > limits.MAX_N:
+        raise check.fail(f"n = {ns[-1]} is larger than the supported {limits.MAX_N}", where_n, "n")
     extra = table.get("extra_degrees", 2)
     points = table.get("value_points", 9)
     if extra < 1:
         raise check.fail("extra_degrees must be >= 1", "polynomials", "extra_degrees")
     if points < 1:
         raise check.fail("value_points must be >= 1", "polynomials", "value_points")
+    try:
+        limits.check_points(points, "value_points", 9)
+    except InputError as exc:
+        raise check.fail(str(exc), "polynomials", "value_points") from None
     return PolynomialSpec(n=ns, extra_degrees=extra, value_points=points)
 
 
@@ -837,6 +856,10 @@ def _comparisons(check: _Validator, table: dict[str, Any]) -> ComparisonSpec:
     spec = ComparisonSpec(**{k: (float(v) if k == "contour_radius" else v) for k, v in table.items()})
     if spec.contour_points < 8:
         raise check.fail("contour_points must be >= 8", "comparisons", "contour_points")
+    try:
+        limits.check_points(spec.contour_points, "contour_points", 64)
+    except InputError as exc:
+        raise check.fail(str(exc), "comparisons", "contour_points") from None
     if not spec.contour_radius > 1.0:
         raise check.fail("contour_radius must be > 1 (the circle must enclose the support)",
                          "comparisons", "contour_radius")
@@ -865,8 +888,8 @@ def _figures(check: _Validator, table: dict[str, Any]) -> FigureSpec:
 
 def _output(check: _Validator, table: dict[str, Any]) -> OutputSpec:
     name = table.get("file", "run.h5")
-    if "/" in name or not name.endswith(".h5"):
-        raise check.fail(f"[output] file {name!r} must be a plain file name ending in .h5",
+    if "/" in name or "\x00" in name or len(name.encode()) > 200 or not name.endswith(".h5"):
+        raise check.fail(f"[output] file {name[:60]!r} must be a plain file name (at most 200 bytes) ending in .h5",
                          "output", "file")
     return OutputSpec(directory=table.get("directory"), file=name)
 

@@ -7,7 +7,6 @@ pipeline both use them.
 
 from __future__ import annotations
 
-import json
 import math
 from typing import TYPE_CHECKING
 
@@ -27,11 +26,9 @@ def measure_summary(mu: EquilibriumMeasure) -> dict:
 
 
 def measure_json(mu: EquilibriumMeasure) -> str:
-    return json.dumps(measure_summary(mu), allow_nan=False, default=_finite)
+    from workbench.jsontext import json_text
 
-
-def _finite(value):
-    return None
+    return json_text(measure_summary(mu))
 
 
 def _fmt(value: float) -> str:

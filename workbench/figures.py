@@ -668,8 +668,13 @@ def save_figure(fig, stem: Path, formats: Iterable[str], dpi: int = 300) -> list
     """Save ``fig`` as ``stem.<fmt>`` for each format, each file written then renamed."""
     import logging
 
+    import os
+    import tempfile
+
+    from workbench.hdf5 import make_output_directory
+
     paths = []
-    stem.parent.mkdir(parents=True, exist_ok=True)
+    make_output_directory(stem.parent)
     # fontTools (TrueType embedding in PDF) warns about the fonts' own time stamps
     font_log = logging.getLogger("fontTools")
     level = font_log.level
@@ -677,9 +682,23 @@ def save_figure(fig, stem: Path, formats: Iterable[str], dpi: int = 300) -> list
     try:
         for fmt in formats:
             target = stem.with_suffix("." + fmt)
-            tmp = target.with_name(target.name + ".tmp")
-            fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_metadata(fmt))
-            tmp.replace(target)
+            # a temporary name of its own (mkstemp): two runs drawing into one folder never share it
+            fd, tmp = tempfile.mkstemp(prefix=target.name + ".", suffix=".tmp", dir=target.parent)
+            mask = os.umask(0o022)
+            os.umask(mask)
+            os.fchmod(fd, 0o666 & ~mask)  # the permissions a plain open() would give
+            try:
+                with os.fdopen(fd, "wb") as stream:
+                    fig.savefig(stream, format=fmt, dpi=dpi, metadata=_metadata(fmt))
+                os.replace(tmp, target)
+            except OSError as exc:
+                from equilibrium.errors import InputError
+
+                raise InputError(f"cannot write the figure {target}: {exc.strerror or exc}; "
+                                 "free space or choose another folder") from None
+            finally:
+                if os.path.exists(tmp):
+                    os.remove(tmp)
             paths.append(target)
     finally:
         font_log.setLevel(level)

@@ -17,8 +17,10 @@ JSON text) so the files can be read back with plain h5py and no project code.
 from __future__ import annotations
 
 import contextlib
+import io
 import json
 import os
+import stat
 import tempfile
 from pathlib import Path
 from typing import Any, Iterator, Mapping
@@ -26,6 +28,11 @@ from typing import Any, Iterator, Mapping
 import h5py
 import numpy as np
 
+#: ending of the temporary files of :func:`atomic_file` (``NAME.XXXXXXXX.tmp`` beside NAME)
+TEMPORARY_SUFFIX = ".tmp"
+
+#: longest file-name component most file systems accept (bytes, POSIX NAME_MAX)
+NAME_MAX = 255
 
 
 def to_attribute(value: Any) -> Any:
@@ -63,19 +70,44 @@ def _nearest_existing(path: Path) -> Path:
     return probe
 
 
-def check_output_file(path: str | os.PathLike[str]) -> Path:
+def check_path_text(path: str | os.PathLike[str], what: str) -> Path:
+    """Refuse a path that no file system can hold: NUL bytes, a component over 255 bytes."""
+    from equilibrium.errors import InputError
+
+    text = os.fspath(path)
+    if "\x00" in text:
+        raise InputError(f"{what.replace(chr(0), '?')}: the path {text!r} holds a NUL byte; choose another name")
+    for part in Path(text).parts:
+        if len(part.encode("utf-8", "surrogateescape")) > NAME_MAX:
+            raise InputError(f"{what[:80]}...: the name {part[:40]}... has {len(part.encode('utf-8', 'surrogateescape'))} "
+                             f"bytes, more than the {NAME_MAX} a file system accepts; choose a shorter name")
+    return Path(text)
+
+
+def check_output_file(path: str | os.PathLike[str], what: str | None = None) -> Path:
     """Refuse, before any computation, an output file that could not be written.
 
-    The path must not be a folder, and its nearest existing ancestor must be a
-    writable folder (the missing folders between are created at the end).
-    Raises :class:`~equilibrium.errors.InputError`.
+    The path must be absent or a regular file (a FIFO, a device or a socket
+    would be replaced by the rename, or block), and its nearest existing
+    ancestor must be a writable folder (the missing folders between are
+    created at the end).  Raises :class:`~equilibrium.errors.InputError`.
     """
     from equilibrium.errors import InputError
 
-    target = Path(path)
-    if target.is_dir():
-        raise InputError(f"--out {target} is a folder; give a file name such as {target / 'result.h5'}")
-    check_output_directory(target.parent, what=f"the folder of --out {target}")
+    what = what or f"--out {path}"
+    target = check_path_text(path, what)
+    try:
+        mode = os.stat(target).st_mode
+    except FileNotFoundError:
+        mode = None
+    except OSError as exc:
+        raise InputError(f"{what}: cannot be used ({exc.strerror or exc}); choose another path") from None
+    if mode is not None and stat.S_ISDIR(mode):
+        raise InputError(f"{what} is a folder; give a file name such as {target / 'result.h5'}")
+    if mode is not None and not stat.S_ISREG(mode):
+        raise InputError(f"{what} is not a regular file (a FIFO, device or socket); "
+                         "write to a new or regular file instead")
+    check_output_directory(target.parent, what=f"the folder of {what}")
     return target
 
 
@@ -83,8 +115,8 @@ def check_output_directory(path: str | os.PathLike[str], what: str | None = None
     """Refuse, before any computation, an output folder that could not be created or written."""
     from equilibrium.errors import InputError
 
-    target = Path(path)
-    what = what or f"output folder {target}"
+    what = what or f"output folder {path}"
+    target = check_path_text(path, what)
     existing = _nearest_existing(target.absolute())
     if not existing.is_dir():
         raise InputError(f"{what} cannot be created: {existing} is a file, not a folder; choose another path")
@@ -123,39 +155,48 @@ def new_file_mode() -> int:
 def atomic_file(path: str | os.PathLike[str]) -> Iterator[h5py.File]:
     """Open a new HDF5 file that appears at ``path`` only when complete.
 
-    The file is built under a temporary name beside ``path``; on normal exit
-    it is flushed, closed, synced and renamed over ``path``.  On any
-    exception (including ``KeyboardInterrupt``) the temporary file is removed
-    and ``path`` is left as it was.  The root carries the project's conventions
+    The file is built in memory (an HDF5 file image), then written under a
+    temporary name beside ``path`` by plain ``os.write``, synced and renamed
+    over ``path``.  A write that fails (full disk, file-size limit) is then an
+    ordinary ``OSError`` raised here, reported as one line (InputError), and
+    not a failure inside the HDF5 library.  On any exception (including
+    ``KeyboardInterrupt``) the temporary file is removed and ``path`` is left
+    as it was.  The root carries the project's conventions
     (:data:`equilibrium.conventions.CONVENTIONS`).
     """
     from equilibrium.conventions import CONVENTIONS
     from equilibrium.errors import InputError
 
-    target = Path(path)
-    if target.is_dir():
-        raise InputError(f"cannot write {target}: it is a folder; give a file name")
+    target = check_output_file(path, what=f"output file {path}")
     make_output_directory(target.parent)
+    image = io.BytesIO()
+    handle = h5py.File(image, "w")
     try:
-        fd, tmp_name = tempfile.mkstemp(prefix=target.name + ".", suffix=".tmp", dir=target.parent)
+        handle.attrs["conventions"] = CONVENTIONS
+        yield handle
+        handle.close()
+    finally:
+        if handle.id.valid:
+            handle.close()
+    try:
+        fd, tmp_name = tempfile.mkstemp(prefix=target.name[:200] + ".", suffix=TEMPORARY_SUFFIX,
+                                        dir=target.parent)
     except OSError as exc:
         raise InputError(f"cannot write in {target.parent}: {exc.strerror or exc}; "
                          "choose another path") from None
-    os.close(fd)
-    handle = None
     try:
-        handle = h5py.File(tmp_name, "w")
-        handle.attrs["conventions"] = CONVENTIONS
-        yield handle
-        handle.flush()
-        handle.close()
-        handle = None
-        os.chmod(tmp_name, new_file_mode())
-        with open(tmp_name, "rb") as stream:
-            os.fsync(stream.fileno())
+        try:
+            os.fchmod(fd, new_file_mode())
+            view = image.getbuffer()
+            while view:
+                view = view[os.write(fd, view):]
+            os.fsync(fd)
+        finally:
+            os.close(fd)
         os.replace(tmp_name, target)
+    except OSError as exc:
+        raise InputError(f"cannot write {target} ({image.getbuffer().nbytes / 1e6:.3g} MB): "
+                         f"{exc.strerror or exc}; free space or choose another path") from None
     finally:
-        if handle is not None:
-            handle.close()
         if os.path.exists(tmp_name):
             os.remove(tmp_name)

@@ -50,7 +50,7 @@ import numpy as np
 from equilibrium.errors import InputError, NumericalFailure
 from workbench import compare
 from workbench.case import Case
-from workbench.hdf5 import check_output_directory, make_output_directory
+from workbench.hdf5 import check_output_directory, check_output_file, make_output_directory
 from workbench.orders import (check_model_request, model_orders, model_zero_orders, order_error_keys, order_errors,
                              order_suffixes)
 from workbench.results import (
@@ -490,6 +490,12 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
     """
     directory = case.output_directory(out)
     check_output_directory(directory)
+    # every path the run will write is checked before any work (a folder or FIFO in the way,
+    # a name no file system takes): a refused run costs nothing
+    check_output_file(directory / case.output.file, what=f"the run file {directory / case.output.file}")
+    check_output_directory(directory / "partial")
+    if (case.figures.enabled if draw is None else draw):
+        check_output_directory(directory / "figures", what=f"the figures folder {directory / 'figures'}")
     timings: dict[str, float] = {}
     start = time.perf_counter()
     messages: list[str] = []

@@ -275,14 +275,49 @@ def _stored_dims(item: h5py.Dataset) -> tuple[str | None, ...] | None:
     return tuple(names) if any(names) else None
 
 
-def _load_group(source: h5py.Group) -> Group:
+#: deepest group nesting a file may have (the workbench writes at most four levels)
+MAX_DEPTH = 32
+
+
+class _Reading:
+    """What a read has used so far: bytes declared by its datasets, groups visited."""
+
+    def __init__(self) -> None:
+        self.nbytes = 0
+        self.visited: set = set()
+
+
+def _load_group(source: h5py.Group, depth: int = 0, reading: _Reading | None = None) -> Group:
+    """The tree under ``source``, read defensively (the file may come from anywhere).
+
+    Refused (InputError): links of any kind (the workbench writes none; an external
+    link would read another file), a group reached twice (hard-link loops), nesting
+    deeper than :data:`MAX_DEPTH`, and datasets declaring more than the read budget of
+    :mod:`workbench.limits` (checked on the declared shape, before any byte is read).
+    """
+    from equilibrium.errors import InputError
+    from workbench.limits import check_read
+
+    reading = reading or _Reading()
+    if depth > MAX_DEPTH:
+        raise InputError(f"groups nested deeper than {MAX_DEPTH} levels at {source.name[:80]}")
+    if source.id in reading.visited:
+        raise InputError(f"the group {source.name[:80]} is reached twice (a link loop)")
+    reading.visited.add(source.id)
     node = Group(attrs={k: _decode(v) for k, v in source.attrs.items() if k not in _SCALE_ATTRIBUTES})
-    for name, item in source.items():
+    for name in source.keys():
+        link = source.get(name, getlink=True)
+        if not isinstance(link, h5py.HardLink):
+            raise InputError(f"{source.name.rstrip('/')}/{name[:60]} is a {type(link).__name__} "
+                             "(the workbench writes no links)")
+        item = source[name]
         if isinstance(item, h5py.Group):
-            node.groups[name] = _load_group(item)
+            node.groups[name] = _load_group(item, depth + 1, reading)
         elif _dimension_only(item):
             continue        # a dimension without data (_store_group), not content
-        else:
+        elif isinstance(item, h5py.Dataset):
+            reading.nbytes += int(np.prod(item.shape, dtype=float)) * max(item.dtype.itemsize, 1) if item.shape else 8
+            check_read(reading.nbytes, f"the dataset {item.name[:80]}")
             if h5py.check_string_dtype(item.dtype) is not None:
                 data = np.asarray(item.asstr()[()], dtype=object)
             else:
@@ -290,6 +325,10 @@ def _load_group(source: h5py.Group) -> Group:
             attrs = {k: _decode(item.attrs[k]) for k in item.attrs.keys() if k not in _SCALE_ATTRIBUTES}
             node.datasets[name] = Dataset(np.asarray(data), attrs, _stored_dims(item))
     return node
+
+
+#: what h5py and numpy raise on files they cannot make sense of (besides InputError)
+READ_ERRORS = (OSError, KeyError, ValueError, TypeError, RuntimeError, RecursionError, UnicodeDecodeError)
 
 
 def read_run(path: str | os.PathLike[str]) -> Group:
@@ -300,14 +339,15 @@ def read_run(path: str | os.PathLike[str]) -> Group:
         raise InputError(f"{path} is a folder; give a file written by 'workbench run' or 'sweep'")
     try:
         with h5py.File(path, "r") as handle:
-            if handle.attrs.get("format") not in READABLE_FORMATS:
+            kind = _decode(handle.attrs.get("format"))
+            if not isinstance(kind, str) or kind not in READABLE_FORMATS:
                 raise InputError(f"{path} is not a workbench file (no 'format' attribute "
                                  f"'{FORMAT}' or the like); give a file written by 'workbench run', 'sweep' "
                                  "or the --out of 'equilibrium', 'recurrence', 'zeros'")
             return _load_group(handle)
-    except (OSError, KeyError) as exc:
+    except READ_ERRORS as exc:
         # h5py's messages run over several lines; the command line promises one
-        reason = " ".join(str(exc).split())
+        reason = " ".join(str(exc).split())[:200]
         raise InputError(f"cannot read {path} as HDF5 ({reason}); give a file written by "
                          "'workbench run' or 'sweep'") from None
 
@@ -329,19 +369,26 @@ def write_partial(directory: str | os.PathLike[str], n: int, tree: Group, digest
 
 def load_partials(directory: str | os.PathLike[str], digest: str,
                   wanted: Iterable[int]) -> dict[int, Group]:
-    """Finished per-n results of the same case (same digest); unreadable files are ignored."""
+    """Finished per-n results of the same case (same digest, same n).
+
+    A file that cannot be read completely (a damaged disk block, a file put there by
+    hand) or that belongs to another case or another n is not used: that n is computed
+    again and its file replaced.
+    """
+    from equilibrium.errors import InputError
+
     found: dict[int, Group] = {}
     for n in wanted:
         path = partial_path(directory, n)
-        if not path.exists():
+        if not path.is_file():
             continue
         try:
             with h5py.File(path, "r") as handle:
-                if handle.attrs.get("case_digest") != digest:
+                if _decode(handle.attrs.get("case_digest")) != digest or _decode(handle.attrs.get("n")) != int(n):
                     continue
                 found[n] = _load_group(handle)
-        except OSError:
-            continue  # cannot happen for atomically written files, but never trust a disk
+        except (InputError, *READ_ERRORS):
+            continue  # never trust a disk: recompute
     return found
 
 

@@ -35,6 +35,7 @@ import json
 import math
 import multiprocessing
 import os
+import re
 import signal
 import sys
 import time
@@ -67,18 +68,35 @@ PointFunction = Callable[[Mapping[str, float]], Mapping[str, Any]]
 class Journal:
     """Append-only record of finished points (JSON lines) tied to a case digest."""
 
-    def __init__(self, path: str | os.PathLike[str], digest: str) -> None:
+    def __init__(self, path: str | os.PathLike[str], digest: str,
+                 valid: Callable[[Mapping[str, Any]], bool] | None = None) -> None:
         self.path = Path(path)
         self.digest = digest
+        self.valid = valid
+        self.rejected = 0  # records that were not used (malformed): their points are computed again
         self.results: dict[int, dict[str, Any]] = {}
         self._handle = None
         self._last_sync = 0.0
         self._load()
 
     def _load(self) -> None:
-        if not self.path.exists():
+        """Read the journal; every record is checked, and a malformed one is not used.
+
+        The journal is a file anyone can edit: a line that is not UTF-8 JSON, an id that
+        is not a non-negative integer (``"abc"``, ``1.5``, NaN, ``true``), a result that is
+        not an object or that ``valid`` refuses, all leave their point to be computed again.
+        """
+        from equilibrium.errors import InputError
+
+        if not self.path.exists() and not self.path.is_symlink():
             return
-        lines = self.path.read_text(encoding="utf-8").splitlines()
+        if not self.path.is_file():
+            raise InputError(f"the sweep journal {self.path} is not a regular file; move it away "
+                             "or choose another output folder")
+        try:
+            lines = self.path.read_bytes().splitlines()
+        except OSError as exc:
+            raise InputError(f"cannot read the sweep journal {self.path}: {exc.strerror or exc}") from None
         header = _parse_line(lines[0]) if lines else None
         if not header or header.get("digest") != self.digest:
             # another case (or a damaged header): keep it aside, start afresh
@@ -86,8 +104,13 @@ class Journal:
             return
         for line in lines[1:]:
             record = _parse_line(line)
-            if record is not None and "id" in record and "result" in record:
-                self.results[int(record["id"])] = record["result"]
+            point_id = None if record is None else record.get("id")
+            result = None if record is None else record.get("result")
+            if (type(point_id) is int and 0 <= point_id < 2**53 and isinstance(result, dict)
+                    and (self.valid is None or self.valid(result))):
+                self.results[point_id] = result
+            elif line.strip():
+                self.rejected += 1
 
     def open(self) -> None:
         new = not self.path.exists()
@@ -128,12 +151,34 @@ class Journal:
             self._handle = None
 
 
-def _parse_line(line: str) -> dict[str, Any] | None:
+def _parse_line(line: bytes) -> dict[str, Any] | None:
     try:
-        value = json.loads(line)
-    except ValueError:
+        value = json.loads(line.decode("utf-8"))
+    except (ValueError, RecursionError):  # not UTF-8, not JSON, nested too deep
         return None
     return value if isinstance(value, dict) else None
+
+
+def _number(value: Any) -> bool:
+    # NaN is a recorded value (a quantity a point could not give), not damage
+    return type(value) in (int, float)
+
+
+def valid_point_result(result: Mapping[str, Any]) -> bool:
+    """Whether a journal record is a result of :func:`sweep_point` (or its recorded failure)."""
+    if "error" in result:
+        return isinstance(result["error"], str)
+    bands = result.get("bands")
+    if type(bands) is not int or not 1 <= bands <= 10_000:
+        return False
+    support = result.get("support", [])
+    omega = result.get("omega", [])
+    return (isinstance(support, list) and len(support) == bands
+            and all(isinstance(p, list) and len(p) == 2 and all(_number(e) or e is None for e in p)
+                    for p in support)
+            and isinstance(omega, list) and len(omega) <= bands and all(_number(w) for w in omega)
+            and all(_number(result[k]) for k in ("lagrange", "energy") if k in result)
+            and all(type(result[k]) is bool for k in ("verified", "regular", "positive") if k in result))
 
 
 def _json_default(value: Any) -> Any:
@@ -330,6 +375,61 @@ def _pool_round(context, workers, chunks, function, record):
     return lost, started
 
 
+_SCHEDULER_ADDRESS = re.compile(r"tcp://(\[[0-9A-Fa-f:.]+\]|[A-Za-z0-9][A-Za-z0-9.\-]*):([0-9]{1,5})")
+
+
+def parse_scheduler_address(address: str) -> tuple[str, int]:
+    """``tcp://HOST:PORT`` → (host, port); anything else is an InputError naming the form."""
+    match = _SCHEDULER_ADDRESS.fullmatch(address.strip())
+    if not match or not 1 <= int(match.group(2)) <= 65535:
+        raise InputError(f"--scheduler {address[:80]!r}: give an address tcp://HOST:PORT with a port "
+                         "1..65535, e.g. tcp://127.0.0.1:8786 (IPv6 in brackets: tcp://[::1]:8786)")
+    return match.group(1).strip("[]"), int(match.group(2))
+
+
+def check_scheduler(address: str, timeout: float) -> None:
+    """Refuse (InputError) an address that does not answer as a Dask scheduler within ``timeout``.
+
+    A Dask scheduler speaks first: on a new connection it sends its handshake, a frame
+    header of little-endian 64-bit lengths (a few dozen bytes in all) and a msgpack map
+    naming ``compression`` (measured on distributed's own Scheduler).  A peer that says
+    nothing (an HTTP server, a closed port behind a firewall), or announces a length
+    beyond 1 MB, is refused before Dask's client, which would wait or try to allocate what
+    the peer announced.
+    """
+    import socket
+    import struct
+
+    host, port = parse_scheduler_address(address)
+    reason = None
+    try:
+        with socket.create_connection((host, port), timeout=timeout) as connection:
+            connection.settimeout(timeout)
+            head = _receive(connection, 8)
+            total = struct.unpack("<Q", head)[0] if len(head) == 8 else None
+            if total is None or not 8 < total <= 2**20:
+                reason = "it did not send a Dask handshake"
+            elif b"compression" not in _receive(connection, total):
+                reason = "its first message is not a Dask handshake"
+    except socket.timeout:
+        reason = f"no answer within {timeout:g} s"
+    except OSError as exc:
+        reason = exc.strerror or str(exc)
+    if reason:
+        raise InputError(f"cannot reach the Dask scheduler at {address} ({reason}); start one with "
+                         "'dask scheduler' and give its tcp://HOST:PORT")
+
+
+def _receive(connection, size: int) -> bytes:
+    data = b""
+    while len(data) < size:
+        chunk = connection.recv(size - len(data))
+        if not chunk:
+            break
+        data += chunk
+    return data
+
+
 def _run_dask(todo, function, scheduler, chunk_size, record, timeout) -> int:
     """Run the chunks on a Dask cluster; return the points resubmitted after a worker was lost.
 
@@ -342,6 +442,7 @@ def _run_dask(todo, function, scheduler, chunk_size, record, timeout) -> int:
     except ImportError:  # pragma: no cover - dask is a declared dependency
         raise InputError("--scheduler needs dask.distributed; install it with "
                          "'pip install dask[distributed]'") from None
+    check_scheduler(scheduler, timeout)
     try:
         client = Client(scheduler, timeout=f"{timeout}s", set_as_default=False)
     except (OSError, TimeoutError, ValueError) as exc:
@@ -671,7 +772,7 @@ def sweep_case(case, out: str | os.PathLike[str] | None = None, *, workers: int 
     custom_function = function is not None
     if function is None:
         function = functools.partial(equilibrium_point_fast, field_payload(case))
-    journal = Journal(directory / "points.jsonl", case.digest)
+    journal = Journal(directory / "points.jsonl", case.digest, valid=valid_point_result)
     outcome = run_points(points, function, journal, workers=workers, scheduler=scheduler,
                          budget=budget, retries=retries, progress=progress,
                          description=f"{case.name}: sweep")

@@ -19,8 +19,9 @@ from equilibrium.field import Field
 from equilibrium.sets import IntervalSet
 
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z_0-9]*$")
-_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
-_INTEGER = re.compile(r"^[+-]?\d+$")
+# ASCII digits only (\d would take full-width and other Unicode digits, which the expressions refuse)
+_NUMBER = re.compile(r"^[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?$")
+_INTEGER = re.compile(r"^[+-]?[0-9]+$")
 
 
 def add_field_options(parser: argparse.ArgumentParser, *, factor: bool = True, output: bool = False) -> None:
@@ -57,10 +58,13 @@ def parse_parameters(items: Sequence[str]) -> dict[str, float]:
         if not _NAME.match(name):
             raise InputError(f"--param name {name!r} must be a name (letters, digits, _), e.g. t")
         if not _NUMBER.match(text):
-            raise InputError(f"--param {name}: {text!r} is not a number")
+            raise InputError(f"--param {name}: {text!r} is not a number in ASCII digits (e.g. --param {name}=1.5)")
         value = float(text)
         if not math.isfinite(value):
             raise InputError(f"--param {name}: {text!r} is not finite")
+        if value == 0 and any(c in "123456789" for c in text.lower().partition("e")[0]):
+            raise InputError(f"--param {name}: {text!r} underflows to 0 in double precision; "
+                             "use numbers above 2.3e-308 in magnitude")
         if name in values:
             raise InputError(f"--param {name} is given twice")
         values[name] = value
@@ -73,12 +77,18 @@ def field_and_set_from_args(args: argparse.Namespace) -> tuple[Field, IntervalSe
     text_on = getattr(args, "on", None)
     # an empty --on= is a mistake, not a request for the real line (IntervalSet.parse refuses it)
     on = IntervalSet.real_line() if text_on is None else IntervalSet.parse(text_on)
+    from workbench.limits import check_intervals
+
+    check_intervals(len(on.intervals), "--on")
     text = getattr(args, "potential", None)
     check_parameters_used(parameters, {"--potential": text, "--factor": getattr(args, "factor", None)})
     if text is None or not text.strip():
         if not on.is_compact:
             raise InputError("--potential is required unless --on names a compact set (then V = 0)")
         return Field.zero(), on
+    from workbench.limits import check_expression
+
+    check_expression(text, parameters, "--potential")
     return Field.from_expression(text, parameters=parameters), on
 
 
@@ -121,4 +131,7 @@ def positive_integer(text, name: str, minimum: int = 1) -> int:
     value = int(token)
     if value < minimum:
         raise InputError(f"{name} = {value} must be >= {minimum}")
+    from workbench.limits import check_degree
+
+    check_degree(value, name)
     return value

@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 import argparse
-import json
 import math
 import sys
 
 from equilibrium.errors import InputError
+
+from workbench.jsontext import json_text
 
 from ._common import add_field_options, positive_integer
 from .recurrence import build_weight
@@ -78,7 +79,7 @@ def run(args: argparse.Namespace) -> int:
         "model_message": model_message,
     }
     if args.json:
-        print(json.dumps(result))
+        print(json_text(result))
     else:
         _table(sys.stdout, weight, direct, expansion, result, TERM_LABELS)
     if not verified:

@@ -38,7 +38,10 @@ def run(args: argparse.Namespace) -> int:
     tree = read_run(path)
     out = Path(args.out) if args.out else path.parent / "figures"
     check_output_directory(out, what=f"figure folder {out}")
-    written = draw_all(tree, out, formats=formats, dpi=args.dpi)
+    from workbench.commands.show import malformed_file
+
+    with malformed_file(path):
+        written = draw_all(tree, out, formats=formats, dpi=args.dpi)
     if not written:
         print(f"{path}: no figure has its data in this file")
         return 0

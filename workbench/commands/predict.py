@@ -21,26 +21,33 @@ hard edge relative N^{-K-2}); zeros beyond the matching disc are null.
 from __future__ import annotations
 
 import argparse
-import json
+import re
 import sys
 
 import numpy as np
 
 from equilibrium.errors import InputError
 
+from workbench.jsontext import json_text
+
 from ._common import add_field_options, field_and_set_from_args, parse_parameters
 
 
+_ASCII_INTEGER = re.compile(r"[+-]?[0-9]+")
+
+
 def _degrees(text: str) -> np.ndarray:
+    from workbench.limits import MAX_DEGREE_RANGE, check_degree
+
     lo, sep, hi = text.partition(":")
-    try:
-        lo_i, hi_i = int(lo), int(hi)
-    except ValueError:
-        raise InputError(f"--degrees needs LO:HI with integers; got {text!r} (e.g. --degrees 100:110)") from None
+    if not (_ASCII_INTEGER.fullmatch(lo.strip()) and _ASCII_INTEGER.fullmatch(hi.strip())):
+        raise InputError(f"--degrees needs LO:HI with integers in ASCII digits; got {text!r} (e.g. --degrees 100:110)")
+    lo_i, hi_i = int(lo), int(hi)
     if not sep or lo_i < 1 or hi_i <= lo_i:
         raise InputError(f"--degrees needs 1 <= LO < HI; got {text!r} (e.g. --degrees 100:110)")
-    if hi_i - lo_i > 100_000:
-        raise InputError(f"--degrees range {text!r} is longer than 100000 degrees; split it")
+    check_degree(hi_i - 1, "--degrees HI - 1")
+    if hi_i - lo_i > MAX_DEGREE_RANGE:
+        raise InputError(f"--degrees range {text!r} is longer than {MAX_DEGREE_RANGE} degrees; split it")
     return np.arange(lo_i, hi_i)
 
 
@@ -202,7 +209,7 @@ def run(args) -> int:
     if edges is not None:
         result["edge_zeros"] = edges
     if args.json:
-        json.dump(result, sys.stdout)
+        sys.stdout.write(json_text(result))
         sys.stdout.write("\n")
         return _status(verified, message)
     out = sys.stdout

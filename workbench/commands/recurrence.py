@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 import time
 
 import numpy as np
+
+from workbench.jsontext import json_text
 
 from ._common import add_field_options, check_output, field_and_set_from_args, parse_parameters, positive_integer
 
@@ -74,7 +75,7 @@ def run(args: argparse.Namespace) -> int:
         write_command_file(args.out, root, "recurrence", file_parameters(weight, field, on),
                            time.perf_counter() - started)
     if args.json:
-        print(json.dumps({
+        print(json_text({
             "a": rc.a.tolist(), "b": rc.b.tolist(), "error_estimate": rc.error_estimate,
             "n": n, "count": count, "verified": rc.verified, "method": rc.method,
             "log_mass": rc.log_mass, "checks": dict(rc.checks),

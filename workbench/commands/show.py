@@ -3,8 +3,10 @@
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import math
+import re
 from pathlib import Path
 
 import numpy as np
@@ -28,8 +30,33 @@ def run(args: argparse.Namespace) -> int:
     path = Path(args.file)
     if not path.exists():
         raise InputError(f"{path} not found; give a file written by 'workbench run' or 'sweep'")
-    print("\n".join(summary_lines(read_run(path), str(path))))
+    tree = read_run(path)
+    with malformed_file(path):
+        lines = summary_lines(tree, str(path))
+    print("\n".join(printable(line) for line in lines))
     return 0
+
+
+@contextlib.contextmanager
+def malformed_file(path):
+    """Turn what a crafted file makes the readers raise (a text where an array belongs, bad JSON
+    in an attribute, missing groups) into one line and exit code 2."""
+    from workbench.results import READ_ERRORS
+
+    try:
+        yield
+    except (*READ_ERRORS, IndexError, AttributeError) as exc:
+        reason = " ".join(str(exc).split())[:160]
+        raise InputError(f"{path} is not a well-formed workbench file ({type(exc).__name__}: {reason}); "
+                         "give a file written by 'workbench run' or 'sweep'") from None
+
+
+_CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f]")
+
+
+def printable(text: str) -> str:
+    """``text`` with control characters (terminal escape sequences among them) written as \\xNN."""
+    return _CONTROL.sub(lambda m: f"\\x{ord(m.group()):02x}", text)
 
 
 def _fmt(value, width: int = 11) -> str:

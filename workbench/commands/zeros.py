@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 import time
 
+
+from workbench.jsontext import json_text
 
 from ._common import add_field_options, check_output, positive_integer
 from .recurrence import _attributes, _tolerance, build_weight, file_parameters
@@ -56,7 +57,7 @@ def run(args: argparse.Namespace) -> int:
         write_command_file(args.out, root, "zeros", file_parameters(weight, field, on),
                            time.perf_counter() - started)
     if args.json:
-        print(json.dumps({
+        print(json_text({
             "zeros": rule.nodes.tolist(), "log_weights": rule.log_weights.tolist(), "degree": degree, "n": n,
             "error_estimate": rc.error_estimate, "verified": rc.verified, "checks": dict(rule.checks),
         }))

@@ -51,10 +51,6 @@ from .discretisation import PRIMARY, SECONDARY, Discretisation, discretise, esti
 #: renormalise the per-node mantissas every this many steps
 _RENORMALISE_EVERY = 8
 
-#: refuse computations whose arrays would exceed this many bytes
-MEMORY_LIMIT = 8 * 2**30
-
-
 @dataclass(frozen=True)
 class RecurrenceCoefficients:
     """Recurrence coefficients of ``w_n`` for ``0 ≤ k ≤ K``.
@@ -239,14 +235,15 @@ def estimate_memory(weight: Weight, count: int) -> int:
     return int(nodes * 8 * 14 + count * 8 * 8)
 
 
-def check_memory(weight: Weight, count: int, limit: int = MEMORY_LIMIT) -> None:
-    """Raise InputError when the estimated memory exceeds ``limit``."""
-    need = estimate_memory(weight, count)
-    if need > limit:
-        raise InputError(
-            f"{count + 1} coefficients would need about {need / 2**30:.1f} GB (limit {limit / 2**30:.0f} GB); "
-            "ask for fewer coefficients"
-        )
+def check_memory(weight: Weight, count: int) -> None:
+    """Refuse (InputError) when the estimated memory or time exceeds the budgets of :mod:`workbench.limits`."""
+    from workbench import limits
+
+    what = f"{count + 1} coefficients"
+    instead = "ask for fewer coefficients"
+    limits.check_memory(estimate_memory(weight, count), what, instead)
+    nodes = estimate_size(weight, count, PRIMARY, bands=4)
+    limits.check_time(limits.recurrence_seconds(nodes, count), what, instead)
 
 
 def default_threads() -> int:
