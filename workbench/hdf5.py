@@ -98,7 +98,7 @@ def check_output_file(path: str | os.PathLike[str], what: str | None = None) -> 
     target = check_path_text(path, what)
     try:
         mode = os.stat(target).st_mode
-    except FileNotFoundError:
+    except (FileNotFoundError, NotADirectoryError):  # absent (a file in the way is named below)
         mode = None
     except OSError as exc:
         raise InputError(f"{what}: cannot be used ({exc.strerror or exc}); choose another path") from None

@@ -400,6 +400,8 @@ def check_scheduler(address: str, timeout: float) -> None:
     import socket
     import struct
 
+    if "://" in address and not address.startswith("tcp://"):
+        return  # another transport (inproc:// of an in-process cluster, tls://): Dask's own client
     host, port = parse_scheduler_address(address)
     reason = None
     try:
