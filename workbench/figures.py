@@ -671,7 +671,7 @@ def save_figure(fig, stem: Path, formats: Iterable[str], dpi: int = 300) -> list
     import os
     import tempfile
 
-    from workbench.hdf5 import make_output_directory
+    from workbench.hdf5 import make_output_directory, new_file_mode
 
     paths = []
     make_output_directory(stem.parent)
@@ -684,9 +684,7 @@ def save_figure(fig, stem: Path, formats: Iterable[str], dpi: int = 300) -> list
             target = stem.with_suffix("." + fmt)
             # a temporary name of its own (mkstemp): two runs drawing into one folder never share it
             fd, tmp = tempfile.mkstemp(prefix=target.name + ".", suffix=".tmp", dir=target.parent)
-            mask = os.umask(0o022)
-            os.umask(mask)
-            os.fchmod(fd, 0o666 & ~mask)  # the permissions a plain open() would give
+            os.fchmod(fd, new_file_mode())  # the permissions a plain open() would give
             try:
                 with os.fdopen(fd, "wb") as stream:
                     fig.savefig(stream, format=fmt, dpi=dpi, metadata=_metadata(fmt))
