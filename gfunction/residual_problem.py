@@ -283,23 +283,31 @@ def phase_error(predictor, degrees, *, step: float = 1e-6) -> np.ndarray:
     ``a = (a²)^{1/2}``, ``b`` of ``ModelProblem.expansion`` with step ``step`` in the phases
     (their error O(step²) is far below the derivatives themselves).
     """
-    degrees = np.atleast_1d(np.asarray(degrees, dtype=float))
+    return _expansion_and_phase_error(predictor, degrees, step)[1]
+
+
+def _expansion_and_phase_error(predictor, degrees, step: float = 1e-6):
+    """``(expansion at the phases of degrees, phase error)`` from one call of ``ModelProblem.expansion``
+    (its theta functions cost mostly per call, not per point); the expansion is None for one band."""
+    degrees = np.atleast_1d(np.asarray(degrees))
     g = int(predictor.genus)
+    N = degrees.size
     if g == 0:
-        return np.zeros(degrees.size)
+        return None, np.zeros(N)
     eps = 2.0 ** -53
     checks = getattr(predictor.measure, "checks", {}) or {}
     d_omega = max(float(checks.get("mass_error", 0.0)), eps)
     omega = np.asarray(predictor.g.omega, dtype=float)
-    dw = degrees[:, None] * (d_omega + eps * np.abs(omega)[None, :])          # (N, g)
+    dw = degrees.astype(float)[:, None] * (d_omega + eps * np.abs(omega)[None, :])    # (N, g)
     w = predictor.phases(degrees)
-    shifts = np.concatenate([np.eye(g), -np.eye(g)]) * step                     # (2g, g)
-    ex = predictor.model.expansion((w[:, None, :] + shifts[None]).reshape(-1, g))
-    a = np.sqrt(np.abs(np.asarray(ex["a2"]).real)).reshape(degrees.size, 2 * g)
-    b = np.asarray(ex["b"]).real.reshape(degrees.size, 2 * g)
+    shifts = np.concatenate([np.eye(g), -np.eye(g)]) * step                           # (2g, g)
+    ex = predictor.model.expansion(np.concatenate([w, (w[:, None, :] + shifts[None]).reshape(-1, g)]))
+    at_degrees = {key: (np.asarray(v)[:N] if np.ndim(v) else v) for key, v in ex.items()}
+    a = np.sqrt(np.abs(np.asarray(ex["a2"])[N:].real)).reshape(N, 2 * g)
+    b = np.asarray(ex["b"])[N:].real.reshape(N, 2 * g)
     da = np.abs(a[:, :g] - a[:, g:]) / (2 * step)
     db = np.abs(b[:, :g] - b[:, g:]) / (2 * step)
-    return np.maximum(np.sum(da * dw, axis=1), np.sum(db * dw, axis=1))
+    return at_degrees, np.maximum(np.sum(da * dw, axis=1), np.sum(db * dw, axis=1))
 
 
 @dataclass(frozen=True)
@@ -320,7 +328,8 @@ class ResidualSolver:
         if degrees.ndim != 1 or degrees.size == 0 or np.any(degrees < 1) or np.any(degrees != np.round(degrees)):
             raise InputError(f"degrees must be positive integers; got {degrees!r}")
         degrees = degrees.astype(np.int64)
-        out = outer_at_infinity(self.predictor, degrees)
+        expansion, phase_err = _expansion_and_phase_error(self.predictor, degrees)
+        out = outer_at_infinity(self.predictor, degrees, expansion=expansion)
         N = degrees.size
         R1 = np.zeros((2, N, 2, 2), dtype=complex)
         R2 = np.zeros((2, N, 2, 2), dtype=complex)
@@ -350,7 +359,6 @@ class ResidualSolver:
         diff = np.maximum(np.abs(a[0] - a[1]), np.abs(b[0] - b[1]).real)
         c = self.neglected["c"]
         neglected = np.exp(-degrees.astype(float) * c) if np.isfinite(c) else np.zeros(N)
-        phase_err = phase_error(self.predictor, degrees)
         solved = np.maximum(diff, neglected)
         err = np.maximum(solved, phase_err)
         sym = np.concatenate([R1[1], R2[1]])

@@ -154,10 +154,15 @@ def szego_first_moment(szego, support, *, samples: int = 64) -> float:
     return complex(rad * np.mean(f * t))
 
 
-def outer_at_infinity(predictor, degrees) -> dict:
-    """``(N_1)_12, (N_1)_21, (N_1)_22, (N_2)_12`` for each degree (module docstring)."""
+def outer_at_infinity(predictor, degrees, *, expansion: dict | None = None) -> dict:
+    """``(N_1)_12, (N_1)_21, (N_1)_22, (N_2)_12`` for each degree (module docstring).
+
+    ``expansion`` -- ``predictor.model.expansion`` at the phases of ``degrees`` when the caller
+    has it already (one evaluation of the theta functions instead of two).
+    """
     w = predictor.phases(degrees)
-    ex = predictor.model.expansion(w if predictor.genus else np.zeros((w.shape[0], 0)))
+    ex = expansion if expansion is not None else predictor.model.expansion(
+        w if predictor.genus else np.zeros((w.shape[0], 0)))
     N = w.shape[0]
     M1_12 = np.broadcast_to(ex["M1_12"], (N,)).astype(complex)
     M1_21 = np.broadcast_to(ex["M1_21"], (N,)).astype(complex)

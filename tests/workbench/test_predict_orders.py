@@ -1,13 +1,15 @@
 """``workbench predict --order K --method series|residual``: the JSON, the orders, the methods.
 
-Sources: Laguerre x^α e^{-nx} (DLMF 18.9.2 rescaled: a_n = √(1+α/n), b_n = 2 + (α+1)/n; its zeros
-t_m/n from scipy.special.roots_genlaguerre) and the leading-order output of the command before the
+Sources: Laguerre x^α e^{-nx} (DLMF 18.9.2 rescaled: a_n = √(1+α/n), b_n = 2 + (α+1)/n; off the diagonal
+a_k = √(k(k+α))/n, b_k = (2k+α+1)/n; its zeros t_m/n from scipy.special.roots_genlaguerre), Hermite
+(DLMF 18.9.2 rescaled: a_k^{(n)} = √(k/n)) and the leading-order output of the command before the
 options existed (order 0 is unchanged).
 """
 
 import json
 
 import numpy as np
+import pytest
 
 from workbench.cli import main
 
@@ -99,3 +101,33 @@ def test_edge_zeros_of_laguerre_by_order(capsys):
     assert soft[0] < 1e-4 and soft[1] < 1e-2 * soft[0] and soft[2] < 1e-2 * soft[1], soft
     code, d, _ = _json(capsys, base[:-2])
     assert "edge_zeros" not in d                       # not asked: the JSON is unchanged
+
+
+def test_near_diagonal_shifts(capsys):
+    # Hermite e^{-n x²/2}: a_k^{(n)} = √(k/n), b_k = 0 (DLMF 18.9.2 rescaled by x -> x√(n/2))
+    code, d, err = _json(capsys, ["predict", "--potential", "x**2/2", "--degrees", "40:42", "--shifts=-2:2",
+                                  "--method", "residual"])
+    assert code == 0, err
+    near = d["near_diagonal"]
+    assert near["shifts"] == [-2, -1, 0, 1]
+    k = np.array([40, 41])[:, None] + np.array(near["shifts"])[None, :]
+    assert np.max(np.abs(np.array(near["a"]) - np.sqrt(k / np.array([[40], [41]])))) < 1e-14
+    assert np.max(np.abs(near["b"])) < 1e-14 and np.max(near["error_estimate"]) < 1e-13
+    assert np.array(near["a"])[:, 2] == pytest.approx(d["a"], abs=1e-15)      # j = 0 is the diagonal
+    # Laguerre x^α e^{-nx} at order 2: a_k = √(k(k+α))/n, b_k = (2k+α+1)/n (DLMF 18.9.2 rescaled)
+    code, d, err = _json(capsys, ["predict", "--potential", "x", "--on=0:", "--factor", "x^0.7",
+                                  "--degrees", "300:301", "--order", "2", "--shifts=-1:2"])
+    assert code == 0, err
+    k = 300 + np.array([-1, 0, 1])
+    assert np.max(np.abs(np.array(d["near_diagonal"]["a"][0]) - np.sqrt(k * (k + 0.7)) / 300)) < 1e-8
+    assert np.max(np.abs(np.array(d["near_diagonal"]["b"][0]) - (2 * k + 1.7) / 300)) < 1e-13
+    assert d["near_diagonal"]["error_estimate"] is None
+
+
+def test_near_diagonal_refusals(capsys):
+    base = ["predict", "--potential", "x**2/2", "--degrees", "3:5"]
+    for shifts, words in (("--shifts=-3:1", "N + j must be >= 1"), ("--shifts=2:1", "J1 < J2"),
+                          ("--shifts=\uff12:3", "J1:J2"), ("--shifts=1:2:3", "J1:J2")):
+        assert main(base + [shifts]) == 2
+        out = capsys.readouterr()
+        assert words in out.err and out.out == "" and "Traceback" not in out.err

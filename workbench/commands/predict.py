@@ -16,6 +16,10 @@ marked not verified (the lens and gap jumps it neglects exceed 1e-13; exit 3), n
 J_α(u) + (κ/2) u J_α'(u) at a hard edge with Jacobi exponent α, in the exact local variable
 and with the residual matrix through R^(K)/N^K at ``--order K`` (errors: soft edge N^{-K-2},
 hard edge relative N^{-K-2}); zeros beyond the matching disc are null.
+
+``--shifts=J1:J2`` adds the near-diagonal coefficients a_{N+j}^{(N)}, b_{N+j}^{(N)} for
+j = J1 … J2-1 at every degree N (gfunction.near_diagonal: the diagonal problem of the field
+(N/(N+j)) V at degree N + j, by the same --order and --method).
 """
 
 from __future__ import annotations
@@ -71,13 +75,16 @@ def register(subparsers) -> None:
     p.add_argument("--edge-zeros", default="0", metavar="M",
                    help="also the first M zeros next to each outer edge (Airy form at soft, Bessel form at hard "
                         "edges, at --order; default 0: none; at most 50)")
+    p.add_argument("--shifts", default=None, metavar="J1:J2",
+                   help="also the near-diagonal a_(N+j)^(N), b_(N+j)^(N) for j = J1 ... J2-1 (e.g. --shifts=-2:3), "
+                        "by the same --order and --method")
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
     p.set_defaults(handler=run)
 
 
 #: measured seconds per degree on the development machine (loaded), used to refuse long ranges up front:
 #: corrected gap zeros (gfunction.polynomial_form, genus >= 1) and the residual problem
-_SECONDS_PER_DEGREE = {"gap_zeros": 0.15, "residual": 0.06, "edge_zeros": 0.05}
+_SECONDS_PER_DEGREE = {"gap_zeros": 0.15, "residual": 0.06, "edge_zeros": 0.05, "near_diagonal": 0.4}
 _MAX_EDGE_ZEROS = 50
 _BUDGET_SECONDS = 600.0
 
@@ -113,8 +120,22 @@ def _edge_count(text) -> int:
     return value
 
 
-def _refuse_long(degrees: np.ndarray, order: int, method: str, genus: int, edge_count: int = 0) -> None:
+def _shifts(text) -> np.ndarray | None:
+    """``J1:J2`` (ASCII integers, J1 < J2) -> ``J1 … J2-1``; None without the option."""
+    if text is None:
+        return None
+    m = re.fullmatch(r"\s*([+-]?[0-9]{1,4})\s*:\s*([+-]?[0-9]{1,4})\s*", str(text))
+    if not m or int(m.group(1)) >= int(m.group(2)):
+        raise InputError(f"--shifts needs J1:J2 with integers J1 < J2 (at most 4 digits); got {text!r} "
+                         f"(e.g. --shifts=-2:3)")
+    return np.arange(int(m.group(1)), int(m.group(2)))
+
+
+def _refuse_long(degrees: np.ndarray, order: int, method: str, genus: int, edge_count: int = 0,
+                 shifts=None) -> None:
     cost = 0.0
+    if shifts is not None:
+        cost += _SECONDS_PER_DEGREE["near_diagonal"] * degrees.size * shifts.size
     if order and genus:
         cost += _SECONDS_PER_DEGREE["gap_zeros"] * degrees.size
     if method == "residual":
@@ -124,8 +145,10 @@ def _refuse_long(degrees: np.ndarray, order: int, method: str, genus: int, edge_
         cost += _SECONDS_PER_DEGREE["edge_zeros"] * degrees.size * 2 * max(1.0, edge_count / 5)
     if cost > _BUDGET_SECONDS:
         edge = f" --edge-zeros {edge_count}" if edge_count else ""
+        edge += "" if shifts is None else f" and {shifts.size} shifts"
         hints = ["split the range"] + (["use --order 0 / --method series"] if order or method != "series" else [])
         hints += ["ask for fewer --edge-zeros"] if edge_count else []
+        hints += ["ask for fewer --shifts"] if shifts is not None else []
         raise InputError(f"--degrees with {degrees.size} degrees at --order {order} --method {method}{edge} would "
                          f"take about {cost / 60:.0f} minutes (limit {_BUDGET_SECONDS / 60:.0f}); "
                          + ", or ".join(hints))
@@ -169,6 +192,10 @@ def run(args) -> int:
     degrees = _degrees(args.degrees)
     order, method = _order(args.order), _method(args.method)
     edge_count = _edge_count(getattr(args, "edge_zeros", "0"))
+    shifts = _shifts(getattr(args, "shifts", None))
+    if shifts is not None and np.any(degrees[0] + shifts < 1):
+        raise InputError(f"--shifts {args.shifts!r} reaches degree {int(degrees[0] + shifts[0])} at N = "
+                         f"{int(degrees[0])}: N + j must be >= 1")
     field, on = field_and_set_from_args(args)
     factors = None
     text = getattr(args, "factor", None)
@@ -177,7 +204,7 @@ def run(args) -> int:
     mu = solve(field, on=on, on_failure="mark")
     # marked, not raised: the table is printed with the failed checks, exit 3
     pr = predictor(mu, factors, on_failure="mark")
-    _refuse_long(degrees, order, method, pr.genus, edge_count)
+    _refuse_long(degrees, order, method, pr.genus, edge_count, shifts)
     pred = corrected_prediction(pr, degrees, order=order, method=method, on_failure="mark")
     verified, message = pred.verified, pred.message
     edges = None
@@ -186,6 +213,16 @@ def run(args) -> int:
         if unverified:
             verified = False
             message = "; ".join([m for m in (message, *unverified) if m])
+    near = None
+    if shifts is not None:
+        from gfunction.near_diagonal import near_diagonal_recurrence
+
+        near = [near_diagonal_recurrence(mu, int(n), shifts, factor=factors, order=order, method=method,
+                                         on_failure="mark") for n in degrees]
+        bad = [f"N = {int(n)}: {r.message}" for n, r in zip(degrees, near) if not r.verified]
+        if bad:
+            verified = False
+            message = "; ".join([m for m in (message, "near-diagonal " + "; ".join(bad)) if m])
     result = {
         "degrees": [int(d) for d in pred.degrees],
         "a": [_number(x) for x in pred.a],
@@ -208,6 +245,14 @@ def run(args) -> int:
         result["error_estimate"] = [_number(x) for x in pred.error_estimate]
     if edges is not None:
         result["edge_zeros"] = edges
+    if near is not None:
+        # a[i][k] = a_{N+j}^{(N)} for N = degrees[i], j = shifts[k]
+        result["near_diagonal"] = {
+            "shifts": [int(j) for j in shifts],
+            "a": [[_number(x) for x in r.a] for r in near],
+            "b": [[_number(x) for x in r.b] for r in near],
+            "error_estimate": None if method != "residual" else [[_number(x) for x in r.error_estimate]
+                                                                  for r in near]}
     if args.json:
         sys.stdout.write(json_text(result))
         sys.stdout.write("\n")
@@ -231,6 +276,15 @@ def run(args) -> int:
                   f"order {order}), from the edge inward:\n")
         for d, row in zip(result["degrees"], part["zeros"]):
             out.write(f"{d:>8}  " + ", ".join("-" if v is None else f"{v:.15g}" for v in row) + "\n")
+    if near is not None:
+        what = f"order {order}" if method == "series" else "residual problem"
+        extra = f" {'error est':>10}" if method == "residual" else ""
+        out.write(f"near-diagonal a_(N+j)^(N), b_(N+j)^(N) ({what})\n")
+        out.write(f"{'N':>8} {'j':>5} {'a':>20} {'b':>20}{extra}\n")
+        for i, r in enumerate(near):
+            for k, j in enumerate(r.shifts):
+                est = f" {r.error_estimate[k]:>10.2e}" if method == "residual" else ""
+                out.write(f"{int(degrees[i]):>8} {int(j):>5} {r.a[k]:>20.15f} {r.b[k]:>20.15f}{est}\n")
     return _status(verified, message)
 
 
