@@ -53,7 +53,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from functools import cached_property
 from types import MappingProxyType
-from typing import Mapping, NamedTuple, Union
+from typing import Mapping, NamedTuple, Sequence, Union
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -178,9 +178,10 @@ def _apply(node: Node, args: list):
 
 
 def _evaluate(node: Node, x):
-    """Walk the tree with numpy (call inside ``np.errstate``)."""
+    """Walk the tree with numpy (call inside ``np.errstate``); ``x`` is the variable's value, or a
+    dict name -> value for an expression in several variables (:meth:`Expression.evaluate`)."""
     if isinstance(node, Variable):
-        return x
+        return x[node.name] if isinstance(x, dict) else x
     return _apply(node, [_evaluate(c, x) for c in _children(node)])
 
 
@@ -434,8 +435,10 @@ class _Parser:
     ``_signed`` so that one level of parentheses costs two Python frames.
     """
 
-    def __init__(self, text: str, variable: str, parameters: Mapping[str, float]):
+    def __init__(self, text: str, variable: str, parameters: Mapping[str, float],
+                 more_variables: tuple[str, ...] = ()):
         self.text, self.variable, self.parameters = text, variable, parameters
+        self.more_variables = frozenset(more_variables)
         self.tokens, self.position, self.depth = _tokenize(text), 0, 0
 
     def parse(self) -> Node:
@@ -584,7 +587,7 @@ class _Parser:
 
     def _name(self, token: _Token) -> _Part:
         name = token.text
-        if name == self.variable:
+        if name == self.variable or name in self.more_variables:
             return _Part(Variable(name), None, 1, token.start, token.end)
         if name in self.parameters:
             value = self.parameters[name]
@@ -606,7 +609,7 @@ class _Parser:
         name, where = token.text, f"at column {token.column}"
         if name in ALLOWED_FUNCTIONS:
             return name
-        if name == self.variable or name in self.parameters or name == "pi":
+        if name == self.variable or name in self.more_variables or name in self.parameters or name == "pi":
             raise ExpressionError(f"'{name}' {where} is not a function; implicit multiplication is not "
                                   f"allowed, write {name}*(...)")
         raise ExpressionError(f"unknown function '{name}' {where}; the allowed functions are "
@@ -626,7 +629,9 @@ class _Parser:
 
     def _allowed_names(self) -> str:
         parameters = ", ".join(sorted(self.parameters))
-        return (f"the variable {self.variable}, " + (f"the parameters {parameters}, " if parameters else "")
+        variables = ", ".join([self.variable] + sorted(self.more_variables))
+        return (f"the variable{'s' if self.more_variables else ''} {variables}, "
+                + (f"the parameters {parameters}, " if parameters else "")
                 + "pi and the functions " + ", ".join(ALLOWED_FUNCTIONS))
 
     # error messages ----------------------------------------------------
@@ -785,6 +790,9 @@ class Expression:
         modulus for ``abs``) but is not an analytic continuation.
     tree : Node
         The syntax tree.
+    more_variables : tuple of str
+        Further variables besides ``variable`` (``parse_expression(..., more_variables=...)``);
+        such an expression is evaluated by :meth:`evaluate` with a value for each name.
     """
 
     text: str
@@ -792,6 +800,35 @@ class Expression:
     parameters: Mapping[str, float] = field(hash=False)
     analytic: bool
     tree: Node = field(repr=False)
+    more_variables: tuple[str, ...] = ()
+
+    def _one_variable(self, what: str) -> None:
+        if self.more_variables:
+            raise ExpressionError(f"{what} needs an expression in one variable; '{self.text[:40]}' has the "
+                                  f"variables {', '.join((self.variable,) + self.more_variables)}: use evaluate")
+
+    def evaluate(self, values: Mapping[str, ArrayLike]) -> np.ndarray:
+        """Evaluate an expression in several variables: ``values`` maps each variable name
+        (``variable`` and ``more_variables``) to an array; the arrays broadcast together.
+
+        Real arithmetic (float64) as in :meth:`__call__`: ``nan`` outside the domain.
+
+        Examples
+        --------
+        >>> e = parse_expression("sqrt(1 + alpha/n) - a_model", {"alpha": 0.7}, "n", more_variables=["a_model"])
+        >>> e.evaluate({"n": [10.0, 100.0], "a_model": 1.0}).round(6).tolist()
+        [0.034408, 0.003494]
+        """
+        names = (self.variable,) + tuple(self.more_variables)
+        missing = [name for name in names if name not in values]
+        if missing:
+            raise ExpressionError(f"no value given for the variable{'s' if len(missing) > 1 else ''} "
+                                  f"{', '.join(missing)} of '{self.text[:40]}'")
+        arrays = np.broadcast_arrays(*(np.asarray(values[name], dtype=float) for name in names))
+        with np.errstate(all="ignore"):
+            value = _evaluate(self.tree, dict(zip(names, arrays)))
+        shape = arrays[0].shape
+        return np.array(np.broadcast_to(np.asarray(value, dtype=float), shape))
 
     def __call__(self, x: ArrayLike) -> np.ndarray:
         """Evaluate elementwise.
@@ -808,6 +845,7 @@ class Expression:
         numpy.ndarray
             float64 (real input) or complex128 (complex input), shape of ``x``.
         """
+        self._one_variable("evaluation at x")
         z = np.asarray(x)
         if z.dtype.kind not in "biufc":
             raise TypeError(f"expression values need numeric input, got dtype {z.dtype}")
@@ -827,6 +865,7 @@ class Expression:
     def _sympy(self):
         from .symbolic import _to_sympy
 
+        self._one_variable("the symbolic form")
         return self._sympy_call(_to_sympy, self.tree, self._symbol, False)
 
     def _sympy_call(self, function, *arguments):
@@ -863,6 +902,7 @@ class Expression:
             raise ExpressionError(f"derivative order must be a non-negative integer, got {order!r}")
         if order == 0:
             return self
+        self._one_variable("a derivative")
         from .symbolic import _from_sympy, _to_sympy, sympy
 
         def differentiate():
@@ -890,6 +930,7 @@ class Expression:
         ExpressionError
             If the degree exceeds ``MAX_POLYNOMIAL_DEGREE`` (512).
         """
+        self._one_variable("polynomial coefficients")
         degree = _facts(self.tree).degree
         if degree is None:
             return None
@@ -958,7 +999,7 @@ def _check_name(name, role: str, variable: str | None = None) -> str:
 
 
 def parse_expression(text: str, parameters: Mapping[str, float] | None = None,
-                     variable: str = "x") -> Expression:
+                     variable: str = "x", *, more_variables: Sequence[str] = ()) -> Expression:
     """Parse whitelisted arithmetic text into an :class:`Expression` (never runs it as code).
 
     Parameters
@@ -969,6 +1010,9 @@ def parse_expression(text: str, parameters: Mapping[str, float] | None = None,
         Values of named parameters (finite reals), e.g. ``{"t": 3.0}``.
     variable : str
         Name of the variable, default ``"x"``.
+    more_variables : sequence of str, optional
+        Further variable names (e.g. the n-dependent names of a formula compared in a run,
+        ``workbench.formulas``); the result is evaluated by :meth:`Expression.evaluate`.
 
     Returns
     -------
@@ -980,6 +1024,7 @@ def parse_expression(text: str, parameters: Mapping[str, float] | None = None,
         With one line naming the problem, the column, and what would work.
     """
     variable = _check_name(variable, "variable")
+    more = tuple(dict.fromkeys(_check_name(name, "variable") for name in more_variables if name != variable))
     if parameters is not None and not isinstance(parameters, Mapping):
         raise ExpressionError(f"parameters must be a mapping NAME -> value, got {type(parameters).__name__}")
     values: dict[str, float] = {}
@@ -998,5 +1043,8 @@ def parse_expression(text: str, parameters: Mapping[str, float] | None = None,
                               "shorten it")
     if not text.strip(" \t"):
         raise ExpressionError("empty expression; give one such as x**2/2")
-    tree = _Parser(text, variable, values).parse()
-    return Expression(text, variable, MappingProxyType(values), _facts(tree).analytic, tree)
+    clash = sorted(set(more) & set(values))
+    if clash:
+        raise ExpressionError(f"{', '.join(clash)} named both as a parameter and as a variable; give each name once")
+    tree = _Parser(text, variable, values, more).parse()
+    return Expression(text, variable, MappingProxyType(values), _facts(tree).analytic, tree, more)

@@ -148,6 +148,18 @@ SCHEMA: dict[str, dict[str, _Key]] = {
         "stop": _Key(_NUMBER, "last grid value"),
         "num": _Key((int,), "number of grid values (>= 1)"),
     },
+    "formulas": {
+        "name": _Key((str,), "identifier of the formula (letters, digits, '_'), shown in tables and figures"),
+        "quantity": _Key((str,), "what it predicts: \"a\", \"b\", \"gap_zero\", \"edge_zero\" or \"log_hankel\""),
+        "expression": _Key((str,), "the formula in the expression grammar, in n and the names of "
+                           "workbench.formulas (a_model, Omega_1, ell, ...)"),
+        "parameters": _Key((dict,), "inline table of the formula's own constants, e.g. { alpha = 0.7 }"),
+        "gap": _Key((int,), "gap_zero: the gap j (from 1, left to right)"),
+        "edge": _Key((str,), "edge_zero: \"right\" (largest zeros) or \"left\""),
+        "zero": _Key((int,), "edge_zero: which zero, counted inward from the edge (from 1)"),
+        "expected_slope": _Key(_NUMBER, "claimed rate: the error is O(n^expected_slope); the formula is "
+                               "rejected when the fitted slope exceeds it by more than 0.5"),
+    },
     "reduced": {
         "polynomials": _Key((dict,), "overrides of [polynomials] for tests"),
         "comparisons": _Key((dict,), "overrides of [comparisons] for tests"),
@@ -156,7 +168,7 @@ SCHEMA: dict[str, dict[str, _Key]] = {
 }
 
 _TOP_LEVEL = ("case", "field", "set", "factor", "model", "polynomials", "comparisons", "figures",
-              "output", "sweep", "reduced")
+              "output", "sweep", "formulas", "reduced")
 
 
 # --------------------------------------------------------------------------- specs
@@ -337,6 +349,7 @@ class Case:
     text: str
     reduced: bool = False
     model: ModelSpec = ModelSpec()
+    formulas: tuple = ()    # workbench.formulas.FormulaSpec, one per [[formulas]] table
 
     @property
     def digest(self) -> str:
@@ -453,7 +466,7 @@ class _Validator:
     def check_table(self, data: Mapping[str, Any], table: str, schema_name: str | None = None,
                     index: int = 0) -> dict[str, Any]:
         schema = SCHEMA[schema_name or table]
-        label = f"[{table}]" if not table.startswith("sweep.axis") else f"[[{table}]]"
+        label = f"[[{table}]]" if table.startswith(("sweep.axis", "formulas")) else f"[{table}]"
         for key, value in data.items():
             if key not in schema:
                 raise self.fail(f"unknown key '{key}' in {label}; known keys: {', '.join(schema)}",
@@ -577,7 +590,7 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
                 raise check.fail(f"unknown table [{key}]; known tables: {', '.join(_TOP_LEVEL)}", key)
             raise _top_key_error(check, key)
 
-    tables = {name: check.require_table(data, name) for name in _TOP_LEVEL if name != "sweep"}
+    tables = {name: check.require_table(data, name) for name in _TOP_LEVEL if name not in ("sweep", "formulas")}
     for name in ("case", "field", "set", "factor", "model", "polynomials", "comparisons", "figures", "output"):
         check.check_table(tables[name], name)
     check.check_table(tables["reduced"], "reduced")
@@ -622,6 +635,8 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
     output = _output(check, tables["output"])
     model = _model(check, tables["model"])
 
+    formulas = _formulas(check, data.get("formulas", []), field_spec, model, comparisons)
+
     sweep = None
     if "sweep" in data:
         if not isinstance(data["sweep"], dict):
@@ -644,6 +659,7 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
         text=text,
         reduced=reduced,
         model=model,
+        formulas=formulas,
     )
 
 
@@ -714,6 +730,49 @@ def _check_expression(check: _Validator, spec: FieldSpec, factor_text: Any = Non
         raise check.fail(f"[field] parameters {', '.join(unused)} not used by the expression "
                          f"(it uses {', '.join(sorted(used)) or 'no parameter'}); remove or rename them",
                          "field", "parameters")
+
+
+def _formulas(check: _Validator, raw: Any, field_spec: FieldSpec, model: ModelSpec,
+              comparisons: ComparisonSpec) -> tuple:
+    """[[formulas]]: each table checked now (names, quantity, grammar), so a bad formula stops
+    the run before anything is computed (workbench.formulas.check_formula)."""
+    from workbench.formulas import FormulaSpec, check_formula
+
+    if not isinstance(raw, list) or not all(isinstance(t, dict) for t in raw):
+        raise check.fail("formulas must be written as [[formulas]] tables", "formulas")
+    specs, seen = [], set()
+    for index, table in enumerate(raw):
+        check.check_table(table, "formulas", index=index)
+        label = f"[[formulas]] number {index + 1}" + (f" '{table['name']}'" if "name" in table else "")
+        for key in ("name", "quantity", "expression"):
+            if key not in table:
+                raise check.fail(f"{label} lacks key '{key}'", "formulas", None, index)
+        parameters = table.get("parameters", {})
+        for pname, value in parameters.items():
+            if not _is_instance(value, _NUMBER):
+                raise check.fail(f"{label}: parameter '{pname}' must be a number, got {_type_name(value)}",
+                                 "formulas", "parameters", index)
+        slope = table.get("expected_slope")
+        spec = FormulaSpec(name=table["name"], quantity=table["quantity"], expression=table["expression"],
+                           parameters={k: float(v) for k, v in parameters.items()}, gap=table.get("gap", 1),
+                           edge=table.get("edge", "right"), zero=table.get("zero", 1),
+                           expected_slope=None if slope is None else float(slope))
+        for key, allowed in (("gap", "gap_zero"), ("edge", "edge_zero"), ("zero", "edge_zero")):
+            if key in table and spec.quantity != allowed:
+                raise check.fail(f"{label}: key '{key}' belongs to quantity = \"{allowed}\"", "formulas", key, index)
+        try:
+            check_formula(spec, field_spec.parameters, order=model.order, method=model.method,
+                          log_hankel=comparisons.log_hankel)
+        except InputError as exc:
+            key = "quantity" if "quantity" in str(exc)[:9] else ("name" if str(exc).startswith("name") else
+                                                                 "expression")
+            raise check.fail(f"{label}: {exc}", "formulas", key, index) from None
+        if spec.name in seen:
+            raise check.fail(f"{label}: the name '{spec.name}' is taken by another formula", "formulas", "name",
+                             index)
+        seen.add(spec.name)
+        specs.append(spec)
+    return tuple(specs)
 
 
 def _set(check: _Validator, table: dict[str, Any]) -> SetSpec:

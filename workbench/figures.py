@@ -343,12 +343,19 @@ def draw_errors(tree: Group):
     variants = [(suffix, label) for suffix, label in ORDER_VARIANTS[1:]
                 if any(comp.has(f"err_{q}{suffix}") for q, _, _ in ORDER_PANELS)]
     panels = [p for p in ORDER_PANELS if any(comp.has(f"err_{p[0]}{suffix}") for suffix, _ in variants)]
-    if variants:
+    formulas = comp.groups.get("formulas")
+    formulas = formulas if formulas is not None and formulas.groups else None
+    if variants or formulas is not None:
         from matplotlib.figure import Figure
 
-        rows = (len(panels) + 1) // 2
-        fig = Figure(figsize=(3.4, 3.4 + 2.8 * rows), layout="constrained")
-        top, bottom = fig.subfigures(2, 1, height_ratios=[1.2, 1.0 * rows])
+        order_rows = (len(panels) + 1) // 2 if variants else 0
+        heights = [1.2] + ([1.0 * order_rows] if variants else []) + ([1.0] if formulas is not None else [])
+        fig = Figure(figsize=(3.4, 3.4 + 2.8 * order_rows + (2.9 if formulas is not None else 0.0)),
+                     layout="constrained")
+        rows = list(fig.subfigures(len(heights), 1, height_ratios=heights))
+        top = rows.pop(0)
+        bottom = rows.pop(0) if variants else None
+        below = rows.pop(0) if formulas is not None else None
         ax = top.subplots()
     else:
         fig, axes = new_figure(height=3.2)
@@ -370,12 +377,7 @@ def draw_errors(tree: Group):
             drawn_n.append(got[2])
     if not handles:
         return None
-    ax.set_xscale("log")
-    ax.set_yscale("log")
-    used = np.concatenate(drawn_n)
-    set_log_axis(ax.xaxis, float(used.min()), float(used.max()))
-    ax.set_xlabel("$n$")
-    ax.set_ylabel("|direct $-$ model|")
+    _log_log_errors(ax, drawn_n, "|direct $-$ model|")
     ax.set_title("errors and fitted slopes" + (", leading order" if variants else " against $n$"))
     _legend_below(top, handles, labels, entries_per_row=2 if len(labels) <= 8 else 3, fontsize=6.5,
                   columnspacing=1.0, handletextpad=0.3)
@@ -398,7 +400,60 @@ def draw_errors(tree: Group):
             thin_tick_labels(fig, axq.xaxis)
         for axq in grid[:, 0]:
             axq.set_ylabel("|direct $-$ model|")
+    if formulas is not None:
+        _formula_panel(fig, below, n, formulas)
     return fig
+
+
+def _log_log_errors(ax, drawn_n, ylabel: str) -> None:
+    """Log-log axes of errors against n, the n axis with plain ticks over the n drawn."""
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    used = np.concatenate(drawn_n)
+    set_log_axis(ax.xaxis, float(used.min()), float(used.max()))
+    ax.set_xlabel("$n$")
+    ax.set_ylabel(ylabel)
+
+
+def _formula_panel(fig, sub, n, formulas: Group) -> None:
+    """The case's own formulas: |direct - formula| against n with the fitted slope, one series each;
+    a formula that agrees to rounding is drawn at its errors' level and marked so."""
+    from workbench.results import text_list
+
+    ax = sub.subplots()
+    handles, labels, drawn = [], [], []
+    names = text_list(formulas.attrs.get("names")) or sorted(formulas.groups)
+    for k, name in enumerate(names):
+        entry = formulas.groups[name]
+        err = np.asarray(entry.get("error"), dtype=float)
+        ok = np.isfinite(err) & (err > 0)
+        if not ok.any():
+            continue
+        colour, marker = SERIES[k % len(SERIES)], MARKERS[k % len(MARKERS)]
+        text = f"{name} ({entry.attrs.get('quantity')})"
+        s, se, c = (entry.attrs.get(key, np.nan) for key in ("slope", "stderr", "intercept"))
+        verdict = entry.attrs.get("verdict", "")
+        if verdict == "agrees to rounding":
+            text += ": rounding"
+        elif np.isfinite(s):
+            grid = np.geomspace(n[ok].min(), n[ok].max(), 20)
+            ax.plot(grid, np.exp(c) * grid ** s, color=colour, lw=0.7, ls=DASHES[1])
+            text += f": ${s:.2f} \\pm {se:.2f}$" if np.isfinite(se) else f": ${s:.2f}$"
+            if verdict == "rejected":
+                text += f", rejected (claim {entry.attrs.get('expected_slope'):g})"
+        (points,) = ax.plot(n[ok], err[ok], ls="none", marker=marker, color=colour, mfc="none")
+        handles.append(points)
+        labels.append(text)
+        drawn.append(n[ok])
+    if not handles:
+        ax.set_axis_off()
+        ax.text(0.5, 0.5, "formulas: no error above zero", ha="center", va="center", transform=ax.transAxes)
+        return
+    _log_log_errors(ax, drawn, "|direct $-$ formula|")
+    ax.set_title("the case's formulas", fontsize=8)
+    _legend_below(sub, handles, labels, entries_per_row=1 if max(len(t) for t in labels) > 28 else 2,
+                  fontsize=6.5, columnspacing=1.0, handletextpad=0.3)
+    thin_tick_labels(fig, ax.xaxis)
 
 
 def draw_gap_zeros(tree: Group):

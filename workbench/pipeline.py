@@ -456,6 +456,19 @@ def _zero_errors(node: Group, zeros_direct, model: Group, support, gap_direct) -
 
 
 # ------------------------------------------------------------------------- runs
+def check_formulas(case: Case, mu) -> None:
+    """Refuse, before anything is written, formulas naming bands or gaps the support lacks
+    (workbench.formulas)."""
+    from workbench.formulas import check_run_names
+
+    bands = len(mu.support)
+    for spec in case.formulas:
+        try:
+            check_run_names(spec, bands)
+        except InputError as exc:
+            raise InputError(f"{case.source} [[formulas]] '{spec.name}': {exc}") from None
+
+
 @dataclass(frozen=True)
 class RunOutcome:
     """What :func:`run_case` produced."""
@@ -506,6 +519,7 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
     field_, on, mu, set_aside = solve_case(case)
     timings["equilibrium"] = time.perf_counter() - t
     check_model_request(case, mu)
+    check_formulas(case, mu)
     # notes: what the run did differently from what was asked, or left out, and why; shown on
     # screen and kept in the file (they do not make the run unverified, failures do)
     notes: list[str] = []
@@ -589,6 +603,11 @@ def run_case(case: Case, out: str | Path | None = None, *, progress: bool = True
     tree.groups["comparison"] = comparison_group(tree, ns, case)
     skipped, failed = comparison_notes(tree, case)
     notes.extend(skipped)
+    if case.formulas:
+        from workbench.formulas import formulas_group
+
+        tree.groups["comparison"].groups["formulas"], formula_notes = formulas_group(tree, case.formulas)
+        notes.extend(formula_notes)
     messages.extend(failed)
     timings["comparison"] = time.perf_counter() - t
     timings["total"] = time.perf_counter() - start

@@ -76,6 +76,7 @@ __all__ = [
     "git_commit",
     "library_versions",
     "remove_stale_temporaries",
+    "text_list",
 ]
 
 FORMAT = "workbench-run"
@@ -460,3 +461,17 @@ def provenance(case_text: str, case_source: str, parameters: Mapping[str, Any],
     if commit is not None:
         attrs["git_commit"] = commit
     return attrs
+
+
+def text_list(value) -> list[str]:
+    """A list of texts stored as an attribute (a list, its JSON, one text, or "none")."""
+    if value is None or (isinstance(value, str) and value in ("", "none")):
+        return []
+    if isinstance(value, str):
+        if value.startswith("["):
+            try:
+                return [str(v) for v in json.loads(value)]
+            except ValueError:
+                pass
+        return [value]
+    return [str(v) for v in value]

@@ -55,6 +55,16 @@ def test_shipped_case_runs_at_reduced_size(path, tmp_path):
             assert np.all((x[:-1] < y) & (y < x[1:]))
         assert f["model"].attrs["available"]
         assert np.all(np.isfinite(f["comparison/a_model"][()]))
+        # the case's own formulas: |direct - formula| at every n; a gap formula that is the
+        # model's own prediction reproduces the run's gap comparison
+        for spec in case.formulas:
+            entry = f[f"comparison/formulas/{spec.name}"]
+            error, direct, value = (entry[k][()] for k in ("error", "direct", "value"))
+            assert np.array_equal(error, np.abs(direct - value), equal_nan=True)
+            if spec.expression == f"gap_zero_model_{spec.gap}":
+                both = np.isfinite(error)
+                assert np.array_equal(direct[both], f["comparison/gap_zeros_direct"][()][both, spec.gap - 1])
+                assert np.all(error[both] <= f["comparison/err_zeros_gap"][()][both])
 
 
 @pytest.mark.parametrize("path", SWEEP_CASES, ids=[p.stem for p in SWEEP_CASES])

@@ -12,6 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from equilibrium.errors import InputError
+from workbench.results import text_list
 
 
 def register(subparsers) -> None:
@@ -21,6 +22,8 @@ def register(subparsers) -> None:
                     "direct against predicted quantities at every n, and the fitted rates.")
     parser.add_argument("file", metavar="FILE.h5",
                         help="file written by 'workbench run', 'sweep' or 'equilibrium/recurrence/zeros --out'")
+    parser.add_argument("--json", action="store_true",
+                        help="print one JSON object: the summary, the fitted rates and the formulas")
     parser.set_defaults(handler=run)
 
 
@@ -32,6 +35,10 @@ def run(args: argparse.Namespace) -> int:
         raise InputError(f"{path} not found; give a file written by 'workbench run' or 'sweep'")
     tree = read_run(path)
     with malformed_file(path):
+        if args.json:
+            # json.dumps escapes control characters itself (ensure_ascii)
+            print(json.dumps(summary_json(tree, str(path)), allow_nan=False))
+            return 0
         lines = summary_lines(tree, str(path))
     print("\n".join(printable(line) for line in lines))
     return 0
@@ -59,6 +66,84 @@ def printable(text: str) -> str:
     return _CONTROL.sub(lambda m: f"\\x{ord(m.group()):02x}", text)
 
 
+def _number(value):
+    """A JSON number, or null for NaN and infinities (JSON has none)."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return value
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
+    if isinstance(value, (int, np.integer)):
+        return int(value)
+    return v if math.isfinite(v) else None
+
+
+def _numbers(values) -> list:
+    return [_number(v) for v in np.asarray(values).ravel().tolist()]
+
+
+def formula_entries(tree) -> dict:
+    """``{name: {"n", "error", "slope", ...}}`` of the file's ``/comparison/formulas`` (empty when none)."""
+    comp = tree.groups.get("comparison")
+    node = comp.groups.get("formulas") if comp is not None else None
+    if node is None:
+        return {}
+    n = _numbers(comp.get("n"))
+    order = text_list(node.attrs.get("names")) or sorted(node.groups)
+    out = {}
+    for name in order:
+        entry = node.groups[name]
+        out[name] = {"n": n, "error": _numbers(entry.get("error")), "slope": _number(entry.attrs.get("slope")),
+                     "stderr": _number(entry.attrs.get("stderr")), "quantity": entry.attrs.get("quantity"),
+                     "target": entry.attrs.get("target"), "expression": entry.attrs.get("expression"),
+                     "value": _numbers(entry.get("value")), "direct": _numbers(entry.get("direct")),
+                     "verdict": entry.attrs.get("verdict"), "floor": _number(entry.attrs.get("floor")),
+                     "expected_slope": _number(entry.attrs.get("expected_slope"))}
+    return out
+
+
+def summary_json(tree, name: str = "") -> dict:
+    """The summary of a run (or sweep) file as one JSON-ready object.
+
+    Keys: ``file``, ``format``, ``case``, ``parameters``, ``verified``, ``notes``, ``messages``,
+    ``equilibrium`` (support, masses, omega, ell, energy, verified), ``comparison`` (every
+    one-dimensional dataset of /comparison against ``n``), ``rates`` ({quantity: slope,
+    stderr, intercept, points, note}) and ``formulas`` ({name: n, error, slope, ...}).
+    NaN is written as null.
+    """
+    attrs = tree.attrs
+    out = {"file": name, "format": attrs.get("format"), "command": attrs.get("command"),
+           "case": attrs.get("case_name"),
+           "title": attrs.get("case_title"), "workbench_version": attrs.get("workbench_version"),
+           "created_utc": attrs.get("created_utc"),
+           "parameters": json.loads(attrs.get("parameters", "{}") or "{}"),
+           "verified": _number(attrs.get("verified")), "notes": text_list(attrs.get("notes")),
+           "messages": text_list(attrs.get("messages"))}
+    eq = tree.groups.get("equilibrium")
+    if eq is not None:
+        out["equilibrium"] = {"kind": eq.attrs.get("kind"),
+                              "support": np.asarray(eq.get("support"), dtype=float).reshape(-1, 2).tolist(),
+                              "masses": _numbers(eq.get("masses")), "omega": _numbers(eq.get("omega")),
+                              "ell": _number(eq.attrs.get("lagrange")), "energy": _number(eq.attrs.get("energy")),
+                              "verified": _number(eq.attrs.get("verified"))}
+    comp = tree.groups.get("comparison")
+    out["comparison"], out["rates"] = {}, {}
+    if comp is not None and comp.has("n"):
+        size = np.asarray(comp.get("n")).size
+        out["comparison"] = {key: _numbers(item.data) for key, item in comp.datasets.items()
+                             if np.asarray(item.data).ndim == 1 and np.asarray(item.data).size == size
+                             and np.asarray(item.data).dtype.kind in "biuf"}
+        rates = comp.groups.get("rates")
+        for key, fit in (rates.groups.items() if rates is not None else ()):
+            out["rates"][key] = {k: _number(fit.attrs[k]) for k in
+                                 ("slope", "stderr", "intercept", "points", "max_n_times_error") if k in fit.attrs}
+            if "note" in fit.attrs:
+                out["rates"][key]["note"] = fit.attrs["note"]
+    out["formulas"] = formula_entries(tree)
+    return out
+
+
 def _fmt(value, width: int = 11) -> str:
     try:
         v = float(value)
@@ -69,20 +154,6 @@ def _fmt(value, width: int = 11) -> str:
     if v != 0 and (abs(v) < 1e-3 or abs(v) >= 1e5):
         return f"{v:>{width}.3e}"
     return f"{v:>{width}.6f}"
-
-
-def text_list(value) -> list[str]:
-    """A list of texts stored as an attribute (a list, its JSON, one text, or "none")."""
-    if value is None or (isinstance(value, str) and value in ("", "none")):
-        return []
-    if isinstance(value, str):
-        if value.startswith("["):
-            try:
-                return [str(v) for v in json.loads(value)]
-            except ValueError:
-                pass
-        return [value]
-    return [str(v) for v in value]
 
 
 def summary_lines(tree, name: str = "") -> list[str]:
@@ -142,6 +213,7 @@ def summary_lines(tree, name: str = "") -> list[str]:
                 bound_text = f"  max n*err {_fmt(bound, 8)}" if bound is not None else ""
                 lines.append(f"    {key:<{width}} slope {_fmt(s, 8)} +- {_fmt(se, 8)}  "
                              f"({fit.attrs.get('points')} points){bound_text}{note}")
+        lines += _formula_lines(comp)
     for note in text_list(attrs.get("notes")):
         lines.append(f"  note: {note}")
     for message in text_list(attrs.get("messages")):
@@ -173,6 +245,25 @@ def _command_lines(tree) -> list[str]:
         lines.append(f"  zeros of p_{zeros.attrs.get('degree', x.size)}: {x.size} in [{x[0]:.15g}, {x[-1]:.15g}]")
         lines.append(f"    recurrence error estimate {_fmt(zeros.attrs.get('error_estimate'), 1).strip()}"
                      f"  verified = {zeros.attrs.get('verified')}")
+    return lines
+
+
+def _formula_lines(comp) -> list[str]:
+    """The case's own formulas: |direct - formula| at each n, then each verdict with its rate."""
+    node = comp.groups.get("formulas")
+    if node is None or not node.groups:
+        return []
+    names = text_list(node.attrs.get("names")) or sorted(node.groups)
+    width = max(11, *(len(name) + 1 for name in names))
+    lines = ["  formulas, |direct - formula|:", "  " + f"{'n':>11}" + "".join(f"{name:>{width}}" for name in names)]
+    errors = [np.asarray(node.groups[name].get("error")) for name in names]
+    for i, n in enumerate(np.asarray(comp.get("n"))):
+        lines.append("  " + f"{int(n):>11d}" + "".join(_fmt(e[i], width) for e in errors))
+    column = max(len(name) for name in names)
+    for name in names:
+        entry = node.groups[name]
+        lines.append(f"    {name:<{column}} {entry.attrs.get('target')} = {entry.attrs.get('expression')}: "
+                     f"{entry.attrs.get('summary')}")
     return lines
 
 
