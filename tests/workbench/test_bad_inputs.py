@@ -118,6 +118,9 @@ BAD = [
      "combined factors"),
     ("factor_sign_change", REC + ["--potential", "x^2", "--factor", "(1-x)^0.5"], "changes sign"),
     ("factor_negative", REC + ["--potential", "x^2", "--factor=-1"], "not positive"),
+    # an empty --factor= is a mistake, as an empty --on= is, in every command that takes a factor
+    ("factor_empty_recurrence", REC + ["--potential", "x^2", "--factor="], "empty factor"),
+    ("factor_empty_predict", PRE + ["--potential", "x^2", "--factor="], "empty factor"),
     ("factor_x_exponent", REC + ["--potential", "x^2", "--factor", "(1-x)^x"], "finite constant"),
     ("predict_factor", PRE + ["--potential", "x^2", "--on=-1:1", "--factor", "(1-x)^-1"],
      "exponents must exceed -1"),

@@ -130,6 +130,14 @@ def test_figures_after_round_trip(tmp_path):
     assert set(again) == {"density", "coefficients", "errors", "edge_zeros"}
 
 
+def test_every_figure_a_case_can_ask_for_is_drawn():
+    """[figures] which accepts the names of workbench.case.FIGURE_NAMES (the case reader does not
+    import matplotlib); each must be in the FIGURES registry, which adds only the sweep's phase diagram."""
+    from workbench.case import FIGURE_NAMES
+
+    assert set(FIGURE_NAMES) <= set(FIGURES) and set(FIGURES) - set(FIGURE_NAMES) == {"phase"}
+
+
 def test_missing_data_gives_no_figure():
     from workbench.results import Group
 

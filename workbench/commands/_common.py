@@ -92,6 +92,20 @@ def field_and_set_from_args(args: argparse.Namespace) -> tuple[Field, IntervalSe
     return Field.from_expression(text, parameters=parameters), on
 
 
+def factors_from_args(args: argparse.Namespace, on: IntervalSet) -> tuple:
+    """The factor objects of ``--factor`` on ``on`` (``()`` when the option is not given).
+
+    The text goes through the one factor grammar (:func:`equilibrium.weight.parse_factor`);
+    an empty ``--factor=`` is refused like an empty ``--on=``, not read as h = 1.
+    """
+    text = args.factor
+    if text is None:
+        return ()
+    from equilibrium.weight import parse_factor
+
+    return parse_factor(text, parse_parameters(args.param), on)
+
+
 def check_parameters_used(parameters: dict[str, float], texts: dict[str, str | None]) -> None:
     """Refuse a --param that no expression uses (a misspelt name would otherwise be ignored).
 

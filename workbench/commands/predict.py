@@ -34,7 +34,7 @@ from equilibrium.errors import InputError
 
 from workbench.jsontext import json_text
 
-from ._common import add_field_options, field_and_set_from_args, parse_parameters
+from ._common import add_field_options, factors_from_args, field_and_set_from_args
 
 
 _ASCII_INTEGER = re.compile(r"[+-]?[0-9]+")
@@ -187,8 +187,6 @@ def run(args) -> int:
     from gfunction import predictor
     from gfunction.corrected import corrected_prediction
 
-    from equilibrium.weight import parse_factor
-
     degrees = _degrees(args.degrees)
     order, method = _order(args.order), _method(args.method)
     edge_count = _edge_count(getattr(args, "edge_zeros", "0"))
@@ -197,10 +195,7 @@ def run(args) -> int:
         raise InputError(f"--shifts {args.shifts!r} reaches degree {int(degrees[0] + shifts[0])} at N = "
                          f"{int(degrees[0])}: N + j must be >= 1")
     field, on = field_and_set_from_args(args)
-    factors = None
-    text = getattr(args, "factor", None)
-    if text not in (None, "", "1"):
-        factors = parse_factor(text, parse_parameters(args.param), on)
+    factors = factors_from_args(args, on)
     mu = solve(field, on=on, on_failure="mark")
     # marked, not raised: the table is printed with the failed checks, exit 3
     pr = predictor(mu, factors, on_failure="mark")

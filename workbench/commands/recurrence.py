@@ -10,7 +10,7 @@ import numpy as np
 
 from workbench.jsontext import json_text
 
-from ._common import add_field_options, check_output, field_and_set_from_args, parse_parameters, positive_integer
+from ._common import add_field_options, check_output, factors_from_args, field_and_set_from_args, positive_integer
 
 
 def register(subparsers) -> None:
@@ -31,14 +31,11 @@ def register(subparsers) -> None:
 
 def build_weight(args):
     """The weight of the command line (shared with ``workbench zeros``)."""
-    from equilibrium.weight import Weight, parse_factor
+    from equilibrium.weight import Weight
 
     field, on = field_and_set_from_args(args)
     n = positive_integer(args.n, "--n")
-    factors = ()
-    if getattr(args, "factor", None):
-        factors = parse_factor(args.factor, parse_parameters(args.param), on=on)
-    return Weight(field, n, on, factors), field, on, n
+    return Weight(field, n, on, factors_from_args(args, on)), field, on, n
 
 
 def _tolerance(text: str) -> float:
