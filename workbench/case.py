@@ -32,7 +32,7 @@ import math
 import re
 import tomllib
 from dataclasses import dataclass, field
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 from typing import Any, Mapping
 
 from equilibrium.errors import InputError
@@ -950,7 +950,18 @@ def _output(check: _Validator, table: dict[str, Any]) -> OutputSpec:
     if "/" in name or "\x00" in name or len(name.encode()) > 200 or not name.endswith(".h5"):
         raise check.fail(f"[output] file {name[:60]!r} must be a plain file name (at most 200 bytes) ending in .h5",
                          "output", "file")
-    return OutputSpec(directory=table.get("directory"), file=name)
+    directory = table.get("directory")
+    if directory is not None:
+        # a case file is data from anywhere: it may name a folder under the working folder and no
+        # other (an absolute path or a climb with .. would let a shared case write over files
+        # elsewhere); --out on the command line is the user's own choice and may go anywhere
+        parts = PurePosixPath(directory).parts
+        if (not directory.strip() or "\x00" in directory or "\\" in directory or directory.startswith(("/", "~"))
+                or ".." in parts or len(directory.encode()) > 1000):
+            raise check.fail(f"[output] directory {directory[:60]!r} must be a relative folder inside the working "
+                             "folder (no leading / or ~, no ..); give --out to write elsewhere",
+                             "output", "directory")
+    return OutputSpec(directory=directory, file=name)
 
 
 def _sweep(check: _Validator, table: dict[str, Any], override: dict[str, Any],

@@ -79,6 +79,8 @@ def _one_line(exc: BaseException) -> str:
 
 #: exit status when standard output is closed by its reader (128 + SIGPIPE, as the shell reports)
 EXIT_BROKEN_PIPE = 141
+#: exit status after SIGTERM (128 + SIGTERM, as the shell reports)
+EXIT_TERMINATED = 143
 
 
 def _silence_stdout() -> None:
@@ -137,8 +139,37 @@ def _single_threaded_blas() -> contextlib.AbstractContextManager:
     return threadpool_limits(limits=1, user_api="blas")
 
 
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, raised where the process is, so it unwinds as Ctrl-C does.
+
+    A KeyboardInterrupt subclass on purpose: every clean-up written for Ctrl-C
+    (temporaries removed, the worker pool of a sweep shut down and its workers
+    ended) runs for SIGTERM too, and no worker is left orphaned.
+    """
+
+
+def _raise_terminated(signum, frame):  # pragma: no cover - exercised through a subprocess
+    raise Terminated()
+
+
+@contextlib.contextmanager
+def _sigterm_as_interrupt():
+    """Handle SIGTERM like SIGINT for the duration of one command (main thread only)."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    previous = signal.signal(signal.SIGTERM, _raise_terminated)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
-    with _single_threaded_blas():
+    with _single_threaded_blas(), _sigterm_as_interrupt():
         try:
             return _main(argv)
         except BrokenPipeError:
@@ -180,6 +211,9 @@ def _main(argv: Sequence[str] | None) -> int:
         print(f"workbench {args.command}: numerical failure: linear algebra failed "
               f"({_one_line(exc)}); the system is singular or too ill-conditioned", file=sys.stderr)
         return 3
+    except Terminated:
+        print(f"workbench {args.command}: terminated (SIGTERM)", file=sys.stderr)
+        return EXIT_TERMINATED
     except KeyboardInterrupt:
         print(f"workbench {args.command}: interrupted", file=sys.stderr)
         return 130

@@ -724,9 +724,8 @@ def save_figure(fig, stem: Path, formats: Iterable[str], dpi: int = 300) -> list
     import logging
 
     import os
-    import tempfile
 
-    from workbench.hdf5 import make_output_directory, new_file_mode
+    from workbench.hdf5 import make_output_directory, new_file_mode, temporary_beside
 
     paths = []
     make_output_directory(stem.parent)
@@ -737,8 +736,8 @@ def save_figure(fig, stem: Path, formats: Iterable[str], dpi: int = 300) -> list
     try:
         for fmt in formats:
             target = stem.with_suffix("." + fmt)
-            # a temporary name of its own (mkstemp): two runs drawing into one folder never share it
-            fd, tmp = tempfile.mkstemp(prefix=target.name + ".", suffix=".tmp", dir=target.parent)
+            # a temporary name of its own (owned, with the pid): two runs drawing into one folder never share it
+            fd, tmp = temporary_beside(target)
             os.fchmod(fd, new_file_mode())  # the permissions a plain open() would give
             try:
                 with os.fdopen(fd, "wb") as stream:

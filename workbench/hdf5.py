@@ -28,8 +28,11 @@ from typing import Any, Iterator, Mapping
 import h5py
 import numpy as np
 
-#: ending of the temporary files of :func:`atomic_file` (``NAME.XXXXXXXX.tmp`` beside NAME)
+#: ending of the temporary files of :func:`atomic_file` and of the figures
 TEMPORARY_SUFFIX = ".tmp"
+#: the mark of a temporary the workbench owns: ``NAME.workbench-PID-XXXXXXXX.tmp`` beside NAME;
+#: start-up clears only such names, and only those of a process that is no longer alive
+TEMPORARY_MARK = ".workbench-"
 
 #: longest file-name component most file systems accept (bytes, POSIX NAME_MAX)
 NAME_MAX = 255
@@ -144,6 +147,37 @@ def set_attributes(node: h5py.HLObject, attributes: Mapping[str, Any]) -> None:
         node.attrs[key] = to_attribute(value)
 
 
+def temporary_beside(target: Path) -> tuple[int, str]:
+    """Create the owned temporary ``NAME.workbench-PID-XXXXXXXX.tmp`` beside ``target``.
+
+    Returns the open descriptor and the name (:func:`tempfile.mkstemp`); the
+    process id in the name lets :func:`owned_stale_temporary` tell a leftover of a
+    killed process from the temporary of a run still writing into the same folder.
+    """
+    return tempfile.mkstemp(prefix=f"{target.name[:200]}{TEMPORARY_MARK}{os.getpid()}-",
+                            suffix=TEMPORARY_SUFFIX, dir=target.parent)
+
+
+def owned_stale_temporary(path: Path) -> bool:
+    """True for a temporary of :func:`temporary_beside` whose process is gone."""
+    name = path.name
+    if not name.endswith(TEMPORARY_SUFFIX) or TEMPORARY_MARK not in name:
+        return False
+    pid_text = name.rsplit(TEMPORARY_MARK, 1)[1].split("-", 1)[0]
+    if not (pid_text.isascii() and pid_text.isdigit()):
+        return False
+    pid = int(pid_text)
+    if pid == os.getpid():
+        return False
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return True
+    except (PermissionError, OverflowError, ValueError):
+        return False      # alive under another user, or not a process id at all: not ours to judge
+    return False          # alive: a run still writing
+
+
 def new_file_mode() -> int:
     """``0o666 & ~umask``: the mode ``open(path, "w")`` would give a new file (POSIX)."""
     mask = os.umask(0)      # reading the umask means setting it; put it back at once
@@ -179,8 +213,7 @@ def atomic_file(path: str | os.PathLike[str]) -> Iterator[h5py.File]:
         if handle.id.valid:
             handle.close()
     try:
-        fd, tmp_name = tempfile.mkstemp(prefix=target.name[:200] + ".", suffix=TEMPORARY_SUFFIX,
-                                        dir=target.parent)
+        fd, tmp_name = temporary_beside(target)
     except OSError as exc:
         raise InputError(f"cannot write in {target.parent}: {exc.strerror or exc}; "
                          "choose another path") from None

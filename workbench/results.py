@@ -394,23 +394,33 @@ def load_partials(directory: str | os.PathLike[str], digest: str,
 
 
 def remove_stale_temporaries(directory: str | os.PathLike[str]) -> list[Path]:
-    """Remove temporary files left by a process killed with SIGKILL (``*.h5.*.tmp``).
+    """Remove the temporaries a killed process of the workbench left in ``directory``.
 
-    :func:`workbench.hdf5.atomic_file` removes its temporary file on every
-    exception, but nothing runs after SIGKILL; such leftovers never carry a
-    final name, so they cannot be mistaken for results, and the next run
-    clears them.
+    :func:`workbench.hdf5.atomic_file` and the figure writer remove their
+    temporary on every exception, but nothing runs after SIGKILL.  Only names
+    the workbench owns are touched (``NAME.workbench-PID-XXXXXXXX.tmp``, see
+    :func:`workbench.hdf5.temporary_beside`), and only when process PID is no
+    longer alive: a user's own ``*.tmp`` files and the temporaries of a run still
+    writing into the same folder are left alone.  Such leftovers never carry a
+    final name, so they cannot be mistaken for results.
     """
+    from workbench.hdf5 import owned_stale_temporary
+
     removed = []
     root = Path(directory)
-    if not root.exists():
+    if not root.is_dir():
         return removed
-    for path in list(root.glob("*.h5.*.tmp")) + list(root.glob("*/*.h5.*.tmp")):
-        try:
-            path.unlink()
-            removed.append(path)
-        except OSError:
-            pass
+    for folder in (root, root / "partial", root / "figures"):
+        if not folder.is_dir():
+            continue
+        for path in sorted(folder.glob("*.tmp")):
+            if not owned_stale_temporary(path):
+                continue
+            try:
+                path.unlink()
+                removed.append(path)
+            except OSError:
+                pass
     return removed
 
 

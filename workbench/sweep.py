@@ -364,7 +364,15 @@ def _pool_round(context, workers, chunks, function, record):
             for point_id, result in finished:
                 record(point_id, result)
     except BaseException:
+        # Ctrl-C or SIGTERM (workbench.cli.Terminated): the workers ignore SIGINT and would finish
+        # their chunk, or outlive the parent; end them here so none is left orphaned
+        processes = list((getattr(pool, "_processes", None) or {}).values())
         pool.shutdown(wait=False, cancel_futures=True)
+        for process in processes:
+            if process.is_alive():
+                process.terminate()
+        for process in processes:
+            process.join(timeout=5)
         raise
     pool.shutdown(wait=True, cancel_futures=True)
     started = set()

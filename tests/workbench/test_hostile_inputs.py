@@ -148,6 +148,11 @@ def test_journal_records_are_validated(tmp_path):
     (lambda t: t.replace("value_points = 5", "value_points = 1000000000"), "22.4 GB"),
     (lambda t: t.replace("[figures]", "[comparisons]\ncontour_points = 1000000000\n[figures]"),
      "more than the 100000 points"),
+    # trust boundary: a case file writes under the working folder only (--out may go anywhere)
+    (lambda t: t + '\n[output]\ndirectory = "/tmp/elsewhere"\n', "relative folder inside the working folder"),
+    (lambda t: t + '\n[output]\ndirectory = "../up"\n', "relative folder inside the working folder"),
+    (lambda t: t + '\n[output]\ndirectory = "results/../../up"\n', "relative folder inside the working folder"),
+    (lambda t: t + '\n[output]\ndirectory = "~/home"\n', "relative folder inside the working folder"),
 ])
 def test_case_files_asking_for_the_impossible(change, fragment, case_text):
     from workbench.case import parse_case
@@ -155,6 +160,23 @@ def test_case_files_asking_for_the_impossible(change, fragment, case_text):
     with pytest.raises(InputError, match=None) as info:
         parse_case(change(case_text()), source="c.toml")
     assert fragment in str(info.value) and "\n" not in str(info.value)
+
+
+def test_output_directory_of_a_case_stays_in_the_working_folder(tmp_path, case_text, monkeypatch):
+    from workbench.case import parse_case
+
+    case = parse_case(case_text() + '\n[output]\ndirectory = "results/run1"\n', source="c.toml")
+    assert case.output_directory() == Path("results/run1")
+    assert case.output_directory(tmp_path / "anywhere") == tmp_path / "anywhere"   # --out is the user's
+
+
+def test_a_refused_run_leaves_no_folder(tmp_path, capsys, case_text):
+    # the field is checked before anything is written: no empty output folder is left behind
+    case = tmp_path / "c.toml"
+    case.write_text(case_text(expression="-x**2"))
+    out = tmp_path / "out"
+    assert main(["run", str(case), "--out", str(out), "--quiet"]) == 2
+    assert not out.exists()
 
 
 def test_a_file_where_the_figures_folder_belongs(tmp_path, capsys, case_text):

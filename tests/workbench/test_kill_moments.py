@@ -20,6 +20,7 @@ import subprocess
 import sys
 import textwrap
 import time
+from pathlib import Path
 
 import h5py
 import pytest
@@ -135,6 +136,62 @@ def test_sigkill_in_the_middle_of_an_atomic_write(tmp_path):
     # the file is built in memory and written out only when complete: no temporary while building
     assert list(tmp_path.glob("*.tmp")) == []
     # a temporary left by SIGKILL during the final os.write (the only moment one exists) is cleared
-    leftover = tmp_path / "run.h5.abc123.tmp"
+    leftover = tmp_path / f"run.h5.workbench-{process.pid}-abc123.tmp"   # the killed writer's own name
     leftover.write_bytes(b"partial")
     assert remove_stale_temporaries(tmp_path) == [leftover] and not list(tmp_path.glob("*.tmp"))
+
+
+def _descendants(pid: int) -> set[int]:
+    """Every live process below ``pid``, from the parent ids in /proc (Linux; common practice)."""
+    children: dict[int, list[int]] = {}
+    for entry in Path("/proc").iterdir():
+        if entry.name.isdigit():
+            try:
+                stat_text = (entry / "stat").read_text()
+            except OSError:
+                continue
+            parent = int(stat_text.rsplit(")", 1)[1].split()[1])
+            children.setdefault(parent, []).append(int(entry.name))
+    found, todo = set(), [pid]
+    while todo:
+        for child in children.get(todo.pop(), []):
+            if child not in found:
+                found.add(child)
+                todo.append(child)
+    return found
+
+
+def _alive(pid: int) -> bool:
+    try:
+        stat_text = Path(f"/proc/{pid}/stat").read_text()
+    except OSError:
+        return False
+    return stat_text.rsplit(")", 1)[1].split()[0] != "Z"     # a zombie has ended
+
+
+@pytest.mark.skipif(not Path("/proc/self/stat").exists(), reason="reads process parents from /proc")
+def test_sigterm_to_a_sweep_ends_its_workers(tmp_path):
+    # SIGTERM is handled like Ctrl-C: exit 143, one line, no temporary, and no worker left behind
+    case = tmp_path / "long.toml"
+    case.write_text("\n".join(['[case]', 'name = "long"', '[field]', 'expression = "x**4/4 - t*x**2/2"',
+                               'parameters = { t = 1.0 }', '[[sweep.axis]]', 'name = "t"', 'start = -1.0',
+                               'stop = 3.0', 'num = 2000', '[figures]', 'enabled = false']) + "\n")
+    out = tmp_path / "out"
+    env = dict(os.environ, PYTHONUNBUFFERED="1")
+    process = subprocess.Popen([sys.executable, "-m", "workbench", "sweep", str(case), "--out", str(out),
+                                "--workers", "2"], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                               env=env)
+    journal = out / "points.jsonl"
+    # the pool is up (forkserver and workers below the sweep) and points are being recorded
+    _wait(lambda: len(_descendants(process.pid)) >= 2 and journal.exists()
+          and journal.read_text().count("\n") >= 3, process)
+    workers = _descendants(process.pid)
+    process.send_signal(signal.SIGTERM)
+    _, stderr = process.communicate(timeout=60)
+    assert process.returncode == 143, stderr
+    assert "Traceback" not in stderr and stderr.strip().splitlines()[-1].endswith("terminated (SIGTERM)")
+    deadline = time.monotonic() + 10
+    while any(_alive(pid) for pid in workers) and time.monotonic() < deadline:
+        time.sleep(0.05)
+    assert not [pid for pid in workers if _alive(pid)], "workers outlived the sweep"
+    assert not list(out.rglob("*.tmp"))

@@ -6,6 +6,9 @@ import json
 import re
 
 import h5py
+import os
+import subprocess
+import sys
 import numpy as np
 import pytest
 
@@ -107,15 +110,27 @@ def test_partials_are_tied_to_the_case_digest(tmp_path):
     assert partial_path(tmp_path, 10).name == "n_00010.h5"
 
 
+def _dead_pid() -> int:
+    """The process id of a child that has exited (not reused within a test, common practice)."""
+    child = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True)
+    return int(child.stdout)
+
+
 def test_stale_temporaries_are_removed(tmp_path):
     (tmp_path / "partial").mkdir()
-    stale = [tmp_path / "run.h5.abc123.tmp", tmp_path / "partial" / "n_00010.h5.x1.tmp"]
+    dead = _dead_pid()
+    stale = [tmp_path / f"run.h5.workbench-{dead}-abc123.tmp",
+             tmp_path / "partial" / f"n_00010.h5.workbench-{dead}-x1.tmp"]
     for p in stale:
         p.write_bytes(b"half a file")
-    keep = tmp_path / "notes.txt"
-    keep.write_text("keep")
+    # the user's own files, a name the workbench does not own, and the temporary of a live
+    # process (a run still writing into the same folder) are left alone
+    keep = [tmp_path / "notes.txt", tmp_path / "data.h5.backup.tmp", tmp_path / "run.h5.abc123.tmp",
+            tmp_path / f"run.h5.workbench-{os.getppid()}-live.tmp", tmp_path / "run.h5.workbench-x1-y.tmp"]
+    for p in keep:
+        p.write_text("keep")
     assert sorted(remove_stale_temporaries(tmp_path)) == sorted(stale)
-    assert keep.exists() and not any(p.exists() for p in stale)
+    assert all(p.exists() for p in keep) and not any(p.exists() for p in stale)
 
 
 def test_reading_a_foreign_file_is_input_error(tmp_path):
