@@ -69,6 +69,9 @@ ERROR_LABELS = {
     "err_zeros_gap": "zeros, gaps",
     "small_norm": r"$|TM^{-1} - I|$",
     "err_log_hankel": r"$\log D_n$",
+    "err_zeros_edge_left": "zeros, left edge",
+    "err_zeros_edge_right": "zeros, right edge",
+    "err_zeros_edge_scaling": "edge scaling",
 }
 
 
@@ -366,9 +369,13 @@ def draw_errors(tree: Group):
         k for k in comp.datasets if k.startswith("err_") and k not in ERROR_LABELS and not _is_order_key(k))
     handles, labels = [], []
     drawn_n = []
-    for k, key in enumerate(keys):
-        # a quantity keeps its colour and marker from figure to figure (its place in ERROR_LABELS)
-        k = list(ERROR_LABELS).index(key) if key in ERROR_LABELS else k
+    if comp.has("err_zeros_edge_left") and comp.has("err_zeros_edge_right") and "err_zeros_edge" in keys:
+        keys.remove("err_zeros_edge")   # the larger of the two drawn beside it: it would hide under one of them
+    others = [key for key in keys if key not in ERROR_LABELS]
+    for key in keys:
+        # a quantity keeps its colour and marker from figure to figure (its place in ERROR_LABELS);
+        # the others follow after all of those, so no two series share a colour and a marker
+        k = list(ERROR_LABELS).index(key) if key in ERROR_LABELS else len(ERROR_LABELS) + others.index(key)
         text = ERROR_LABELS.get(key) or comp.datasets[key].attrs.get("label", key)
         got = _error_series(ax, n, comp, rates, key, text, k)
         if got is not None:
