@@ -316,6 +316,10 @@ def test_more_workers_than_cores(tmp_path, capsys, sweep_case_text):
     case.write_text(sweep_case_text())
     _refused(["sweep", str(case), "--workers", str(usable_cores() + 1), "--out", str(tmp_path / "o")], capsys,
              f"more than the {usable_cores()} usable core(s)")
+    # run's direct stage goes through the same pools: the same limit, before any work
+    _refused(["run", "one_band_quartic", "--workers", "64", "--out", str(tmp_path / "r")], capsys,
+             f"more than the {usable_cores()} usable core(s)")
+    assert not (tmp_path / "r").exists()
 
 
 # ------------------------------------------------------------------------ unbounded cost

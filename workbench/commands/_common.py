@@ -149,3 +149,22 @@ def positive_integer(text, name: str, minimum: int = 1) -> int:
 
     check_degree(value, name)
     return value
+
+
+def check_parallel_options(args: argparse.Namespace) -> None:
+    """``--workers`` and ``--scheduler`` of run and sweep, checked before any work.
+
+    At least one worker and at most the usable cores (:func:`workbench.limits.check_workers`;
+    more processes than cores only contend), and a scheduler address of the form
+    ``tcp://host:port`` (:func:`workbench.sweep.parse_scheduler_address`).
+    """
+    if args.workers is not None and args.workers < 1:
+        raise InputError(f"--workers {args.workers} must be >= 1")
+    if args.scheduler is not None:
+        from workbench.sweep import parse_scheduler_address
+
+        parse_scheduler_address(args.scheduler)
+    elif args.workers is not None:
+        from workbench.limits import check_workers, usable_cores
+
+        check_workers(args.workers, usable_cores())

@@ -27,15 +27,11 @@ def register(subparsers) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from workbench.case import load_case
+    from workbench.commands._common import check_parallel_options
     from workbench.commands.show import summary_lines
     from workbench.pipeline import run_case
 
-    from equilibrium.errors import InputError
-
-    if args.workers is not None and args.workers < 1:
-        raise InputError(f"--workers {args.workers} must be >= 1")
-    if args.scheduler is not None and "://" not in args.scheduler:
-        raise InputError(f"--scheduler {args.scheduler!r}: give an address like tcp://127.0.0.1:8786")
+    check_parallel_options(args)
     case = load_case(args.case, reduced=args.reduced)
     outcome = run_case(case, args.out, progress=not args.quiet,
                        draw=False if args.no_figures else None, workers=args.workers,

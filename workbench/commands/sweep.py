@@ -34,20 +34,14 @@ def run(args: argparse.Namespace) -> int:
     from workbench.case import load_case
     from workbench.commands.show import summary_lines
     from workbench.results import read_run
-    from workbench.sweep import parse_scheduler_address, sweep_case
+    from workbench.commands._common import check_parallel_options
+    from workbench.sweep import sweep_case
 
-    if args.workers is not None and args.workers < 1:
-        raise InputError(f"--workers {args.workers} must be >= 1")
+    check_parallel_options(args)
     if args.budget is not None and args.budget < 0:
         raise InputError(f"--budget {args.budget} must be >= 0")
     if args.retries < 0:
         raise InputError(f"--retries {args.retries} must be >= 0")
-    if args.scheduler is not None:
-        parse_scheduler_address(args.scheduler)
-    elif args.workers is not None:
-        from workbench.limits import check_workers, usable_cores
-
-        check_workers(args.workers, usable_cores())
     case = load_case(args.case, reduced=args.reduced)
     result = sweep_case(case, args.out, workers=args.workers, scheduler=args.scheduler,
                         budget=args.budget, retries=args.retries, progress=not args.quiet,
