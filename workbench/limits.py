@@ -17,6 +17,7 @@ represent, such as degrees beyond 2^53, are refused always).
 from __future__ import annotations
 
 import os
+import sys
 
 from equilibrium.errors import InputError
 
@@ -193,12 +194,26 @@ def symbolic_seconds(node) -> float:
     return scale * size**power
 
 
-def check_expression(text: str, parameters, what: str) -> None:
-    """Refuse a non-polynomial expression whose symbolic derivatives would exceed the time budget."""
+#: symbolic work estimated at more than this many seconds is announced on stderr before it starts
+#: (one line: the work is one library call, so there is no finer progress to show)
+NOTICE_SECONDS = 5.0
+
+
+def check_expression(text: str, parameters, what: str) -> float:
+    """Refuse a non-polynomial expression whose symbolic derivatives would exceed the time budget.
+
+    Returns the estimated seconds (0 for a polynomial); work estimated above
+    :data:`NOTICE_SECONDS` but within the budget is announced on stderr with its estimate.
+    """
     from equilibrium.expression import parse_expression
 
     expression = parse_expression(text, parameters)
     if expression.polynomial_coefficients() is not None:
-        return  # differentiated from its coefficients, no symbolic work
-    check_time(symbolic_seconds(expression.tree), f"{what}: the derivatives V', V'' of this expression",
+        return 0.0  # differentiated from its coefficients, no symbolic work
+    seconds = symbolic_seconds(expression.tree)
+    check_time(seconds, f"{what}: the derivatives V', V'' of this expression",
                "shorten the expression (a long product of non-polynomial factors costs most)")
+    if seconds >= NOTICE_SECONDS:
+        print(f"workbench: note: {what}: the symbolic derivatives V', V'' take about {_duration(seconds)}",
+              file=sys.stderr, flush=True)
+    return seconds

@@ -334,6 +334,19 @@ def test_a_long_product_is_refused_before_symbolic_differentiation(capsys):
     _refused(["equilibrium", "--potential", product, "--on=-1:1"], capsys, "derivatives V', V''")
 
 
+def test_long_symbolic_work_within_the_budget_is_announced(capsys):
+    from workbench import limits
+
+    # 39 factors: measured 57 s under load (the fit of limits.SYMBOLIC_SECONDS); only estimated here
+    product = "*".join(f"cosh(x/{k})" for k in range(1, 40))
+    seconds = limits.check_expression(product, {}, "--potential")
+    assert limits.NOTICE_SECONDS <= seconds < 600
+    assert "the symbolic derivatives V', V'' take about" in capsys.readouterr().err
+    assert limits.check_expression("cosh(x)*x^2", {}, "--potential") < limits.NOTICE_SECONDS
+    assert limits.check_expression("x^4/4 - x^2", {}, "--potential") == 0.0   # from its coefficients
+    assert capsys.readouterr().err == ""
+
+
 def test_the_budgets_can_be_lifted(monkeypatch):
     from workbench import limits
 
