@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import dataclasses
 import hashlib
+import json
 import math
 import re
 import tomllib
@@ -350,11 +351,19 @@ class Case:
     reduced: bool = False
     model: ModelSpec = ModelSpec()
     formulas: tuple = ()    # workbench.formulas.FormulaSpec, one per [[formulas]] table
+    #: what the computed results depend on: the parsed tables except [[formulas]], as canonical JSON
+    computed_text: str = ""
 
     @property
     def digest(self) -> str:
-        """SHA-256 of the case text and the size flag: partial results are tied to it."""
-        return hashlib.sha256((self.text + f"\nreduced={self.reduced}").encode()).hexdigest()
+        """SHA-256 of what the results depend on and the size flag: partial results are tied to it.
+
+        The formulas are left out (they are evaluated on stored numbers, so adding or changing
+        one reuses every finished n and the model stage), and so are comments and layout (the
+        parsed tables are hashed, not the text).
+        """
+        basis = self.computed_text or self.text
+        return hashlib.sha256((basis + f"\nreduced={self.reduced}").encode()).hexdigest()
 
     def output_directory(self, override: str | Path | None = None) -> Path:
         if override is not None:
@@ -660,6 +669,8 @@ def parse_case(text: str, *, source: str = "<case>", reduced: bool = False) -> C
         reduced=reduced,
         model=model,
         formulas=formulas,
+        computed_text=json.dumps({key: value for key, value in data.items() if key != "formulas"},
+                                 sort_keys=True, default=str, ensure_ascii=False),
     )
 
 

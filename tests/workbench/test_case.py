@@ -69,6 +69,18 @@ def test_reduced_overrides():
     assert case.digest != parse_case(GOOD, source="cases/q.toml").digest
 
 
+def test_digest_follows_what_the_results_depend_on():
+    # formulas are evaluated on stored numbers: adding one reuses every finished n (same digest);
+    # comments and layout change nothing either; a changed field or n does
+    base = parse_case(GOOD, source="q.toml").digest
+    with_formula = GOOD + '\n[[formulas]]\nname = "guess"\nquantity = "a"\nexpression = "1"\n'
+    assert parse_case(with_formula, source="q.toml").formulas
+    assert parse_case(with_formula, source="q.toml").digest == base
+    assert parse_case("# a comment\n" + GOOD.replace(" = ", " =  "), source="q.toml").digest == base
+    assert parse_case(GOOD.replace("t = 1.0", "t = 1.25"), source="q.toml").digest != base
+    assert parse_case(GOOD.replace("num = 4", "num = 5"), source="q.toml").digest != base
+
+
 def _error(text: str) -> str:
     with pytest.raises(InputError) as info:
         parse_case(text, source="cases/x.toml")
