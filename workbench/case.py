@@ -970,7 +970,7 @@ def _output(check: _Validator, table: dict[str, Any]) -> OutputSpec:
         if (not directory.strip() or "\x00" in directory or "\\" in directory or directory.startswith(("/", "~"))
                 or ".." in parts or len(directory.encode()) > 1000):
             raise check.fail(f"[output] directory {directory[:60]!r} must be a relative folder inside the working "
-                             "folder (no leading / or ~, no ..); give --out to write elsewhere",
+                             "folder (no leading / or ~, no .., no backslash); give --out to write elsewhere",
                              "output", "directory")
     return OutputSpec(directory=directory, file=name)
 
