@@ -410,17 +410,15 @@ def remove_stale_temporaries(directory: str | os.PathLike[str]) -> list[Path]:
     root = Path(directory)
     if not root.is_dir():
         return removed
-    for folder in (root, root / "partial", root / "figures"):
-        if not folder.is_dir():
+    # the output folder and its subfolders (partial/, figures/): wherever the workbench writes
+    for path in sorted([*root.glob("*.tmp"), *root.glob("*/*.tmp")]):
+        if not owned_stale_temporary(path):
             continue
-        for path in sorted(folder.glob("*.tmp")):
-            if not owned_stale_temporary(path):
-                continue
-            try:
-                path.unlink()
-                removed.append(path)
-            except OSError:
-                pass
+        try:
+            path.unlink()
+            removed.append(path)
+        except OSError:
+            pass
     return removed
 
 
