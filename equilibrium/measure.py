@@ -144,6 +144,9 @@ class EquilibriumMeasure:
     _state: AlgebraicState = dataclass_field(repr=False)
     _g_scaled: np.ndarray = dataclass_field(repr=False)
     _pieces: "_Pieces" = dataclass_field(repr=False)
+    #: trailing part of Ω = omega + omega_low when Ω was re-solved beyond double precision
+    #: (:func:`equilibrium.refinement.with_refined_frequencies`); None for the double solve
+    omega_low: np.ndarray | None = dataclass_field(default=None, repr=False)
 
     # ----------------------------------------------------------------- basics
     @property

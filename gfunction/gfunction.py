@@ -141,18 +141,23 @@ class GFunction:
     far_rho: float = _FAR_RHO  # Bernstein parameter (per band) beyond which the direct sum is used
     _nodes: np.ndarray = field(default=None, repr=False)
     _weights: np.ndarray = field(default=None, repr=False)
+    #: trailing part of Ω (zeros unless the measure carries ``omega_low``: gfunction.phase)
+    omega_low: np.ndarray = field(default=None, repr=False)
 
     # -- pieces ----------------------------------------------------------
     def V(self, z):
         return self.measure.field.V(z)
 
-    def edge_omega(self, i: int) -> float:
-        """``Ω(e) = μ([e, b_k])`` for edge number ``i`` of ``edge_points``."""
+    def edge_omega(self, i: int, low: bool = False) -> float:
+        """``Ω(e) = μ([e, b_k])`` for edge number ``i`` of ``edge_points`` (its trailing part
+        ``Ω_lo`` with ``low=True``; 0 at the outer edges, where Ω(e) is 1 or 0 exactly)."""
         k = len(self.support)
         band, right = divmod(i, 2)
+        omega = self.omega if not low else (self.omega_low if self.omega_low is not None
+                                            else np.zeros_like(self.omega))
         if right:
-            return float(self.omega[band]) if band < k - 1 else 0.0
-        return float(self.omega[band - 1]) if band > 0 else 1.0
+            return float(omega[band]) if band < k - 1 else 0.0
+        return float(omega[band - 1]) if band > 0 else (0.0 if low else 1.0)
 
     def phi(self, i: int, z) -> np.ndarray:
         r"""``φ_e(z) = ∫_e^z h(s) r(s) ds`` for edge number ``i`` (see module doc).
@@ -349,6 +354,8 @@ def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10,
     moments = np.array([np.sum(w * x ** j) for j in range(9)])
     k = len(support)
     omega = np.asarray(measure.omega, dtype=float).reshape(k - 1)
+    low = getattr(measure, "omega_low", None)
+    omega_low = np.zeros(k - 1) if low is None else np.asarray(low, dtype=float).reshape(k - 1)
     edges = []
     for i, e in enumerate(pts):
         side = 1 if i % 2 else -1
@@ -357,7 +364,7 @@ def g_function(measure, *, nodes: int = _BAND_NODES, tolerance: float = 1e-10,
         edges.append(EdgeVariable(e, kinds[i], side, float(om), _edge_derivative(measure, pts, kinds, i)))
     gf = GFunction(measure=measure, support=support, edge_points=pts, edge_kinds=kinds,
                    omega=omega, lagrange=float(measure.lagrange), moments=moments,
-                   edges=tuple(edges), far_rho=far_rho, _nodes=x, _weights=w)
+                   edges=tuple(edges), far_rho=far_rho, _nodes=x, _weights=w, omega_low=omega_low)
     checks = float_checks(_verify(gf))
     message = failure_message(checks, {key: tolerance for key in checks}, what="the g-function")
     object.__setattr__(gf, "checks", checks)

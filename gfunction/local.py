@@ -88,6 +88,7 @@ from scipy.special import airye, ive, kve
 from equilibrium.errors import InputError
 
 from .gfunction import trusted_radius
+from .phase import reduced_phase
 from .predict import EdgeZeros
 
 __all__ = ["airy_model", "bessel_model", "EdgeParametrix", "edge_parametrix", "matching_mismatch"]
@@ -203,6 +204,8 @@ class EdgeParametrix:
     omega: float
     alpha: float
     radius: float
+    #: trailing part of Ω(e) (gfunction.phase; 0 unless Ω was refined)
+    omega_low: float = 0.0
 
     # -- pieces ------------------------------------------------------------
     def zeta(self, z, degree) -> np.ndarray:
@@ -243,8 +246,8 @@ class EdgeParametrix:
     def _U(self, z: np.ndarray, degree) -> np.ndarray:
         """``log`` of the diagonal ``U = W^{σ₃/2} e^{±πinΩσ₃}`` combined with ``D^{-σ₃}`` of N."""
         pm = np.where(z.imag >= 0, 1.0, -1.0)
-        # nΩ reduced mod 2 before the factor π (exact for Ω ∈ {0, 1}; keeps the digits at large n)
-        return 1j * np.pi * np.fmod(np.asarray(degree, dtype=float) * self.omega, 2.0) * pm
+        # nΩ reduced mod 2 exactly before the factor π (gfunction.phase: keeps the digits at large n)
+        return 1j * np.pi * reduced_phase(degree, self.omega, self.omega_low, 2.0) * pm
 
     def model_Q(self, z, degree: int) -> np.ndarray:
         """``Q(ζ(z))`` (→ I), with the σ₃-conjugation at left edges."""
@@ -320,7 +323,8 @@ def edge_parametrix(predictor, index: int, *, radius: float | None = None) -> Ed
                     raise InputError(f"the factor is singular at the soft edge {e:g}; the Airy parametrix "
                                      "needs h analytic there")
                 alpha = p
-    return EdgeParametrix(predictor, index, e, kind, side, gf.edge_omega(index), alpha, rad)
+    return EdgeParametrix(predictor, index, e, kind, side, gf.edge_omega(index), alpha, rad,
+                          gf.edge_omega(index, low=True))
 
 
 def matching_mismatch(predictor, index: int, degrees, *, samples: int = 48, radius: float | None = None) -> np.ndarray:

@@ -48,6 +48,7 @@ from equilibrium.verification import failure_message, failure_policy, settle
 
 from .gfunction import GFunction, g_function
 from .outer import ModelProblem, gamma_factor, gap_abel_map, model_problem
+from .phase import reduced_phase
 from .theta import theta_lattice, theta_shift_table
 
 __all__ = ["Predictor", "Prediction", "RecurrencePrediction", "GapZeros", "BandCounts", "EdgeZeros",
@@ -279,7 +280,9 @@ class Predictor:
         """
         N = np.atleast_1d(np.asarray(degrees, dtype=float))
         n = N if scalings is None else np.broadcast_to(np.asarray(scalings, float), N.shape)
-        w = n[:, None] * np.asarray(self.g.omega)[None, :] + (N - n)[:, None] * self.omega_hat[None, :]
+        # n Ω reduced exactly (gfunction.phase: Ω beyond double when the measure carries omega_low)
+        w = reduced_phase(n[:, None], np.asarray(self.g.omega)[None, :], self.g.omega_low[None, :])
+        w = w + (N - n)[:, None] * self.omega_hat[None, :]
         if self.szego is not None and self.genus:
             w = w - self.szego.phase_shift[None, :]
         return w - np.floor(w)

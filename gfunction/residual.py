@@ -118,6 +118,7 @@ from equilibrium.verification import failure_message, failure_policy, float_chec
 from .local import edge_parametrix, outer_scaling
 from .model_series import pole_order, series_matrices
 from .outer import gamma_factor
+from .phase import reduced_phase
 from .theta import theta_shift_table
 
 __all__ = ["ResidualExpansion", "residual_expansion", "JumpExpansion", "jump_expansion", "OuterTable",
@@ -268,8 +269,9 @@ class JumpExpansion:
         W = pr.model.W(w) if pr.genus else np.zeros((degrees.size, 0))
         M = self.outer.evaluate(W).reshape(degrees.size, C, L, 2, 2)
         omega = np.array([ep.omega for ep in self.parametrices])
-        # e^{±iπnΩ}: reduce nΩ mod 2 first (exact for Ω ∈ {0, 1}; π·n would lose digits at large n)
-        phase = np.fmod(degrees.astype(float)[:, None] * omega[None, :], 2.0)
+        low = np.array([ep.omega_low for ep in self.parametrices])
+        # e^{±iπnΩ}: reduce nΩ mod 2 exactly first (gfunction.phase; π·n would lose digits at large n)
+        phase = reduced_phase(degrees.astype(float)[:, None], omega[None, :], low[None, :], 2.0)
         lu = self.half_log_w[None] + 1j * np.pi * phase[:, :, None] * self.side_sign[None]
         D = pr.szego
         return outer_scaling(M, np.log(D.limit) if D is not None else 0.0, lu)

@@ -38,13 +38,16 @@ the coarse error and the fine result is returned), combined with the
 neglected jumps ``e^{-nc}`` and, with several bands, the error of the phases:
 
     error_estimate = max(|Δ_L|, e^{-nc}, Σ_j |∂(a, b)/∂w_j| δw_j),
-    δw_j = n (δΩ + ε Ω_j),   δΩ = max(mass_error of the measure, ε),   ε = 2^-53.
+    δw_j = n δΩ + 2ε,   δΩ = omega_error, else max(mass_error of the measure, ε),   ε = 2^-53.
 
-The phases ``w = nΩ`` (mod 1) carry ``n`` times the error of ``Ω`` (a double from the
-equilibrium measure: measured 9e-17 for ``x⁴/4 − 3.1x²/2 + 0.23x`` and 7e-16 for the
-three-band sextic of the tests, against mpmath solutions of the algebraic equations of the
-endpoints) plus the rounding of the product.  This, not the solve, limits the accuracy at
-large ``n``: ~1e-12 at ``n = 4000``, ~1e-9 at ``n = 10⁶``.  The derivatives ``∂(a, b)/∂w_j``
+The phases ``w = nΩ`` (mod 1) carry ``n`` times the error of ``Ω``; the product and its
+reduction are exact (:mod:`gfunction.phase`), so only the rounding of ``w`` itself is added.
+The double Ω of :func:`equilibrium.solve` is off by a few 1e-16 (measured 5e-16 for
+``x⁴/4 − 3.1x²/2 + 0.23x`` and 5.6e-16 for the three-band sextic of the tests), which limits
+the accuracy at large ``n`` (~1e-12 at ``n = 4000``, ~1e-9 at ``n = 10⁶``); the workbench
+therefore re-solves Ω beyond double precision for every prediction beyond leading order
+(:mod:`equilibrium.refinement`: ``Ω = omega + omega_low`` with ``checks["omega_error"]`` ~1e-30,
+so that ``n δΩ`` stays below rounding up to ``n ~ 10¹⁴``).  The derivatives ``∂(a, b)/∂w_j``
 are those of the leading order (central differences of ``ModelProblem.expansion``); the
 corrections change them by O(1/n).  The phase part is reported in ``error_estimate`` and in
 ``checks["phase_error"]``; it does not decide ``verified`` (which states that the residual
@@ -275,11 +278,13 @@ def neglected_jump_exponent(predictor, radii, *, kappas=(0.15, 0.3, 0.5, 0.8, 1.
 
 
 def phase_error(predictor, degrees, *, step: float = 1e-6) -> np.ndarray:
-    """``Σ_j |∂(a, b)/∂w_j| δw_j`` per degree, ``δw_j = n (δΩ + ε Ω_j)`` (module docstring); zeros for one band.
+    """``Σ_j |∂(a, b)/∂w_j| δw_j`` per degree, ``δw_j = n δΩ + 2ε`` (module docstring); zeros for one band.
 
     ``δΩ = max(mass_error, ε)`` from the checks of the equilibrium measure (its total mass
     differs from 1 by that much; the band masses, whose sums are the ``Ω_j``, come from the same
-    rule), ``ε = 2^-53``.  The derivatives are central differences of the leading-order
+    rule), ``ε = 2^-53``; when Ω was re-solved beyond double precision
+    (:func:`equilibrium.refinement.with_refined_frequencies`) its check ``omega_error`` (the
+    error of ``omega + omega_low``) takes the place of ``mass_error``.  The derivatives are central differences of the leading-order
     ``a = (a²)^{1/2}``, ``b`` of ``ModelProblem.expansion`` with step ``step`` in the phases
     (their error O(step²) is far below the derivatives themselves).
     """
@@ -296,9 +301,11 @@ def _expansion_and_phase_error(predictor, degrees, step: float = 1e-6):
         return None, np.zeros(N)
     eps = 2.0 ** -53
     checks = getattr(predictor.measure, "checks", {}) or {}
-    d_omega = max(float(checks.get("mass_error", 0.0)), eps)
-    omega = np.asarray(predictor.g.omega, dtype=float)
-    dw = degrees.astype(float)[:, None] * (d_omega + eps * np.abs(omega)[None, :])    # (N, g)
+    # δΩ: the double solve's Ω is off by ~mass_error; Ω re-solved beyond double precision
+    # (equilibrium.refinement, omega + omega_low) by omega_error.  The product nΩ and its reduction
+    # are exact (gfunction.phase), leaving the rounding 2ε of the reduced phase.
+    d_omega = float(checks["omega_error"]) if "omega_error" in checks else max(float(checks.get("mass_error", 0.0)), eps)
+    dw = np.broadcast_to(degrees.astype(float)[:, None] * d_omega + 2 * eps, (N, g))  # (N, g)
     w = predictor.phases(degrees)
     shifts = np.concatenate([np.eye(g), -np.eye(g)]) * step                           # (2g, g)
     ex = predictor.model.expansion(np.concatenate([w, (w[:, None, :] + shifts[None]).reshape(-1, g)]))

@@ -30,12 +30,33 @@ from equilibrium.errors import InputError
 from workbench.compare import absolute_errors
 
 __all__ = ["model_orders", "model_zero_orders", "order_errors", "order_error_keys", "order_suffixes",
-           "check_model_request"]
+           "check_model_request", "measure_for_orders"]
 
 #: the coefficient quantities with orders
 _QUANTITIES = ("a", "b")
 #: the zero and value errors with orders (``err_<name>_order{k}``; ``workbench.pipeline``)
 _ZERO_QUANTITIES = ("values", "zeros_edge", "zeros_edge_right", "zeros_edge_left", "zeros_gap")
+
+
+def measure_for_orders(mu, order: int, method: str) -> tuple[object, str]:
+    """The measure the predictions start from: with ``order ≥ 1`` or the residual method and
+    several bands, Ω_j re-solved in extended precision (:func:`equilibrium.refinement.
+    with_refined_frequencies`: the phases nΩ_j multiply the double Ω's error of a few 1e-16 by n,
+    ~1e-12 at n = 3000, above what those predictions resolve).
+
+    Returns ``(measure, note)``: the note is empty when Ω was refined or nothing needed it, else it
+    says why the double Ω is kept (a field that is not a polynomial, a singular measure, no
+    convergence) -- the residual method's phase error then carries that Ω's error.
+    """
+    if (order == 0 and method == "series") or len(mu.support) < 2:
+        return mu, ""
+    from equilibrium.errors import NumericalFailure
+    from equilibrium.refinement import with_refined_frequencies
+
+    try:
+        return with_refined_frequencies(mu), ""
+    except (InputError, NumericalFailure) as exc:
+        return mu, f"{exc}; the double Omega is kept (its error {mu.checks.get('mass_error', 0.0):.1g} grows like n in the phases)"
 
 
 def check_model_request(case, mu) -> None:

@@ -48,11 +48,12 @@ from typing import Any, Callable, Mapping, Sequence
 import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
+from equilibrium.refinement import REFINEMENT_CHECKS
 from workbench import compare
 from workbench.case import Case
 from workbench.hdf5 import check_output_directory, check_output_file, make_output_directory
-from workbench.orders import (check_model_request, model_orders, model_zero_orders, order_error_keys, order_errors,
-                             order_suffixes)
+from workbench.orders import (check_model_request, measure_for_orders, model_orders, model_zero_orders,
+                              order_error_keys, order_errors, order_suffixes)
 from workbench.results import (
     Group,
     load_partials,
@@ -791,6 +792,13 @@ def model_predictions(case: Case, mu, ns: Sequence[int],
                         "available": True})
     # the factor h enters through its Szegő function (the same factor objects as the direct side)
     factors = build_weight(case, mu.field, mu.on, 1.0).factors if not case.factor.is_one else None
+    # beyond leading order every prediction of the stage takes Ω to rounding (workbench.orders)
+    mu, omega_note = measure_for_orders(mu, case.model.order, case.model.method)
+    node.attrs["omega"] = np.asarray(mu.omega, dtype=float)
+    if "omega_error" in mu.checks:
+        node.attrs["omega_refinement"] = {k: float(mu.checks[k]) for k in REFINEMENT_CHECKS}
+    elif omega_note:
+        node.attrs["omega_refinement_skipped"] = omega_note
     pred = predictor(mu, factor=factors, on_failure="mark")
     step(1)
     prediction = pred.predict(ns_arr, on_failure="mark")

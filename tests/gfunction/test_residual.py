@@ -252,42 +252,43 @@ def _same_phase_degrees(pr, targets, spread: float = 1.6) -> list:
     return out
 
 
-@pytest.mark.parametrize("expr, targets, spread", [
-    ("x**4/4 - 3.1*x**2/2 + 0.23*x", [200, 400, 800, 1600, 3200], 1.25),
-    ("x**6/6 - 5*x**4/4 + 4.5*x**2/2 + 0.1*x", [400, 800, 1600, 2500], 1.6)])
-def test_multi_band_orders_against_direct(expr, targets, spread, omega_to_rounding):
-    """Two and three bands, irrational Ω, against the direct coefficients at degrees of equal phase
-    from 200 (400) to 3471 (2576), with Ω to rounding (the ``omega_to_rounding`` fixture: the
-    measure's double Ω is off by 1e-16 … 8e-16, which the phases multiply by n, ~1e-12 at n = 3000,
-    and which flattened the order-2 slopes to -2.25 (a) and -2.74 (b) for two bands).
-    Measured: two bands (n = 200, 425, 984, 1813, 3471) slopes -1.99 / -2.01 at order 1 and
-    -3.17 / -3.06 at order 2 (a / b); three bands (n = 400, 944, 2032, 2576) -2.00 / -2.01 and
-    -2.75 / -3.05.  The three-band a_n at order 2 falls like n^-3 -- n³|residual − order 2| stays
-    between 0.05 and 0.19 for 200 random n from 200 to 10^5 -- but its constant c_3(nΩ) is not
-    matched well by equal-phase degrees of a two-dimensional phase this short (the order-0 errors
-    of those degrees scatter by a factor 2 too), hence the -2.75."""
-    import dataclasses
+@pytest.mark.parametrize("expr", ["x**4/4 - 3.1*x**2/2 + 0.23*x", "x**6/6 - 5*x**4/4 + 4.5*x**2/2 + 0.1*x"])
+def test_multi_band_orders_against_direct(expr):
+    """Two and three bands, irrational Ω, against the direct coefficients for n = 150 … 2999: the rate of
+    the envelope of the error (its largest value over 12 random degrees in each window [t, 1.25 t),
+    t = 150, 300, 600, 1200, 2400).  The corrections depend on n through the phases nΩ, so the error at
+    order K is C_K(nΩ)/n^{K+1} with a quasi-periodic C_K that comes near zero at some n (n³|error| of
+    the three-band a_n at order 2 ranges over 4e-4 … 0.16 for n = 200 … 4000, against the residual
+    method): a fit through single degrees measures where C_K happens to be (-2.75 before), the
+    envelope measures the rate.  Ω is re-solved in extended precision, as the workbench does beyond
+    leading order (the double Ω's error times n, ~1e-12 at n = 3000, flattened the order-2 slopes).
+    Measured (this seed): two bands -2.005 / -2.016 at order 1 and -3.045 / -3.076 at order 2 (a / b),
+    three bands -1.983 / -2.076 and -3.070 / -3.055; seeds 7 and 11 give -1.90 … -2.06 and
+    -2.89 … -3.13.  Above n = 3000 the two-band order-2 error of a (~3e-13) reaches the direct side's
+    own error (~2e-13), so the windows stop there."""
+    from equilibrium.refinement import with_refined_frequencies
 
     field = Field.from_expression(expr)
     mu = solve(field)
-    pr = predictor(dataclasses.replace(mu, omega=omega_to_rounding(field, mu)))
-    ns = _same_phase_degrees(pr, targets, spread)
-    assert ns[-1] <= 4000
-    r = corrected_recurrence(pr, ns, 2)
-    err = np.zeros((2, 3, len(ns)))
-    for i, n in enumerate(ns):
-        rc = recurrence_coefficients(Weight(field, n), n, measure=mu)
-        for K in range(3):
-            err[0, K, i] = abs(r.a.at_order(K)[i] - rc.a[n])
-            err[1, K, i] = abs(r.b.at_order(K)[i] - rc.b[n])
-    slopes = np.polyfit(np.log(ns), np.log(err.reshape(-1, len(ns)).T), 1)[0].reshape(2, 3)
-    assert np.all(np.abs(slopes[:, 1] + 2) < 0.2), (slopes, err)
-    assert abs(slopes[1, 2] + 3) < 0.2, (slopes, err)
-    if pr.genus == 1:
-        assert abs(slopes[0, 2] + 3) < 0.25, (slopes, err)
-    else:
-        assert slopes[0, 2] < -2.6, (slopes, err)
-    assert np.all(err[:, 2] < 1e-3 * err[:, 0]) and np.all(err[:, 2, -1] < 2e-3 * err[:, 1, -1]), err
+    pr = predictor(with_refined_frequencies(mu))
+    rng = np.random.default_rng(2026)
+    starts = np.array([150, 300, 600, 1200, 2400])
+    envelope = np.zeros((2, 3, starts.size))        # (a/b, order, window)
+    floor = np.zeros(starts.size)
+    for w, t in enumerate(starts):
+        ns = np.sort(rng.choice(np.arange(t, int(1.25 * t)), 12, replace=False))
+        r = corrected_recurrence(pr, ns, 2)
+        for i, n in enumerate(ns):
+            rc = recurrence_coefficients(Weight(field, int(n)), int(n), measure=mu)
+            floor[w] = max(floor[w], rc.error_estimate)
+            for K in range(3):
+                envelope[0, K, w] = max(envelope[0, K, w], abs(r.a.at_order(K)[i] - rc.a[n]))
+                envelope[1, K, w] = max(envelope[1, K, w], abs(r.b.at_order(K)[i] - rc.b[n]))
+    assert np.all(envelope[:, 2] > 1.5 * floor), (envelope[:, 2], floor)    # every window above the direct error
+    slopes = np.polyfit(np.log(starts), np.log(envelope.reshape(-1, starts.size).T), 1)[0].reshape(2, 3)
+    assert np.all(np.abs(slopes[:, 1] + 2) < 0.15), (slopes, envelope)
+    assert np.all(np.abs(slopes[:, 2] + 3) < 0.2), (slopes, envelope)
+    assert np.all(envelope[:, 2] < 1e-3 * envelope[:, 0]), envelope
 
 
 @pytest.mark.parametrize("expr", ["x**4/4 - 3.1*x**2/2 + 0.23*x", "x**6/6 - 5*x**4/4 + 4.5*x**2/2 + 0.1*x"])

@@ -131,3 +131,24 @@ def test_near_diagonal_refusals(capsys):
         assert main(base + [shifts]) == 2
         out = capsys.readouterr()
         assert words in out.err and out.out == "" and "Traceback" not in out.err
+
+
+def test_omega_refined_beyond_leading_order(capsys):
+    """Beyond leading order Ω comes from the endpoint equations in extended precision (equilibrium.
+    refinement; the symmetric quartic's Ω = 1/2 exactly, and irrational Ω against an independent mpmath
+    solution in tests/equilibrium/test_refinement.py); order 0 keeps the double solve's Ω."""
+    base = ["predict", "--potential", "x**6/6 - 5*x**4/4 + 4.5*x**2/2 + 0.1*x", "--degrees", "3000:3001"]
+    code0, d0, _ = _json(capsys, base)
+    code2, d2, err = _json(capsys, base + ["--order", "2"])
+    assert code0 == code2 == 0, err
+    assert d0["omega_refinement"] is None
+    ref = d2["omega_refinement"]
+    assert ref["endpoint_residual"] < 1e-20 and ref["omega_error"] < 1e-29
+    assert ref["omega_shift"] == pytest.approx(np.max(np.abs(np.subtract(d2["omega"], d0["omega"]))), abs=0)
+    assert 0 < ref["omega_shift"] < 2e-15
+    code, dr, err = _json(capsys, base + ["--method", "residual"])
+    assert code == 0 and dr["omega"] == d2["omega"], err
+    # a field that is not a polynomial keeps the double Ω, and says why
+    code, dc, err = _json(capsys, ["predict", "--potential", "cosh(x) - 2.2*x**2", "--degrees", "300:301",
+                                   "--order", "1"])
+    assert len(dc["omega"]) >= 1 and "not a polynomial" in dc["omega_refinement"]["note"], dc

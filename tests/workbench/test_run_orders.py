@@ -5,6 +5,8 @@ Sources: the direct coefficients, zeros and values of the run itself (V = 3x on 
 at -1 with β = 0.3, a soft edge at 1/3, one band, so the correction constants do not depend on n).
 """
 
+import json
+
 import numpy as np
 import pytest
 
@@ -151,3 +153,20 @@ def test_gap_zeros_by_order_in_a_run(tmp_path):
     fig = draw_gap_zeros(tree)
     assert fig is not None and len(fig.axes) == 2
     assert (tmp_path / "run" / "figures" / "gap_zeros.png").exists()
+
+
+def test_several_bands_take_omega_to_rounding(tmp_path):
+    """Beyond leading order the model stage re-solves Ω in extended precision (equilibrium.refinement,
+    tested against closed forms and an independent mpmath solution in tests/equilibrium) and records it."""
+    from equilibrium import Field
+    from equilibrium.refinement import refine_frequencies
+
+    text = CASE.replace('"3*x"', '"x**4/4 - 3.1*x**2/2 + 0.23*x"').replace('[set]\nintervals = "-1:1"\n', "")
+    text = text.replace('[factor]\nkind = "jacobi"\nalpha = 0.5\nbeta = 0.3\n', "")
+    text = text.replace('order = 2\nmethod = "residual"', "order = 1").replace("[100, 200, 400]", "[100, 200]")
+    out = run_case(parse_case(text), tmp_path / "run", progress=False)
+    model = read_run(out.path).groups["model"]
+    refined = refine_frequencies(solve(Field.from_expression("x**4/4 - 3.1*x**2/2 + 0.23*x")))
+    assert np.array_equal(np.asarray(model.attrs["omega"]), refined.omega)
+    info = json.loads(model.attrs["omega_refinement"])       # dict attributes are stored as JSON text
+    assert info["omega_shift"] == refined.omega_shift and info["endpoint_residual"] < 1e-20

@@ -31,8 +31,9 @@ import sys
 import numpy as np
 
 from equilibrium.errors import InputError
-
+from equilibrium.refinement import REFINEMENT_CHECKS
 from workbench.jsontext import json_text
+from workbench.orders import measure_for_orders
 
 from ._common import add_field_options, factors_from_args, field_and_set_from_args
 
@@ -197,6 +198,8 @@ def run(args) -> int:
     field, on = field_and_set_from_args(args)
     factors = factors_from_args(args, on)
     mu = solve(field, on=on, on_failure="mark")
+    # beyond leading order the phases nΩ need Ω to rounding (workbench.orders.measure_for_orders)
+    mu, omega_note = measure_for_orders(mu, order, method)
     # marked, not raised: the table is printed with the failed checks, exit 3
     pr = predictor(mu, factors, on_failure="mark")
     _refuse_long(degrees, order, method, pr.genus, edge_count, shifts)
@@ -232,6 +235,9 @@ def run(args) -> int:
             for q in ("a", "b")},
         "support": [list(ab) for ab in mu.support],
         "omega": [float(x) for x in mu.omega],
+        # Ω re-solved in extended precision (orders >= 1, residual method, several bands): its figures
+        "omega_refinement": ({k: float(mu.checks[k]) for k in REFINEMENT_CHECKS} if "omega_error" in mu.checks
+                             else ({"note": omega_note} if omega_note else None)),
         "verified": verified,
         "checks": {k: float(v) for k, v in pred.checks.items()},
         "message": message,
