@@ -23,6 +23,8 @@ def finite_json(value: Any) -> Any:
     if isinstance(value, (list, tuple)):
         return [finite_json(v) for v in value]
     if isinstance(value, np.ndarray):
+        if value.dtype.kind == "f" and np.all(np.isfinite(value)):
+            return value.tolist()  # nothing to replace: skip the walk over every element
         return finite_json(value.tolist())
     if isinstance(value, (bool, np.bool_)):
         return bool(value)

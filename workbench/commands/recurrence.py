@@ -73,7 +73,7 @@ def run(args: argparse.Namespace) -> int:
                            time.perf_counter() - started)
     if args.json:
         print(json_text({
-            "a": rc.a.tolist(), "b": rc.b.tolist(), "error_estimate": rc.error_estimate,
+            "a": rc.a, "b": rc.b, "error_estimate": rc.error_estimate,
             "n": n, "count": count, "verified": rc.verified, "method": rc.method,
             "log_mass": rc.log_mass, "checks": dict(rc.checks),
         }))

@@ -12,7 +12,14 @@ from pathlib import Path
 import numpy as np
 
 from equilibrium.errors import InputError
-from workbench.results import text_list
+
+
+def text_list(value) -> list[str]:
+    """:func:`workbench.results.text_list`, imported on first use (h5py costs ~50 ms of every
+    command's start-up: the CLI registers this module for every command)."""
+    from workbench.results import text_list as convert
+
+    return convert(value)
 
 
 def register(subparsers) -> None:

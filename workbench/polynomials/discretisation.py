@@ -45,8 +45,9 @@ Panels
   that grows like ``exp(2π K ψ_t |Im z|)`` off the axis, the error of an
   ``m``-point rule on a panel holding ``ζ`` zeros is about
   ``min_ρ exp(π ζ (ρ - 1/ρ)/2 - 2 m log ρ)`` (Bernstein-ellipse bound: common
-  practice); ``(ζ, m) = (12, 40)`` gives ``e^{-40}``, ``(10, 34)`` gives
-  ``e^{-35}``.
+  practice); ``(ζ, m) = (40, 94)`` gives ``e^{-40}``, ``(48, 110)`` gives
+  ``e^{-43}`` (for a given bound, long panels need fewer points per zero:
+  2.35 and 2.29 here, 3.33 for (12, 40)).
 * **Soft edges.**  The quantile panel at a soft edge is ``~ζ^{2/3}`` Airy units
   long; it is split geometrically toward the edge until its pieces are two
   Airy units ``(K C)^{-2/3}`` long (``ψ_t ≈ C (distance)^{1/2}``).
@@ -115,8 +116,13 @@ class PanelLayout:
     exterior_points: int = 24
 
 
-PRIMARY = PanelLayout(12.0, 40, 0.6, 0.0, 2.0, "primary", 24)
-SECONDARY = PanelLayout(10.0, 34, 0.5, 0.43, 1.5, "secondary", 20)
+#: (ζ, m) = (40, 94) and (48, 110): bulk bounds e^-40 and e^-43 (:func:`nominal_exponent`).  Longer
+#: panels need fewer points per zero for the same bound (2.35 and 2.29 here; (12, 40) and
+#: (10, 34), the layouts before, needed 3.33 and 3.4): at n = K = 16000 the two discretisations
+#: hold 40 702 and 40 190 nodes instead of 55 824 and 57 054, and differ by 1.1e-13 (before:
+#: 1.6e-13 with compensated log weights; both the rounding floor, README)
+PRIMARY = PanelLayout(40.0, 94, 0.6, 0.0, 2.0, "primary", 24)
+SECONDARY = PanelLayout(48.0, 110, 0.5, 0.43, 1.5, "secondary", 20)
 
 
 def cut_level(degree: int) -> float:
@@ -131,7 +137,12 @@ class Discretisation:
     Attributes
     ----------
     nodes : x_i, ascending.
-    log_weights : log λ_i (the weight is never exponentiated).
+    log_weights : log λ_i rounded to double (the weight is never exponentiated).
+    log_weights_low : the remainders, ``log λ_i = log_weights + log_weights_low`` to about
+        ``eps²`` relative (double-double; :meth:`equilibrium.weight.Weight.log_weight_pair`:
+        compensated for polynomial fields, zero otherwise), or ``None`` (zero).  At
+        ``n = 10⁵`` the rounding of ``log λ_i ~ -n V`` alone is ``~10⁻¹¹``, a relative
+        error of each weight; the Stieltjes procedure starts from the pair.
     breaks : panel breaks, ascending (each panel ``[breaks[j], breaks[j+1]]``
         unless it straddles an excluded region; see ``panels``).
     panels : array (P, 2) of panel ends.
@@ -146,6 +157,7 @@ class Discretisation:
     degree: int
     level: float
     layout: PanelLayout
+    log_weights_low: np.ndarray | None = None
 
     @property
     def size(self) -> int:
@@ -493,7 +505,7 @@ def refine_by_growth(table: np.ndarray, measure, support, edges, degree: int, la
 
 
 def _panel_rule(weight: Weight, lo: float, hi: float, m: int, singular: dict[float, float]):
-    """Nodes and log weights on [lo, hi], Gauss–Jacobi for singular ends."""
+    """Nodes and log weights (a pair: :func:`_add_pair`) on [lo, hi], Gauss–Jacobi for singular ends."""
     p_lo = _lookup(singular, lo)
     p_hi = _lookup(singular, hi)
     half = 0.5 * (hi - lo)
@@ -504,8 +516,7 @@ def _panel_rule(weight: Weight, lo: float, hi: float, m: int, singular: dict[flo
         u, w = gauss_jacobi(m, p_hi, p_lo)
         omit = tuple(c for c, p in ((lo, p_lo), (hi, p_hi)) if p != 0.0)
     x = 0.5 * (lo + hi) + half * u
-    log_lambda = np.log(w) + (1.0 + p_lo + p_hi) * math.log(half) + weight.log_weight(x, omit)
-    return x, log_lambda
+    return x, _add_pair(np.log(w) + (1.0 + p_lo + p_hi) * math.log(half), weight.log_weight_pair(x, omit))
 
 
 def _lookup(singular: dict[float, float], point: float) -> float:
@@ -568,19 +579,37 @@ def discretise(weight: Weight, degree: int, layout: PanelLayout = PRIMARY, measu
         lo, hi = panels[chosen, 0][:, None], panels[chosen, 1][:, None]
         x_reg = (0.5 * (lo + hi) + 0.5 * (hi - lo) * u[None, :]).ravel()
         xs.append(x_reg)
-        logs.append((np.log(w)[None, :] + np.log(0.5 * (hi - lo))).ravel() + weight.log_weight(x_reg))
+        logs.append(_add_pair((np.log(w)[None, :] + np.log(0.5 * (hi - lo))).ravel(),
+                              weight.log_weight_pair(x_reg)))
     for lo_s, hi_s, m in table[~regular]:
         x, lg = _panel_rule(weight, float(lo_s), float(hi_s), int(m), singular)
         xs.append(x)
         logs.append(lg)
     nodes = np.concatenate(xs)
-    log_weights = np.concatenate(logs)
+    log_weights = np.concatenate([hi for hi, _ in logs])
+    low = np.concatenate([lo for _, lo in logs])
     order = np.argsort(nodes, kind="stable")
-    nodes, log_weights = nodes[order], log_weights[order]
+    nodes, log_weights, low = nodes[order], log_weights[order], low[order]
     keep = log_weights > -np.inf
     if np.any(np.isnan(log_weights)) or np.any(log_weights == np.inf):
         raise NumericalFailure("the weight is not finite at some quadrature nodes")
-    return Discretisation(nodes[keep], log_weights[keep], panels, degree, level, layout)
+    return Discretisation(nodes[keep], log_weights[keep], panels, degree, level, layout, low[keep])
+
+
+def _add_pair(rule: np.ndarray, pair: tuple[np.ndarray, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+    """``rule + (hi + lo)`` as a renormalised pair (TwoSum: :mod:`equilibrium.compensated`).
+
+    ``rule`` (log of the Gauss weight and the panel's half length) is of order one; the
+    pair is ``log w_n`` from :meth:`~equilibrium.weight.Weight.log_weight_pair`.
+    """
+    from equilibrium.compensated import two_sum
+
+    hi, lo = pair
+    with np.errstate(invalid="ignore"):
+        total, error = two_sum(hi, rule)
+        low = np.where(np.isfinite(total), lo + error, 0.0)
+        total, error = two_sum(total, low)
+    return total, np.where(np.isfinite(total), error, 0.0)
 
 
 def estimate_size(weight: Weight, degree: int, layout: PanelLayout = PRIMARY, bands: int = 1) -> int:

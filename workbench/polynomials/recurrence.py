@@ -112,12 +112,34 @@ class RecurrenceCoefficients:
         )
 
 
+#: log 2 as a pair of doubles (hi = fl(log 2); hi + lo = log 2 to 1e-33)
+_LN2_HI, _LN2_LO = math.log(2.0), 2.319046813846299558e-17
+
+
 def _initial(disc: Discretisation):
-    """``x``, the mantissas ``(m_0, m_{-1})``, exponents ``e`` and ``2^{2e}`` of ``r_0 = sqrt(λ/Σλ)``."""
+    """``x``, the mantissas ``(m_0, m_{-1})``, exponents ``e`` and ``2^{2e}`` of ``r_0 = sqrt(λ/Σλ)``.
+
+    ``h = (log λ_i - log Σλ) / (2 log 2)`` is formed in double-double from the pair
+    ``log_weights + log_weights_low`` (:class:`.discretisation.Discretisation`):
+    ``e = ⌊h⌋`` and ``m = 2^{h - e}``.  In plain double ``h`` (up to ``~10⁵`` at
+    ``n = 10⁵``) would carry an absolute rounding of ``~10⁻¹¹``, i.e. a relative error
+    of every ``r_0`` of that size; in double-double the only rounding left is that of
+    ``2^{h - e}`` (one ulp).  Error-free transformations: :mod:`equilibrium.compensated`.
+    """
+    from equilibrium.compensated import two_prod, two_sum
+
     x = disc.nodes
-    half = 0.5 * (disc.log_weights - disc.log_mass) / math.log(2.0)
-    exponent = np.floor(half).astype(np.int64)
-    m_cur = np.exp2(half - exponent)           # r_0 = sqrt(λ/Σλ) = m_cur · 2^exponent
+    low = disc.log_weights_low if disc.log_weights_low is not None else np.zeros_like(disc.log_weights)
+    d, d_low = two_sum(disc.log_weights, -disc.log_mass)      # log λ - log Σλ = d + d_low
+    d_low = d_low + low
+    twice_hi, twice_lo = 2.0 * _LN2_HI, 2.0 * _LN2_LO          # 2 log 2 (exact doubling)
+    h = d / twice_hi
+    product, product_error = two_prod(h, twice_hi)
+    remainder = ((d - product) - product_error) + d_low - h * twice_lo
+    h_low = remainder / twice_hi                                 # h + h_low = (d + d_low) / (2 log 2)
+    exponent = np.floor(h)
+    m_cur = np.exp2((h - exponent) + h_low)    # r_0 = sqrt(λ/Σλ) = m_cur · 2^exponent (h - ⌊h⌋ is exact)
+    exponent = exponent.astype(np.int64)
     m_prev = np.zeros_like(x)
     scale = np.ldexp(1.0, np.clip(2 * exponent, -2000, 2000))  # 2^(2e); 0 below 2^-1074
     return x, m_cur, m_prev, exponent, scale

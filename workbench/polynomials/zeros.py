@@ -17,7 +17,6 @@ from dataclasses import dataclass, field as dataclass_field
 from typing import Mapping
 
 import numpy as np
-from scipy.linalg import eigh_tridiagonal
 
 from equilibrium.errors import InputError
 from equilibrium.verification import failure_message, failure_policy, settle
@@ -72,6 +71,8 @@ def zeros(rc: RecurrenceCoefficients, degree: int | None = None) -> np.ndarray:
     K = _degree(rc, degree)
     if K == 1:
         return np.array([rc.b[0]])
+    from scipy.linalg import eigh_tridiagonal  # imported here: scipy.linalg costs ~0.1 s of start-up
+
     return eigh_tridiagonal(rc.b[:K], rc.a[1:K], eigvals_only=True)
 
 
@@ -89,6 +90,8 @@ def gauss_rule(rc: RecurrenceCoefficients, degree: int | None = None, *, on_fail
     log_sum = wmax + math.log(float(np.sum(np.exp(log_w - wmax))))
     checks = {"log_mass_difference": abs(log_sum - rc.log_mass)}
     if K <= 400:
+        from scipy.linalg import eigh_tridiagonal
+
         _, vectors = eigh_tridiagonal(rc.b[:K], rc.a[1:K]) if K > 1 else (None, np.ones((1, 1)))
         # eigenvector components carry absolute (not relative) accuracy: compare normalised weights absolutely
         first = vectors[0] ** 2
