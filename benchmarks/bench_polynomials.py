@@ -19,8 +19,9 @@ Three tables (and a fourth on its own).
 3. ``--large``: n = K = 10⁵ through the CLI: wall time, CPU time and the peak
    resident memory of the child process, error estimate.
 4. ``--floor K ...``: the rounding floor of the coefficients at these K (see
-   :func:`table_floor`): the same discretisation summed in another order and with
-   its inputs moved by one ulp, beside the two-discretisation error estimate.
+   :func:`table_floor`): the same discretisation summed in another order, with its
+   log weights moved by one ulp or evaluated in plain double, with its nodes moved
+   by one ulp (weights recomputed, or kept), beside the two-discretisation estimate.
 
 The BLAS/OpenMP thread counts are set to 1 before numpy is imported; the
 recurrence itself runs its two discretisations on two threads (``WORKBENCH_THREADS``).

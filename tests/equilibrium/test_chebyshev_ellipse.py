@@ -97,3 +97,29 @@ def test_laurent_split_of_two_poles(lower, upper):
     series = np.array([0.3, -1.0, 0.25, 0.0, 2.0])
     t = (E.u + 1 / E.u) / 2
     assert np.allclose(E.on_ellipse(series), C.chebval(t, series), rtol=1e-13, atol=1e-13)
+
+
+def test_dct2_is_scipys_dct_bit_for_bit_without_importing_scipy_fft():
+    # equilibrium.chebyshev.dct2 runs scipy's pocketfft routine loaded from its extension file:
+    # the numbers must be scipy.fft.dct(type=2)'s exactly (1-D and along the last axis of 2-D)
+    import subprocess
+    import sys
+
+    import scipy.fft
+
+    from equilibrium.chebyshev import dct2
+
+    rng = np.random.default_rng(5)
+    for shape in [(1,), (2,), (3,), (7,), (64,), (65,), (127,), (1000,), (5, 33), (3, 4, 16)]:
+        values = rng.standard_normal(shape)
+        assert np.array_equal(dct2(values), scipy.fft.dct(values, type=2, axis=-1)), shape
+    # DCT-II by its definition y_k = 2 Σ_j v_j cos(π k (2j+1)/(2N)) (scipy.fft.dct documentation)
+    values = rng.standard_normal(9)
+    k, j = np.meshgrid(np.arange(9), np.arange(9), indexing="ij")
+    assert np.max(np.abs(dct2(values) - 2 * np.cos(np.pi * k * (2 * j + 1) / 18) @ values)) < 1e-13
+    script = ("import sys, numpy as np\nfrom equilibrium.chebyshev import dct2\nfrom equilibrium import Field, solve\n"
+              "solve(Field.from_expression('x**4/4 - 1.5*x**2 + 0.2*x'))\n"
+              "print(sorted(m for m in sys.modules if m.startswith('scipy')))")
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip() == "[]"  # a polynomial field is solved without importing scipy
