@@ -19,35 +19,26 @@ from __future__ import annotations
 
 import numpy as np
 
+from equilibrium.compensated import two_prod
+
 __all__ = ["exact_product", "reduced_phase"]
-
-_SPLITTER = 134217729.0          # 2^27 + 1: splits a double into two halves of 26 bits
-
-
-def _split(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    c = _SPLITTER * a
-    hi = c - (c - a)
-    return hi, a - hi
 
 
 def exact_product(a, b) -> tuple[np.ndarray, np.ndarray]:
     """``(p, e)`` with ``p = fl(a b)`` and ``a b = p + e`` exactly (Dekker 1971), elementwise.
 
-    Valid while ``|a b|`` stays far from overflow and underflow (here: degrees up to 10¹⁵ times
-    frequencies in [0, 1]).
+    :func:`equilibrium.compensated.two_prod` (the one home of the error-free transformations)
+    on the broadcast arrays.  Valid while ``|a b|`` stays far from overflow and underflow
+    (here: degrees up to 10¹⁵ times frequencies in [0, 1]).
 
     Examples
     --------
     >>> p, e = exact_product(np.array([10.0 ** 9]), np.array([0.1]))
     >>> float(p[0]), float(e[0]) != 0.0
-    (100000000.00000001, True)
+    (100000000.0, True)
     """
     a, b = np.broadcast_arrays(np.asarray(a, dtype=float), np.asarray(b, dtype=float))
-    p = a * b
-    ah, al = _split(a)
-    bh, bl = _split(b)
-    e = ((ah * bh - p) + ah * bl + al * bh) + al * bl
-    return p, e
+    return two_prod(a, b)
 
 
 def reduced_phase(n, omega, omega_low=None, modulus: float = 1.0) -> np.ndarray:

@@ -113,6 +113,8 @@ def test_dct2_is_scipys_dct_bit_for_bit_without_importing_scipy_fft():
     for shape in [(1,), (2,), (3,), (7,), (64,), (65,), (127,), (1000,), (5, 33), (3, 4, 16)]:
         values = rng.standard_normal(shape)
         assert np.array_equal(dct2(values), scipy.fft.dct(values, type=2, axis=-1)), shape
+    values = rng.standard_normal(17) + 1j * rng.standard_normal(17)
+    assert np.array_equal(dct2(values), scipy.fft.dct(values, type=2, axis=-1))
     # DCT-II by its definition y_k = 2 Σ_j v_j cos(π k (2j+1)/(2N)) (scipy.fft.dct documentation)
     values = rng.standard_normal(9)
     k, j = np.meshgrid(np.arange(9), np.arange(9), indexing="ij")
