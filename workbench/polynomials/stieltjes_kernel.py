@@ -33,10 +33,13 @@ Node by node the arithmetic is that of the numpy form, operation for operation
 ``w = v · v · 2^{2e}``; compiled with ``-ffp-contract=off``, so no fused
 multiply-add), hence every node's mantissas are the numpy form's floating-point
 numbers given the same ``a_k, b_k``.  Only the order of summation differs: the
-sums are taken over blocks of 2048 nodes in vector lanes, then block by block
-in order; the rounding error of a sum is ``O((128 + M/2048) ε)`` of the sum of
-its absolute values, comparable to numpy's pairwise sums (Higham, *Accuracy
-and Stability of Numerical Algorithms*, SIAM 2002, §4.2).  The per-node
+sums are taken over blocks of 2048 nodes into 32 partial sums (node i into sum
+i mod 32, so that consecutive additions do not wait on each other), added
+pairwise, then block by block in order; the rounding error of a sum is
+``O((64 + 5 + M/2048) ε)`` of the sum of its absolute values, comparable to
+numpy's pairwise sums (Higham, *Accuracy and Stability of Numerical
+Algorithms*, SIAM 2002, §4.2).  The loop is compiled in AVX-512, AVX2 and
+baseline copies, the CPU choosing at load time (GCC ``target_clones``).  The per-node
 exponents are renormalised every few steps exactly as in the numpy form
 (powers of two: exact).
 """
