@@ -217,3 +217,32 @@ def check_expression(text: str, parameters, what: str) -> float:
         print(f"workbench: note: {what}: the symbolic derivatives V', V'' take about {_duration(seconds)}",
               file=sys.stderr, flush=True)
     return seconds
+
+
+#: seconds per mpmath quadrature and band end in the Ω refinement (equilibrium.refinement), measured
+#: at load 3: three bands (25 quadratures of 6 ends) 0.9 s, five bands (73 of 10 ends) 1.9 s
+REFINEMENT_SECONDS_PER_QUAD_END = 6e-3
+
+
+def refinement_seconds(bands: int, degree: int) -> float:
+    """Estimated seconds of the extended-precision Ω of a field of polynomial ``degree`` with ``bands``.
+
+    Newton needs ``U + 3`` evaluations of the equations (``U = degree - 1 + bands`` unknowns: a
+    forward-difference Jacobian and two steps), each with a quadrature per gap, then one per band.
+    """
+    unknowns = max(degree - 1, 0) + bands
+    quadratures = (unknowns + 3) * (bands - 1) + bands
+    return REFINEMENT_SECONDS_PER_QUAD_END * quadratures * 2 * bands
+
+
+def refinement_over_budget(bands: int, degree: int) -> str:
+    """Empty when the Ω refinement of such a field fits the time budget (announced on stderr above
+    :data:`NOTICE_SECONDS`), else the reason it is skipped, with the estimate."""
+    seconds = refinement_seconds(bands, degree)
+    if seconds > TIME_BUDGET_S and limits_enforced():
+        return (f"Omega in extended precision would take about {_duration(seconds)} (estimate; the budget "
+                f"is {_duration(TIME_BUDGET_S)}; WORKBENCH_LIMITS=off runs it anyway)")
+    if seconds >= NOTICE_SECONDS:
+        print(f"workbench: note: Omega in extended precision ({bands} bands) takes about {_duration(seconds)}",
+              file=sys.stderr, flush=True)
+    return ""

@@ -46,17 +46,24 @@ def measure_for_orders(mu, order: int, method: str) -> tuple[object, str]:
 
     Returns ``(measure, note)``: the note is empty when Ω was refined or nothing needed it, else it
     says why the double Ω is kept (a field that is not a polynomial, a singular measure, no
-    convergence) -- the residual method's phase error then carries that Ω's error.
+    convergence, an estimated cost above the time budget: :func:`workbench.limits.
+    refinement_over_budget`) -- the residual method's phase error then carries that Ω's error.
     """
     if (order == 0 and method == "series") or len(mu.support) < 2:
         return mu, ""
     from equilibrium.errors import NumericalFailure
     from equilibrium.refinement import with_refined_frequencies
+    from workbench.limits import refinement_over_budget
 
+    kept = f"the double Omega is kept (its error {mu.checks.get('mass_error', 0.0):.1g} grows like n in the phases)"
+    if mu.field.polynomial is not None:
+        over = refinement_over_budget(len(mu.support), len(mu.field.polynomial) - 1)
+        if over:
+            return mu, f"{over}; {kept}"
     try:
         return with_refined_frequencies(mu), ""
     except (InputError, NumericalFailure) as exc:
-        return mu, f"{exc}; the double Omega is kept (its error {mu.checks.get('mass_error', 0.0):.1g} grows like n in the phases)"
+        return mu, f"{exc}; {kept}"
 
 
 def check_model_request(case, mu) -> None:

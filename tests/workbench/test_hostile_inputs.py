@@ -389,3 +389,18 @@ def test_output_onto_a_fifo_or_device_is_refused(tmp_path, capsys):
 ])
 def test_numbers_the_expressions_would_refuse(argv, fragment, capsys):
     _refused(argv, capsys, fragment)
+
+
+def test_omega_refinement_of_many_bands_is_budgeted(monkeypatch, capsys):
+    """The extended-precision Ω (equilibrium.refinement) is estimated before it runs: within the budget
+    for the fields of the tests (three bands 0.9 s and five bands 1.9 s measured, estimated 0.9 s and
+    4.4 s), kept to the double Ω with the estimate beyond it, announced on stderr in between."""
+    from workbench import limits
+
+    assert limits.refinement_seconds(3, 6) == pytest.approx(0.9, rel=0.05)
+    assert limits.refinement_over_budget(3, 6) == ""
+    over = limits.refinement_over_budget(40, 80)
+    assert "would take about" in over and "budget" in over
+    assert limits.refinement_over_budget(12, 24) == "" and "takes about" in capsys.readouterr().err
+    monkeypatch.setenv("WORKBENCH_LIMITS", "off")
+    assert limits.refinement_over_budget(40, 80) == ""
