@@ -97,6 +97,8 @@ def _applicable(measure) -> str:
         return "the field is not a polynomial (its V' is a Chebyshev fit, not exact)"
     if not measure.classification.regular:
         return f"the measure is {measure.classification} (the endpoint equations degenerate there)"
+    if not measure.positive:
+        return "the density changes sign (the band masses here integrate |ψ|)"
     return ""
 
 
@@ -105,7 +107,8 @@ def refine_frequencies(measure, digits: int = 32, max_steps: int = 8) -> Frequen
 
     Parameters
     ----------
-    measure : EquilibriumMeasure of a polynomial field (positive or signed, soft and hard edges).
+    measure : EquilibriumMeasure of a polynomial field with a positive density (soft and hard edges;
+        a signed measure when its density is ≥ 0).
     digits : decimal digits of the result's working precision (≥ 20; the double results are
         correctly rounded from it).
     max_steps : Newton steps allowed from the double solution.
@@ -117,7 +120,7 @@ def refine_frequencies(measure, digits: int = 32, max_steps: int = 8) -> Frequen
     Raises
     ------
     InputError
-        The field is not a polynomial, or the measure is singular.
+        The field is not a polynomial, the measure is singular, or its density changes sign.
     NumericalFailure
         Newton's method did not converge from the double solution, or the refined ends moved by more
         than 1e-8 (the double solution was not near this root).

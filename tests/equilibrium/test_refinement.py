@@ -66,3 +66,16 @@ def test_with_refined_frequencies_and_refusals():
     assert with_refined_frequencies(one) is one                       # one band: no Ω
     with pytest.raises(InputError, match="not a polynomial"):
         refine_frequencies(solve(Field.from_expression("cosh(x)")))
+
+
+def test_signed_measures():
+    from equilibrium import solve_signed
+
+    # a positive signed measure on a given set (four hard ends): refined like any other
+    mu = solve_signed(Field.from_expression("x**2"), IntervalSet.parse("-1:-0.5,0.5:1.2"))
+    r = refine_frequencies(mu)
+    assert mu.positive and abs(r.omega[0] - mu.omega[0]) <= max(mu.checks["mass_error"], 2 ** -52)
+    # a density that changes sign is refused with the reason (its masses are not those of |ψ|)
+    negative = solve_signed(Field.from_expression("x**4/4 - 3*x**2/2"), IntervalSet.parse("-3:-0.5,0.5:3"))
+    with pytest.raises(InputError, match="changes sign"):
+        refine_frequencies(negative)
