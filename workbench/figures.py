@@ -41,8 +41,8 @@ from typing import Callable, Iterable
 import numpy as np
 
 from workbench.results import Group
-from workbench.style import (DASHES, MARKERS, SERIES, journal_style, legend_below, new_figure,
-                             set_log_axis, thin_tick_labels)
+from workbench.style import (DASHES, MARKERS, SERIES, journal_style, laid_out_once, legend_below,
+                             new_figure, set_log_axis, thin_tick_labels)
 
 __all__ = [
     "FIGURES",
@@ -727,7 +727,10 @@ COMMAND_FIGURES = {"workbench-equilibrium": ("density",), "workbench-recurrence"
 
 
 def save_figure(fig, stem: Path, formats: Iterable[str], dpi: int = 300) -> list[Path]:
-    """Save ``fig`` as ``stem.<fmt>`` for each format, each file written then renamed."""
+    """Save ``fig`` as ``stem.<fmt>`` for each format, each file written then renamed.
+
+    The figure is laid out once, at ``dpi``, for all the formats (:func:`workbench.style.laid_out_once`).
+    """
     import logging
 
     import os
@@ -741,24 +744,25 @@ def save_figure(fig, stem: Path, formats: Iterable[str], dpi: int = 300) -> list
     level = font_log.level
     font_log.setLevel(logging.ERROR)
     try:
-        for fmt in formats:
-            target = stem.with_suffix("." + fmt)
-            # a temporary name of its own (owned, with the pid): two runs drawing into one folder never share it
-            fd, tmp = temporary_beside(target)
-            os.fchmod(fd, new_file_mode())  # the permissions a plain open() would give
-            try:
-                with os.fdopen(fd, "wb") as stream:
-                    fig.savefig(stream, format=fmt, dpi=dpi, metadata=_metadata(fmt))
-                os.replace(tmp, target)
-            except OSError as exc:
-                from equilibrium.errors import InputError
+        with laid_out_once(fig, dpi):
+            for fmt in formats:
+                target = stem.with_suffix("." + fmt)
+                # a temporary name of its own (owned, with the pid): two runs drawing into one folder never share it
+                fd, tmp = temporary_beside(target)
+                os.fchmod(fd, new_file_mode())  # the permissions a plain open() would give
+                try:
+                    with os.fdopen(fd, "wb") as stream:
+                        fig.savefig(stream, format=fmt, dpi=dpi, metadata=_metadata(fmt))
+                    os.replace(tmp, target)
+                except OSError as exc:
+                    from equilibrium.errors import InputError
 
-                raise InputError(f"cannot write the figure {target}: {exc.strerror or exc}; "
-                                 "free space or choose another folder") from None
-            finally:
-                if os.path.exists(tmp):
-                    os.remove(tmp)
-            paths.append(target)
+                    raise InputError(f"cannot write the figure {target}: {exc.strerror or exc}; "
+                                     "free space or choose another folder") from None
+                finally:
+                    if os.path.exists(tmp):
+                        os.remove(tmp)
+                paths.append(target)
     finally:
         font_log.setLevel(level)
     return paths
@@ -775,7 +779,18 @@ def _metadata(fmt: str) -> dict[str, str]:
 
 def draw_all(tree: Group, directory: str | Path, *, formats: Iterable[str] = ("pdf", "png"),
              which: Iterable[str] | None = None, dpi: int = 300) -> dict[str, list[Path]]:
-    """Draw every available figure of ``tree`` into ``directory``; name -> files written."""
+    """Draw every available figure of ``tree`` into ``directory``; name -> files written.
+
+    The figures are independent files: with a second core free (:func:`workbench.forked.can_fork`)
+    a forked child draws some of them while this process draws the others, each taking the next
+    figure from a shared queue as it finishes one (what the child leaves undone, this process
+    draws).  Every file is the same as when one process draws them all.
+    """
+    import importlib
+    import os
+
+    from workbench.forked import fork_call
+
     formats = tuple(formats)
     directory = Path(directory)
     names = list(which) if which is not None else list(FIGURES)
@@ -783,11 +798,44 @@ def draw_all(tree: Group, directory: str | Path, *, formats: Iterable[str] = ("p
         names = ["phase"]
     elif tree.attrs.get("format") in COMMAND_FIGURES:
         names = list(COMMAND_FIGURES[tree.attrs["format"]])
-    written: dict[str, list[Path]] = {}
-    with journal_style():
-        for name in names:
-            fig = FIGURES[name](tree)
-            if fig is None:
-                continue
-            written[name] = save_figure(fig, directory / name, formats, dpi)
-    return written
+
+    def draw(todo) -> dict[str, list[Path] | None]:
+        done: dict[str, list[Path] | None] = {}
+        # figures made at the PNG resolution: what is measured while building them is what is saved
+        with journal_style(dpi=dpi):
+            for name in todo:
+                fig = FIGURES[name](tree)
+                done[name] = None if fig is None else save_figure(fig, directory / name, formats, dpi)
+        return done
+
+    def from_queue(reader: int):
+        # one byte per figure: a read of one byte from a pipe hands each figure to one process
+        while byte := os.read(reader, 1):
+            yield names[byte[0]]
+
+    child = None
+    if len(names) > 1:
+        # matplotlib and the backends imported once, here, for both processes
+        import matplotlib.figure  # noqa: F401
+
+        for fmt in formats:
+            importlib.import_module("matplotlib.backends.backend_" + ("pdf" if fmt == "pdf" else "agg"))
+        reader, writer = os.pipe()
+        try:
+            os.write(writer, bytes(range(len(names))))   # a few bytes: never blocks
+        finally:
+            os.close(writer)
+        try:
+            child = fork_call(lambda: draw(from_queue(reader)))
+            done = draw(from_queue(reader))
+            theirs = child.result() if child is not None else {}
+        finally:
+            if child is not None:
+                child.cancel()
+            os.close(reader)
+        done.update(theirs or {})
+        # a child that failed: its figures are drawn here (a failure is then raised here)
+        done.update(draw([name for name in names if name not in done]))
+    else:
+        done = draw(names)
+    return {name: done[name] for name in names if done.get(name) is not None}

@@ -705,6 +705,9 @@ def _bar(total: int, initial: int, description: str, unit: str, progress: bool):
 
     from tqdm import tqdm
 
+    # no monitor thread (it only retunes the refresh rate): a run stays one thread between its
+    # stages, so that its helpers may fork (workbench.forked)
+    tqdm.monitor_interval = 0
     return tqdm(total=total, initial=initial, desc=description, unit=unit, file=sys.stderr,
                 disable=not progress or not sys.stderr.isatty(), leave=False)
 
@@ -780,10 +783,9 @@ def model_predictions(case: Case, mu, ns: Sequence[int],
     ``step(k)`` is called after each piece of work, :func:`model_steps` in all (a progress bar).
     """
     step = step or (lambda k=1: None)
-    from gfunction.edge_zeros import edge_scaling_zeros, edge_zeros
-    from gfunction.local import edge_parametrix
-    from gfunction.polynomial_form import value_form
     from gfunction.predict import predictor
+
+    from workbench.forked import fork_call
 
     ns_arr = np.asarray(sorted(ns), dtype=np.int64)
     node = Group(attrs={"description": "predictions of the model problem (a, b, zeros: leading order, "
@@ -801,6 +803,24 @@ def model_predictions(case: Case, mu, ns: Sequence[int],
         node.attrs["omega_refinement_skipped"] = omega_note
     pred = predictor(mu, factor=factors, on_failure="mark")
     step(1)
+    # the bulk zeros (about half of this stage) need the predictor alone: a forked child finds them
+    # while this process does the rest (workbench.forked; None: found here, in the loop below)
+    bulk_child = fork_call(lambda: [np.asarray(pred.bulk_zeros(int(n)), dtype=float) for n in ns_arr])
+    try:
+        return _model_predictions(case, mu, ns_arr, node, pred, factors, bulk_child, step)
+    finally:
+        if bulk_child is not None:
+            bulk_child.cancel()
+
+
+def _model_predictions(case: Case, mu, ns_arr: np.ndarray, node: Group, pred, factors, bulk_child,
+                       step) -> ModelSide:
+    """The body of :func:`model_predictions` after the predictor is built, filling ``node``
+    (``bulk_child``: the bulk zeros being found by a forked child, or None)."""
+    from gfunction.edge_zeros import edge_scaling_zeros, edge_zeros
+    from gfunction.local import edge_parametrix
+    from gfunction.polynomial_form import value_form
+
     prediction = pred.predict(ns_arr, on_failure="mark")
     step(1)
     unverified = [prediction.message] if not prediction.verified else []
@@ -859,10 +879,14 @@ def model_predictions(case: Case, mu, ns: Sequence[int],
         unverified += _log_hankel_model(node, mu, factors or (), ns_arr)
     step(1)
 
-    bulk = []
-    for n in ns_arr:
-        bulk.append(np.asarray(pred.bulk_zeros(int(n)), dtype=float))
-        step(1)
+    bulk = bulk_child.result() if bulk_child is not None else None
+    if bulk is None:
+        bulk = []
+        for n in ns_arr:
+            bulk.append(np.asarray(pred.bulk_zeros(int(n)), dtype=float))
+            step(1)
+    else:
+        step(len(ns_arr))
     width = max([b.size for b in bulk] + [1])
     padded = np.full((len(bulk), width), np.nan)
     for i, b in enumerate(bulk):

@@ -71,8 +71,14 @@ RC = {
 
 
 @contextlib.contextmanager
-def journal_style() -> Iterator[None]:
-    """Context in which matplotlib uses the journal style (Agg backend)."""
+def journal_style(dpi: float | None = None) -> Iterator[None]:
+    """Context in which matplotlib uses the journal style (Agg backend).
+
+    ``dpi`` (default ``RC["figure.dpi"]``) is the resolution of the figures made inside:
+    give the PNG resolution, so that the measurements made while a figure is built
+    (legend widths, colliding tick labels) are those of the saved file and share its
+    text and mathtext caches.
+    """
     # Figures are built as matplotlib.figure.Figure objects without pyplot, so
     # they render through the Agg canvas and no GUI backend or global figure
     # registry is ever involved.
@@ -81,6 +87,8 @@ def journal_style() -> Iterator[None]:
 
     rc = dict(RC)
     rc["axes.prop_cycle"] = cycler(color=list(SERIES))
+    if dpi is not None:
+        rc["figure.dpi"] = dpi
     with matplotlib.rc_context(rc):
         yield
 
@@ -153,16 +161,44 @@ def thin_tick_labels(fig, axis) -> None:
 
 
 def _renderer(fig, draw: bool = True):
-    """An Agg renderer of ``fig``; ``draw=False`` skips drawing (enough to measure a text or a
-    legend, whose size does not depend on the layout; a full draw costs a whole figure's text
-    layout and mathtext parsing)."""
+    """An Agg renderer of ``fig`` at the figure's dpi.
+
+    ``draw=True`` first lays the figure out and places every artist without painting a
+    pixel (``Figure.draw_without_rendering``: the sizes and places of texts are those of a
+    full draw); ``draw=False`` skips that too (enough to measure a text or a legend, whose
+    size does not depend on the layout).
+    """
     from matplotlib.backends.backend_agg import FigureCanvasAgg
 
     fig = fig.figure  # the root figure of a SubFigure (a Figure is its own)
     canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
     if draw:
-        canvas.draw()
+        fig.draw_without_rendering()
     return canvas.get_renderer()
+
+
+@contextlib.contextmanager
+def laid_out_once(fig, dpi: float) -> Iterator[None]:
+    """Lay ``fig`` out once at ``dpi`` and keep that layout while saving in several formats.
+
+    ``savefig`` with a layout engine draws every file twice (a draw without output to
+    run the constrained layout, then the draw that writes); inside this context the layout
+    is run once, at the PNG resolution, and each file costs one draw.  The PDF takes the
+    layout measured at ``dpi`` (text sizes scale with the dpi, so the layout is the same
+    up to the hinting of the glyphs at 72 dpi, a few hundredths of a point).
+    """
+    engine = fig.get_layout_engine()
+    saved = fig.dpi
+    try:
+        if engine is not None:
+            fig.set_dpi(dpi)
+            _renderer(fig)
+            fig.set_layout_engine("none")
+        yield
+    finally:
+        if engine is not None:
+            fig.set_layout_engine(engine)
+        fig.set_dpi(saved)
 
 
 def legend_below(fig, handles, labels, ncol: int = 2, **kwargs):
