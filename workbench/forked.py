@@ -35,13 +35,7 @@ import sys
 import threading
 from typing import Any, Callable
 
-
-def usable_cores() -> int:
-    """Cores this process may run on (the affinity mask where the system has one)."""
-    try:
-        return len(os.sched_getaffinity(0))
-    except (AttributeError, OSError):  # not on Linux
-        return os.cpu_count() or 1
+from workbench.limits import usable_cores
 
 
 def can_fork() -> bool:
