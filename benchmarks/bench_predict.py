@@ -2,12 +2,16 @@
 
     python benchmarks/bench_predict.py [--rounds R] [--against DIR] [--degrees N] [--memory]
 
-For the shipped two- and three-band cases (genus 1 and 2) and a five-band field of
-our own (genus 4), ``Predictor.predict`` (a, b, gap zeros, band counts) for 1000
-consecutive degrees (200 in genus 4): the best of three calls after a warm-up, in a
-fresh process per round.  With ``--against DIR`` the same timing runs with
-``PYTHONPATH=DIR`` (another checkout, e.g. the main branch) in the same rounds,
-alternating, so that each round gives a ratio on the same machine load.
+For the shipped two- and three-band cases (genus 1 and 2), a four-band field (genus 3) and a
+five-band field (genus 4) of our own, ``Predictor.predict`` (a, b, gap zeros, band counts) for
+1000 consecutive degrees (200 in genus 4): the best of three calls after a warm-up ("repeated":
+the predictor keeps its degree-independent tables between calls), and the first call on a
+freshly built predictor ("first call": those tables built inside it), in a fresh process per
+round.  With ``--against DIR`` the same timing runs with ``PYTHONPATH=DIR`` in ``DIR`` (another
+checkout, e.g. the main branch; each child checks that it imports its own checkout: run from a
+checkout's root, ``python -c`` would otherwise import that checkout whatever ``PYTHONPATH`` says)
+in the same rounds, alternating, so that each round gives a ratio on the same machine load; the
+load average is printed at the start and at the end.
 
 ``--memory``: the peak traced memory (tracemalloc) of ``predict`` for 2·10⁴ and
 10⁵ degrees of the three-band case (issue 16: independent of the number of degrees).
@@ -25,6 +29,7 @@ from pathlib import Path
 import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
+FOUR_BAND = "10*((x**2-4)**2*(x**2-1)**2/40 + 0.005*x)"        # four wells: genus 3 (our scenario)
 FIVE_BAND = "10*((x**2-4)**2*(x**2-1)**2*x**2/40 + 0.005*x)"   # five wells: genus 4 (our scenario)
 
 _CHILD = r"""
@@ -32,19 +37,24 @@ import json, sys, time, tomllib
 import numpy as np
 from equilibrium import Field, IntervalSet, solve
 from gfunction import predictor
-root, five, degrees = sys.argv[1], sys.argv[2], int(sys.argv[3])
+root, four, five, degrees = sys.argv[1], sys.argv[2], sys.argv[3], int(sys.argv[4])
 fields = {}
 for name in ("two_band_irrational", "three_band"):
     d = tomllib.load(open(f"{root}/cases/{name}.toml", "rb"))
     fields[name] = Field.from_expression(d["field"]["expression"], d["field"].get("parameters", {}))
+fields["four_band (genus 3)"] = Field.from_expression(four)
 fields["five_band (genus 4)"] = Field.from_expression(five)
 out = {}
 for name, f in fields.items():
-    pred = predictor(solve(f, on=IntervalSet.real_line()))
+    measure = solve(f, on=IntervalSet.real_line())
+    pred = predictor(measure)
     N = np.arange(1000, 1000 + (degrees if pred.genus < 4 else degrees // 5))
     pred.predict(N[:50])
     best = min((lambda t0: (pred.predict(N), time.perf_counter() - t0)[1])(time.perf_counter()) for _ in range(3))
-    out[name] = {"genus": pred.genus, "degrees": len(N), "seconds": best}
+    fresh = predictor(measure)
+    t0 = time.perf_counter()
+    fresh.predict(N)
+    out[name] = {"genus": pred.genus, "degrees": len(N), "seconds": best, "first": time.perf_counter() - t0}
 print(json.dumps(out))
 """
 
@@ -65,10 +75,23 @@ for count in (20000, 100000):
 """
 
 
+def _run(checkout: Path, code: str, *args: str) -> subprocess.CompletedProcess:
+    """``python -c code args`` importing the packages of ``checkout``.
+
+    ``python -c`` puts the working folder first on ``sys.path``, before ``PYTHONPATH``: run from
+    another checkout's root, the child would import that one.  So the child runs in ``checkout``
+    and refuses to time anything when ``gfunction`` does not come from there.
+    """
+    check = (f"import gfunction, pathlib, sys; assert pathlib.Path(gfunction.__file__).resolve().parents[1] == "
+             f"pathlib.Path({str(checkout.resolve())!r}), gfunction.__file__\n")
+    return subprocess.run([sys.executable, "-c", check + code, *args], capture_output=True, text=True,
+                          env=dict(os.environ, PYTHONPATH=str(checkout)), cwd=checkout)
+
+
 def timing(checkout: Path, degrees: int) -> dict:
-    env = dict(os.environ, PYTHONPATH=str(checkout))
-    done = subprocess.run([sys.executable, "-c", _CHILD, str(checkout), FIVE_BAND, str(degrees)],
-                          capture_output=True, text=True, env=env, check=True)
+    done = _run(checkout, _CHILD, str(checkout), FOUR_BAND, FIVE_BAND, str(degrees))
+    if done.returncode:
+        raise SystemExit(f"timing in {checkout} failed: {done.stderr.strip().splitlines()[-1]}")
     return json.loads(done.stdout)
 
 
@@ -79,6 +102,8 @@ def main() -> None:
     parser.add_argument("--degrees", type=int, default=1000)
     parser.add_argument("--memory", action="store_true")
     args = parser.parse_args()
+    if args.against is not None:
+        args.against = args.against.resolve()
     print(f"Predictor.predict, best of 3 per round, {args.rounds} rounds; load average {os.getloadavg()[0]:.2f}")
     rows: dict[str, list] = {}
     for _ in range(args.rounds):
@@ -86,25 +111,32 @@ def main() -> None:
         there = timing(args.against, args.degrees) if args.against else None
         for name, value in here.items():
             rows.setdefault(name, []).append((value, there[name] if there else None))
-    head = f"{'case':<22} {'genus':>5} {'degrees':>7} {'seconds (range)':>18}"
+    head = f"{'case':<22} {'genus':>5} {'degrees':>7} {'repeated s (range)':>18}"
+    if args.against:
+        head += f" {'against (range)':>18} {'speed-up (range)':>18}"
+    head += f" {'first call s':>18}"
     if args.against:
         head += f" {'against (range)':>18} {'speed-up (range)':>18}"
     print(head)
+
+    def span(values, digits=3):
+        return f"{min(values):>8.{digits}f}-{max(values):<9.{digits}f}"
+
     for name, pairs in rows.items():
-        mine = [p[0]["seconds"] for p in pairs]
-        line = (f"{name:<22} {pairs[0][0]['genus']:>5} {pairs[0][0]['degrees']:>7} "
-                f"{min(mine):>8.3f}-{max(mine):<9.3f}")
-        if args.against:
-            theirs = [p[1]["seconds"] for p in pairs]
-            ratio = [t / m for m, t in zip(mine, theirs)]
-            line += f" {min(theirs):>8.3f}-{max(theirs):<9.3f} {min(ratio):>8.2f}-{max(ratio):<9.2f}"
+        line = f"{name:<22} {pairs[0][0]['genus']:>5} {pairs[0][0]['degrees']:>7}"
+        for key in ("seconds", "first"):
+            mine = [p[0][key] for p in pairs]
+            line += f" {span(mine)}"
+            if args.against:
+                theirs = [p[1][key] for p in pairs]
+                line += f" {span(theirs)} {span([t / m for m, t in zip(mine, theirs)], 2)}"
         print(line)
+    print(f"load average at the end {os.getloadavg()[0]:.2f}")
     if args.memory:
         print("memory of predict (three-band case):")
         for checkout in [ROOT] + ([args.against] if args.against else []):
             print(f" {checkout}:")
-            done = subprocess.run([sys.executable, "-c", _MEMORY, str(checkout)], capture_output=True, text=True,
-                                  env=dict(os.environ, PYTHONPATH=str(checkout)))
+            done = _run(checkout, _MEMORY, str(checkout))
             print(done.stdout.rstrip() or done.stderr.strip().splitlines()[-1])
 
 

@@ -133,10 +133,15 @@ def _lagrange_basis(z: np.ndarray, nodes: np.ndarray) -> np.ndarray:
     z = np.asarray(z)
     g = nodes.size
     out = np.ones(z.shape + (g,), dtype=np.result_type(z, float))
+    diffs = [z - nodes[m] for m in range(g)]          # z - node_m once for every l
     for l in range(g):
+        acc = None
         for m in range(g):
             if m != l:
-                out[..., l] = out[..., l] * ((z - nodes[m]) / (nodes[l] - nodes[m]))
+                f = diffs[m] / (nodes[l] - nodes[m])
+                acc = f if acc is None else acc * f
+        if acc is not None:
+            out[..., l] = acc
     return out
 
 
@@ -261,14 +266,17 @@ class HyperellipticCurve:
         """
         e = self.branch_points
         base = e[index]
-        delta = np.where(delta.imag == 0.0, delta.real + 0.0j, delta)
-        root = np.ones(delta.shape, dtype=complex)
+        delta = np.where(delta.imag == 0.0, delta.real + 0.0j, delta)   # no -0.0 imaginary parts
+        root = None
         for m in range(e.size):
-            d = (base - e[m])[:, None] + delta
-            d = np.where(d.imag == 0.0, d.real + 0.0j, d)
-            f = np.sqrt(d)
-            # at e* itself: sqrt(delta)/sqrt(delta) = 1 on the principal branch
-            root = root * np.where((index == m)[:, None], 1.0, f)
+            d = (base - e[m])[:, None] + delta       # imaginary part 0.0 + Im delta: never -0.0
+            # at e* itself: sqrt(delta)/sqrt(delta) = 1 on the principal branch (sqrt(1) = 1 exactly)
+            d[index == m] = 1.0
+            f = np.sqrt(d, out=d)
+            if root is None:
+                root = f
+            else:
+                root *= f
         t = base[:, None] + delta
         return self._poly(t) / root[..., None]
 

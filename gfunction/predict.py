@@ -36,7 +36,7 @@ Theorem 1.1).  Hence, with an error O(1/n):
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Any, Sequence
 
 import numpy as np
@@ -49,7 +49,7 @@ from equilibrium.verification import failure_message, failure_policy, settle
 from .gfunction import GFunction, g_function
 from .outer import ModelProblem, gamma_factor, gap_abel_map, model_problem
 from .phase import reduced_phase
-from .theta import theta_lattice, theta_shift_table
+from .theta import ShiftPhases, riemann_theta_scaled, shift_phases, theta_lattice, theta_shift_table
 
 __all__ = ["Predictor", "Prediction", "RecurrencePrediction", "GapZeros", "BandCounts", "EdgeZeros",
            "TOLERANCES", "harmonic_phases", "predictor"]
@@ -76,6 +76,34 @@ LOWER = ("a2_positivity",)
 
 #: degrees per chunk of :meth:`Predictor.predict` (its memory is that of one chunk)
 PREDICT_CHUNK = 2000
+
+#: the grid of the angle t of each gap on which Predictor.gap_zeros looks for sign changes
+_GAP_GRID = np.linspace(0.0, np.pi, 161)[1:-1]
+#: the angles of the half circles of Predictor.band_counts (from the gap to the right of the support)
+_CONTOUR = np.linspace(np.pi, 0.0, 97)
+
+
+@dataclass(frozen=True)
+class _Chunk:
+    """Degrees of one chunk (``rows`` of the request) with their phases ``w``, ``W`` (mod 1),
+    the shared ``theta.ShiftPhases`` of ``W`` and ``c1 = θ(u∞+d)/θ(u∞+d+W)``."""
+
+    rows: slice
+    degrees: np.ndarray
+    scalings: np.ndarray
+    w: np.ndarray
+    W: np.ndarray
+    phases: ShiftPhases
+    c1: np.ndarray
+
+
+def _worst(checks: list[dict]) -> dict:
+    """The worst value of every check over chunks (all these checks are bounded above)."""
+    out: dict[str, float] = {}
+    for part in checks:
+        for key, value in part.items():
+            out[key] = max(out[key], value) if key in out else value
+    return out
 
 
 
@@ -248,6 +276,8 @@ class Predictor:
     model: ModelProblem
     omega_hat: np.ndarray
     szego: Any = None
+    # degree-independent pieces of the zeros and counts (Predictor._memo); not part of the value
+    _cache: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     @property
     def genus(self) -> int:
@@ -367,28 +397,109 @@ class Predictor:
     # theta of the numerator has the same imaginary part, hence the same exponent
     # π yᵀY⁻¹y, as the matching denominator: the scaled parts divide exactly, and
     # for fixed points the numerator over all degrees is one matrix product
-    # (theta.ThetaShiftTable).
-    def _c1(self, W) -> np.ndarray:
-        """θ(u∞+d)/θ(u∞+d+W) for phases W (N, g); shape (N,)."""
-        mp = self.model
-        tab = theta_shift_table((mp.u_infinity + mp.d)[None, :], mp.tau)
-        return tab.unshifted()[0] / tab.oscillatory(W)[:, 0]
+    # (theta.ThetaShiftTable).  The fixed points (the grid of each gap, the contours of
+    # the counts, u∞ + d) do not depend on the degree: their tables are built once per
+    # predictor (_memo), and one table of phases e^{2πi nᵀW} per chunk of degrees serves
+    # all of them (_chunks, theta.shift_phases).
 
-    def _m11_table(self, zs, us, W, c1):
-        """M_11 at fixed points ``zs`` (P,) with Abel values ``us`` (P, g), phases W (N, g): (N, P)."""
+    def _memo(self, key, build):
+        """``build()`` once per predictor (degree-independent pieces of the zeros)."""
+        if key not in self._cache:
+            self._cache[key] = build()
+        return self._cache[key]
+
+    def _fixed_table(self, zs, us) -> tuple:
+        """(θ-table of ``us + d``, ``A/θ̂(us + d)``) for fixed points ``zs`` with Abel values ``us``."""
         mp = self.model
         gam = gamma_factor(np.where(zs.imag == 0, zs + 1e-300j, zs), mp.support)
         A = (gam + 1 / gam) / 2
         tab = theta_shift_table(us + mp.d, mp.tau)
-        return (A / tab.unshifted())[None, :] * tab.oscillatory(W) * c1[:, None]
+        return tab, A / tab.unshifted()
+
+    def _gap(self, j: int) -> tuple:
+        """Gap ``j``: its Abel map (``outer.gap_abel_map``), the grid ``x`` of :meth:`gap_zeros` and its table."""
+        def build():
+            gap_abel = gap_abel_map(self.model, j)
+            # θ-variable x = lo + (hi-lo)(1-cos θ)/2 keeps M_11 smooth up to the ends
+            xs = gap_abel.x(_GAP_GRID)
+            return (gap_abel, xs) + self._fixed_table(xs + 0j, gap_abel(_GAP_GRID))
+        return self._memo(("gap", j), build)
+
+    def _gap_lattice(self, j: int):
+        """One lattice for every Illinois step in gap ``j``: it covers the shifts of the whole gap
+        (a 1 % larger ball than the dense sample needs; coverage is re-checked per call)."""
+        tt = np.linspace(0.0, np.pi, 1025)
+        return self._memo(("gap lattice", j), lambda: theta_lattice(
+            self.model.tau, arguments=self._gap(j)[0](tt) + self.model.d, margin=1.01))
+
+    def _contour(self, j: int, x0: float) -> tuple:
+        """The half circle of :meth:`band_counts` from ``x0`` (in gap ``j``) to ``x1 > b_k`` and its table."""
+        def build():
+            bk = self.g.support[-1][1]
+            x1 = bk + 0.5 * (bk - self.g.support[0][0])
+            c, r = 0.5 * (x0 + x1), 0.5 * (x1 - x0)
+            zs = c + r * np.exp(1j * _CONTOUR)
+            zs[0], zs[-1] = x0 + 0j, x1 + 0j
+            us = self.model.abel(zs + np.where(zs.imag == 0, 1e-300j, 0))
+            return self._fixed_table(zs, us)
+        return self._memo(("contour", j, x0), build)
+
+    def _count_starts(self, j: int) -> list[float]:
+        """The two candidate starts of the contours in gap ``j`` (its thirds)."""
+        lo, hi = self.g.support[j][1], self.g.support[j + 1][0]
+        return [lo + (hi - lo) / 3, lo + 2 * (hi - lo) / 3]
+
+    def _infinity_table(self):
+        """θ-table of ``u∞ + d`` (for :meth:`_c1`)."""
+        mp = self.model
+        return self._memo("infinity", lambda: theta_shift_table((mp.u_infinity + mp.d)[None, :], mp.tau))
+
+    def _tables(self) -> list:
+        """Every fixed table of the zeros and counts."""
+        tables = [self._infinity_table()]
+        for j in range(self.genus):
+            tables.append(self._gap(j)[2])
+            tables.extend(self._contour(j, x0)[0] for x0 in self._count_starts(j))
+        return tables
+
+    def _chunks(self, N, n):
+        """The degrees ``PREDICT_CHUNK`` at a time (at least one, possibly empty, chunk), each with
+        its phases ``w``, ``W``, the shared table of phases and ``c1``."""
+        # the point set of the phases (every fixed table's lattice): fixed, so the folded tables
+        # of theta.ThetaShiftTable are reused from chunk to chunk
+        layout = self._memo("phases", lambda: shift_phases(np.zeros((0, self.genus)),
+                                                           [tab.lattice for tab in self._tables()]))
+        for start in range(0, max(len(N), 1), PREDICT_CHUNK):
+            Nc, nc = N[start:start + PREDICT_CHUNK], n[start:start + PREDICT_CHUNK]
+            w = self.phases(Nc, nc)
+            W = self.model.W(w)
+            phases = layout.at(W)
+            yield _Chunk(slice(start, start + len(Nc)), Nc, nc, w, W, phases, self._c1(phases))
+
+    def _c1(self, W) -> np.ndarray:
+        """θ(u∞+d)/θ(u∞+d+W) for phases W (N, g) (or their theta.ShiftPhases); shape (N,)."""
+        tab = self._infinity_table()
+        return tab.unshifted()[0] / tab.oscillatory(W)[:, 0]
+
+    @staticmethod
+    def _m11_table(fixed, W, c1):
+        """M_11 at the fixed points of ``fixed`` (:meth:`_fixed_table`) with phases W (N, g)
+        (or their theta.ShiftPhases): (N, P)."""
+        tab, factor = fixed
+        return factor[None, :] * tab.oscillatory(W) * c1[:, None]
 
     def _m11_pointwise(self, xs, us, W, c1, lattice):
-        """M_11 at point i with phases W[i] (pointwise pairing), real xs on a gap."""
+        """M_11 at point i with phases W[i] (pointwise pairing), real xs on a gap.
+
+        θ̂(u + d + W) and θ̂(u + d) by the line sums of ``theta.riemann_theta_scaled`` (one
+        matrix product per call instead of a table of terms); same exponent, so they divide.
+        """
         mp = self.model
         gam = gamma_factor(xs + 1e-300j, mp.support)
         A = (gam + 1 / gam) / 2
-        tab = theta_shift_table(us + mp.d, mp.tau, lattice=lattice)
-        return A * tab.paired(W) / tab.unshifted() * c1
+        v = us + mp.d
+        osc, _ = riemann_theta_scaled(np.concatenate([v + W, v]), mp.tau, lattice=lattice)
+        return A * osc[:len(xs)] / osc[len(xs):] * c1
 
     def gap_zeros(self, degrees, scalings=None, *, on_failure: str = "raise") -> GapZeros:
         """Zero of π in each gap (NaN when none): ``GapZeros.zeros`` of shape (len(degrees), g).
@@ -397,29 +508,32 @@ class Predictor:
         the angle ``t`` (``x = lo + (hi-lo)(1-cos t)/2``) for all degrees at
         once, then Illinois (regula falsi) steps on the bracketing cell, with
         the Abel map from its Chebyshev interpolant on the gap
-        (``outer.gap_abel_map``).  ``on_failure`` as in :meth:`recurrence`.
+        (``outer.gap_abel_map``).  The degrees are taken ``PREDICT_CHUNK`` at a time
+        (each degree's zero is computed on its own).  ``on_failure`` as in :meth:`recurrence`.
         """
         failure_policy(on_failure)
         degrees, scalings = self._degrees(degrees, scalings)
         if self.genus == 0:
             return GapZeros(degrees, scalings, np.zeros((degrees.size, 0)), True, {}, "")
-        w = self.phases(degrees, scalings)
+        pieces = [self._gap_zeros(chunk) for chunk in self._chunks(degrees, scalings)]
+        out = np.concatenate([zeros for zeros, _ in pieces])
+        checks = _worst([checks for _, checks in pieces])
+        verified, message = self._verdict(checks, "predicted gap zeros")
+        return settle(GapZeros(degrees, scalings, out, verified, checks, message), on_failure)
+
+    def _gap_zeros(self, chunk: "_Chunk") -> tuple[np.ndarray, dict]:
+        """The gap zeros of one chunk of degrees and their checks (:meth:`gap_zeros`)."""
+        w, W, c1 = chunk.w, chunk.W, chunk.c1
         N = w.shape[0]
         out = np.full((N, self.genus), np.nan)
         worst_imag = 0.0
         abel_error = 0.0
         most_changes = 0
-        W = self.model.W(w)
-        c1 = self._c1(W)
+        th = _GAP_GRID
         for j in range(self.genus):
-            lo, hi = self.g.support[j][1], self.g.support[j + 1][0]
-            gap_abel = gap_abel_map(self.model, j)
+            gap_abel, xs, tab, factor = self._gap(j)
             abel_error = max(abel_error, gap_abel.error)
-            # θ-variable x = lo + (hi-lo)(1-cos θ)/2 keeps M_11 smooth up to the ends
-            th = np.linspace(0.0, np.pi, 161)[1:-1]
-            xs = gap_abel.x(th)
-            us = gap_abel(th)
-            vals = self._m11_table(xs + 0j, us, W, c1) * np.exp(1j * np.pi * w[:, j])[:, None]
+            vals = self._m11_table((tab, factor), chunk.phases, c1) * np.exp(1j * np.pi * w[:, j])[:, None]
             worst_imag = max(worst_imag, float(np.max(np.abs(vals.imag) / (1 + np.abs(vals)))))
             r = vals.real
             s = np.sign(r)
@@ -437,10 +551,7 @@ class Predictor:
             fl = r[rows, idx[rows]]
             fr = r[rows, idx[rows] + 1]
             Wr, c1r, ph = W[rows], c1[rows], np.exp(1j * np.pi * w[rows, j])
-            # one lattice for every Illinois step: it covers the shifts of the whole gap
-            # (a 1 % larger ball than the dense sample needs; coverage is re-checked per call)
-            tt = np.linspace(0.0, np.pi, 1025)
-            lattice = theta_lattice(self.model.tau, arguments=gap_abel(tt) + self.model.d, margin=1.01)
+            lattice = self._gap_lattice(j)
             # Illinois steps on the bracketing grid cell, each row with its own phases
 
             def m11_on_gap(t, sel):
@@ -450,9 +561,7 @@ class Predictor:
             out[rows, j] = gap_abel.x(tr)
         checks = {"gap_realness": worst_imag, "gap_abel_interpolation": float(abel_error),
                   "gap_sign_changes": float(most_changes)}
-        verified, message = self._verdict(checks, "predicted gap zeros")
-        return settle(GapZeros(degrees, scalings, out, verified, checks, message), on_failure)
-
+        return out, checks
 
     def band_counts(self, degrees, scalings=None, gap_zeros: GapZeros | np.ndarray | None = None, *,
                     on_failure: str = "raise") -> BandCounts:
@@ -464,29 +573,33 @@ class Predictor:
         """
         failure_policy(on_failure)
         N, n = self._degrees(degrees, scalings)
-        k = len(self.g.support)
         if self.genus == 0:
             checks = {"count_rounding": 0.0}
             return BandCounts(N, n, N[:, None].astype(int).copy(), True, checks, "")
-        w = self.phases(N, n)
-        W = self.model.W(w)
-        c1 = self._c1(W)
-        if gap_zeros is None:
-            gap_zeros = self.gap_zeros(N, n, on_failure="mark")
-        gap_zeros = np.asarray(getattr(gap_zeros, "zeros", gap_zeros), dtype=float)
+        if gap_zeros is not None:
+            gap_zeros = np.asarray(getattr(gap_zeros, "zeros", gap_zeros), dtype=float)
+        pieces = []
+        for chunk in self._chunks(N, n):
+            zeros = self._gap_zeros(chunk)[0] if gap_zeros is None else gap_zeros[chunk.rows]
+            pieces.append(self._band_counts(chunk, zeros))
+        counts = np.concatenate([c for c, _ in pieces])
+        checks = _worst([c for _, c in pieces])
+        verified, message = self._verdict(checks, "predicted zero counts per band")
+        return settle(BandCounts(N, n, counts, verified, checks, message), on_failure)
+
+    def _band_counts(self, chunk: "_Chunk", gap_zeros: np.ndarray) -> tuple[np.ndarray, dict]:
+        """The zeros per band of one chunk of degrees and the check (:meth:`band_counts`)."""
+        N, n, W, c1 = chunk.degrees, chunk.scalings, chunk.W, chunk.c1
+        k = len(self.g.support)
         right = np.zeros((len(N), self.genus), dtype=int)
         x0s = np.zeros((len(N), self.genus))
         worst = 0.0
-        bk = self.g.support[-1][1]
-        x1 = bk + 0.5 * (bk - self.g.support[0][0])
         # unreduced phases n Ω_j + (N - n) Ω̂_j - c_j: the argument of e^{n g_+ + (N-n) ĝ_+} D_+^{-1} on gap j over π
         raw = n[:, None] * np.asarray(self.g.omega)[None, :] + (N - n)[:, None] * self.omega_hat[None, :]
         if self.szego is not None:
             raw = raw - self.szego.phase_shift[None, :]
-        t = np.linspace(np.pi, 0.0, 97)
         for j in range(self.genus):
-            lo, hi = self.g.support[j][1], self.g.support[j + 1][0]
-            cands = [lo + (hi - lo) / 3, lo + 2 * (hi - lo) / 3]
+            cands = self._count_starts(j)
             # start the contour at the third of the gap farther from the gap zero
             z = np.nan_to_num(gap_zeros[:, j], nan=1e300)
             far = np.abs(z - cands[0]) >= np.abs(z - cands[1])
@@ -497,11 +610,7 @@ class Predictor:
                 rows = np.nonzero(choice == ci)[0]
                 if rows.size == 0:
                     continue
-                c, r = 0.5 * (x0 + x1), 0.5 * (x1 - x0)
-                zs = c + r * np.exp(1j * t)
-                zs[0], zs[-1] = x0 + 0j, x1 + 0j
-                us = self.model.abel(zs + np.where(zs.imag == 0, 1e-300j, 0))
-                m = self._m11_table(zs, us, W[rows], c1[rows])
+                m = self._m11_table(self._contour(j, x0), chunk.phases.rows(rows), c1[rows])
                 ph = np.unwrap(np.angle(m), axis=1)
                 # the exact phase e^{iπ w_j} multiplies M_11+ into the reals: the count is integral
                 cnt[rows] = raw[rows, j] + (ph[:, 0] - ph[:, -1]) / np.pi
@@ -520,10 +629,7 @@ class Predictor:
                 z = gap_zeros[:, band]
                 c = c - ((~np.isnan(z)) & (z < x0s[:, band])).astype(int)
             counts[:, band] = c
-        checks = {"count_rounding": worst}
-        verified, message = self._verdict(checks, "predicted zero counts per band")
-        return settle(BandCounts(N, n, counts, verified, checks, message), on_failure)
-
+        return counts, {"count_rounding": worst}
 
     def predict(self, degrees, scalings=None, *, on_failure: str = "raise") -> Prediction:
         """Recurrence coefficients, gap zeros and band counts for ``degrees``.
@@ -533,24 +639,31 @@ class Predictor:
         failure_policy(on_failure)
         N, n = self._degrees(degrees, scalings)
         rec = self.recurrence(N, n, on_failure="mark")   # O(degrees): no tables
-        pieces = []
-        # the zeros PREDICT_CHUNK degrees at a time: the theta tables (degrees × contour points)
-        # stay of one chunk's size however many degrees are asked for; each degree's zeros are
-        # computed on their own, so the chunks do not change them
-        for start in range(0, max(len(N), 1), PREDICT_CHUNK):
-            Nc, nc = N[start:start + PREDICT_CHUNK], n[start:start + PREDICT_CHUNK]
-            gaps = self.gap_zeros(Nc, nc, on_failure="mark")
-            pieces.append((gaps, self.band_counts(Nc, nc, gaps, on_failure="mark")))
-        parts = [rec] + [part for piece in pieces for part in piece]
+        if self.genus == 0:
+            gaps = self.gap_zeros(N, n, on_failure="mark")
+            counts = self.band_counts(N, n, gaps, on_failure="mark")
+        else:
+            # the zeros PREDICT_CHUNK degrees at a time: the theta tables (degrees × contour points)
+            # stay of one chunk's size however many degrees are asked for; each degree's zeros are
+            # computed on their own, so the chunks do not change them
+            pieces = []
+            for chunk in self._chunks(N, n):
+                zeros, gap_checks = self._gap_zeros(chunk)
+                pieces.append((zeros, gap_checks) + self._band_counts(chunk, zeros))
+            zeros = np.concatenate([p[0] for p in pieces])
+            checks = _worst([p[1] for p in pieces])
+            verified, message = self._verdict(checks, "predicted gap zeros")
+            gaps = GapZeros(N, n, zeros, verified, checks, message)
+            checks = _worst([p[3] for p in pieces])
+            verified, message = self._verdict(checks, "predicted zero counts per band")
+            counts = BandCounts(N, n, np.concatenate([p[2] for p in pieces]), verified, checks, message)
+        parts = [rec, gaps, counts]
         checks: dict[str, float] = dict(rec.checks)
         for part in parts[1:]:
-            for key, value in part.checks.items():   # the worst value over the chunks (all bounded above)
-                checks[key] = max(checks[key], value) if key in checks else value
+            checks.update(part.checks)
         message = "; ".join(dict.fromkeys(p.message for p in parts if p.message))
-        zeros = np.concatenate([gaps.zeros for gaps, _ in pieces])
-        counts = np.concatenate([count.counts for _, count in pieces])
-        result = Prediction(N, n, rec.phases, rec.a, rec.b, zeros, counts, all(p.verified for p in parts),
-                            checks, message)
+        result = Prediction(N, n, rec.phases, rec.a, rec.b, gaps.zeros, counts.counts,
+                            all(p.verified for p in parts), checks, message)
         return settle(result, on_failure)
 
     def soft_edge_zeros(self, edge: int, degree: int, count: int = 5, *, on_failure: str = "raise") -> EdgeZeros:

@@ -81,8 +81,8 @@ over (arguments × lattice points), done in chunks.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from typing import Optional
+from dataclasses import dataclass, field, replace
+from typing import Optional, Sequence
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -100,6 +100,8 @@ __all__ = [
     "ThetaLattice",
     "ThetaShiftTable",
     "theta_shift_table",
+    "ShiftPhases",
+    "shift_phases",
 ]
 
 _CHUNK_ENTRIES = 1_500_000  # arguments × lattice points per block (memory ~ 24 MB complex)
@@ -345,6 +347,8 @@ class ThetaLattice:
     gradient: bool = False   # radius also chosen for the gradient tail
     basis: Optional[np.ndarray] = None          # U (int64); None: the identity
     reduced_tau: Optional[np.ndarray] = None    # UᵀτU
+    # the line structure of the points and e^{πi nᵀτn} on it (_line_data), built at first use
+    _lines: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def covers(self, shifts: np.ndarray) -> bool:
         """True if every shift r (rows of ``shifts``, reduced basis) satisfies ‖√πT r‖ ≤ ``shift_radius``."""
@@ -440,6 +444,42 @@ def _line_structure(points: np.ndarray):
     return trail, n1_min, n1 - n1_min, line.reshape(-1)
 
 
+def _line_data(lat: ThetaLattice):
+    """The n-dependent part of :func:`_scaled_sum` (depends on the lattice only; kept on it).
+
+    Returns ``(n1, M, trail_f, ranges, cols)``: the first coordinates of the lines, the
+    (width × lines) matrix of ``e^{πi nᵀτn}``, the trailing coordinates of the lines and the
+    per-coordinate ranges and columns of the trailing tables; None when the factored form
+    could overflow (then the terms are exponentiated one by one).
+    """
+    if "data" in lat._lines:
+        return lat._lines["data"]
+    t = lat.tau if lat.reduced_tau is None else lat.reduced_tau
+    pts_i = lat.points
+    pts = pts_i.astype(float)                            # (N, g)
+    g = t.shape[0]
+    # |Re b_p| = 2π|Y r| with |r_j| ≤ 1/2: largest real exponent of a single factor
+    growth = np.pi * float(np.max(np.abs(pts) @ np.abs(t.imag).sum(axis=1))) if pts.shape[0] else 0.0
+    data = None
+    if growth < 600.0:          # every factor stays below e^600 < 1e308
+        a_n = 1j * np.pi * np.einsum("ni,ij,nj->n", pts, t, pts)
+        trail, n1_min, row, line = _line_structure(pts_i)
+        width = int(row.max()) + 1
+        L = trail.shape[0]
+        M = np.zeros((width, L), dtype=complex)
+        M[row, line] = np.exp(a_n)
+        n1 = (np.arange(width) + n1_min).astype(float)
+        trail_f = trail.astype(float)
+        # exp(n'ᵀb'_p) = ∏_{j≥2} exp(n_j b_pj): one small table of exponentials per coordinate,
+        # gathered onto the lines (multiplications instead of P·L complex exponentials)
+        lows = trail.min(axis=0) if g > 1 else np.zeros(0, dtype=np.int64)
+        ranges = [np.arange(lows[j], trail[:, j].max() + 1, dtype=float) for j in range(g - 1)]
+        cols = [trail[:, j] - lows[j] for j in range(g - 1)]
+        data = (n1, M, trail_f, ranges, cols)
+    lat._lines["data"] = data
+    return data
+
+
 def _scaled_sum(z: np.ndarray, lat: ThetaLattice, gradient: bool):
     """Oscillatory part, exponent and (optionally) oscillatory gradient at z (P, g).
 
@@ -454,38 +494,23 @@ def _scaled_sum(z: np.ndarray, lat: ThetaLattice, gradient: bool):
     exponentiated one by one.
     """
     t = lat.tau if lat.reduced_tau is None else lat.reduced_tau
-    pts_i = lat.points
-    pts = pts_i.astype(float)                            # (N, g)
     g = t.shape[0]
     y = z.imag
     c = y @ lat.Yinv                                     # Y symmetric: c = Y⁻¹ y
     k = np.rint(c)
     exponent = np.pi * np.einsum("pi,pi->p", y, c)
-    a_n = 1j * np.pi * np.einsum("ni,ij,nj->n", pts, t, pts)
     b_p = 2j * np.pi * (z - k @ t)
     c_p = (1j * np.pi * np.einsum("pi,ij,pj->p", k, t, k)
            - 2j * np.pi * np.einsum("pi,pi->p", k, z) - exponent)
-    P, N = z.shape[0], pts.shape[0]
+    P, N = z.shape[0], lat.points.shape[0]
     osc = np.empty(P, dtype=complex)
     grad = np.empty((P, g), dtype=complex) if gradient else None
-
-    # |Re b_p| = 2π|Y r| with |r_j| ≤ 1/2: largest real exponent of a single factor
-    growth = np.pi * float(np.max(np.abs(pts) @ np.abs(t.imag).sum(axis=1))) if N else 0.0
-    if growth < 600.0:          # every factor stays below e^600 < 1e308
-        trail, n1_min, row, line = _line_structure(pts_i)
-        width = int(row.max()) + 1
-        L = trail.shape[0]
-        M = np.zeros((width, L), dtype=complex)
-        M[row, line] = np.exp(a_n)
-        n1 = (np.arange(width) + n1_min).astype(float)
+    lines = _line_data(lat)
+    if lines is not None:
+        n1, M, trail_f, ranges, cols = lines
+        width, L = M.shape
         if gradient:
             M1 = M * n1[:, None]
-        trail_f = trail.astype(float)
-        # exp(n'ᵀb'_p) = ∏_{j≥2} exp(n_j b_pj): one small table of exponentials per coordinate,
-        # gathered onto the lines (multiplications instead of P·L complex exponentials)
-        lows = trail.min(axis=0) if g > 1 else np.zeros(0, dtype=np.int64)
-        ranges = [np.arange(lows[j], trail[:, j].max() + 1, dtype=float) for j in range(g - 1)]
-        cols = [trail[:, j] - lows[j] for j in range(g - 1)]
         step = max(1, _CHUNK_ENTRIES // max(L + width, 1))
         for s in range(0, P, step):
             sl = slice(s, s + step)
@@ -503,6 +528,8 @@ def _scaled_sum(z: np.ndarray, lat: ThetaLattice, gradient: bool):
                     gsum[:, 1:] = FI @ trail_f
                 grad[sl] = 2j * np.pi * (gsum - k[sl] * osc[sl, None])
     else:
+        pts = lat.points.astype(float)
+        a_n = 1j * np.pi * np.einsum("ni,ij,nj->n", pts, t, pts)
         step = max(1, _CHUNK_ENTRIES // max(N, 1))
         for s in range(0, P, step):
             sl = slice(s, s + step)
@@ -690,6 +717,131 @@ def _linear_exponentials(points: np.ndarray, factors: np.ndarray) -> np.ndarray 
 # fixed arguments, many real shifts
 # ---------------------------------------------------------------------------
 
+def _point_keys(points: np.ndarray, reach: int) -> np.ndarray:
+    """One int64 per lattice point (N, g) with ``|n_j| ≤ reach``: the digits ``n_j + reach`` in base ``2 reach + 1``."""
+    base = 2 * reach + 1
+    keys = np.zeros(points.shape[0], dtype=np.int64)
+    for j in range(points.shape[1]):
+        keys = keys * base + (points[:, j] + reach)
+    return keys
+
+
+@dataclass(frozen=True)
+class ShiftPhases:
+    r"""``cos 2πhᵀs_q`` and ``sin 2πhᵀs_q`` for real shifts ``s_q`` over half of a symmetric point set.
+
+    For a real shift ``e^{2πi(-n)ᵀs}`` is the conjugate of ``e^{2πi nᵀs}``, so a lattice sum
+    over a point set closed under ``n → -n`` folds onto one representative ``h`` of each pair
+    ``{n, -n}`` (the one whose first non-zero coordinate is positive, and ``h = 0``):
+
+        Σ_n C_n e^{2πi nᵀs} = Σ_h [(C_h + C_{-h}) cos 2πhᵀs + i (C_h - C_{-h}) sin 2πhᵀs]
+
+    (a term missing from the set counts as ``C = 0``, so any point set can be folded after
+    adding the mirror images).  For the (shifts × arguments) table of
+    :class:`ThetaShiftTable` that makes the complex product ``E · Cᵀ`` a real one,
+    ``[cos | sin] · [A; iB]`` with ``A = C_h + C_{-h}``, ``B = C_h - C_{-h}`` viewed as real
+    pairs: half the multiplications, and the table of phases is built once for every table
+    of the same τ and shifts (:func:`shift_phases`).  Everything is in the reduced basis
+    (shifts enter as ``Uᵀs``).
+
+    Attributes
+    ----------
+    basis : int64 ndarray (g, g)      the unimodular ``U`` of the lattice (module docstring)
+    shifts : float ndarray (Q, g)     the shifts in the reduced basis, ``Uᵀs_q`` (rows ``s_q U``)
+    points : int64 ndarray (H, g)     the representatives ``h``
+    table : float ndarray (Q, 2H)     ``[cos 2πhᵀs_q | sin 2πhᵀs_q]``
+    reach : int                       ``max |h_j|`` (for the lookup keys)
+    keys : int64 ndarray (H,)         keys of the representatives (:func:`_point_keys`), ascending
+                                      (the points are in this order)
+    """
+
+    basis: np.ndarray
+    shifts: np.ndarray
+    points: np.ndarray
+    table: np.ndarray
+    reach: int
+    keys: np.ndarray
+
+    def locate(self, points: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """For lattice points ``n`` (N, g): the index of ``h = ±n`` among :attr:`points` and the sign.
+
+        The index is -1 where neither ``n`` nor ``-n`` is a representative.
+        """
+        index = np.full(points.shape[0], -1, dtype=np.int64)
+        sign = np.ones(points.shape[0])
+        inside = np.all(np.abs(points) <= self.reach, axis=1)
+        for s in (1, -1):
+            keys = _point_keys(s * points[inside], self.reach)
+            at = np.minimum(np.searchsorted(self.keys, keys), self.keys.size - 1)
+            found = self.keys[at] == keys
+            rows = np.nonzero(inside)[0][found]
+            fresh = index[rows] < 0
+            index[rows[fresh]] = at[found][fresh]
+            sign[rows[fresh]] = s
+        return index, sign
+
+    def at(self, shifts: ArrayLike) -> "ShiftPhases":
+        """The same point set at other real shifts (Q', g) (given in the original basis, as to
+        :func:`shift_phases`); the tables folded for this point set stay valid."""
+        g = self.points.shape[1]
+        s = np.asarray(shifts, dtype=float)
+        if g == 1 and s.ndim <= 1:
+            s = s.reshape(-1, 1)
+        if s.ndim != 2 or s.shape[1] != g or not np.all(np.isfinite(s)):
+            raise InputError(f"shifts must be a finite real array of shape (Q, {g}); got shape {np.shape(shifts)}")
+        s = s @ self.basis
+        return replace(self, shifts=s, table=_phase_table(self.points, s))
+
+    def rows(self, selection) -> "ShiftPhases":
+        """The phases of the shifts ``selection`` (an index or mask of the shifts)."""
+        return replace(self, shifts=self.shifts[selection], table=self.table[selection])
+
+
+def shift_phases(shifts: ArrayLike, lattices: "Sequence[ThetaLattice]") -> ShiftPhases:
+    """The :class:`ShiftPhases` of real ``shifts`` (Q, g) over the points of ``lattices`` (same τ).
+
+    The point set is the union of the lattices' points and their mirror images, so every
+    :class:`ThetaShiftTable` on one of these lattices can use the result.
+    """
+    lattices = list(lattices)
+    if not lattices:
+        raise InputError("shift_phases needs at least one lattice")
+    g = lattices[0].points.shape[1]
+    basis = lattices[0].basis if lattices[0].basis is not None else np.eye(g, dtype=np.int64)
+    for lat in lattices[1:]:
+        other = lat.basis if lat.basis is not None else np.eye(g, dtype=np.int64)
+        if lat.points.shape[1] != g or not np.array_equal(other, basis):
+            raise InputError("shift_phases: the lattices must belong to one period matrix (same reduced basis)")
+    s = np.asarray(shifts, dtype=float)
+    if g == 1 and (s.ndim <= 1):
+        s = s.reshape(-1, 1)
+    if s.ndim != 2 or s.shape[1] != g or not np.all(np.isfinite(s)):
+        raise InputError(f"shifts must be a finite real array of shape (Q, {g}); got shape {np.shape(shifts)}")
+    return _phases_of(s @ basis, np.concatenate([lat.points for lat in lattices]), basis)
+
+
+def _phases_of(s: np.ndarray, pts: np.ndarray, basis: np.ndarray) -> ShiftPhases:
+    """:class:`ShiftPhases` of reduced shifts ``s`` (Q, g) over the points ``pts`` and their mirror images."""
+    # each point's representative: itself if its first non-zero coordinate is positive (or it is 0)
+    lead = pts[np.arange(pts.shape[0]), np.argmax(pts != 0, axis=1)] if pts.size else np.zeros(0, np.int64)
+    reps = np.where((lead < 0)[:, None], -pts, pts)
+    reach = int(np.max(np.abs(reps))) if reps.size else 0
+    keys, first = np.unique(_point_keys(reps, reach), return_index=True)   # sorted keys
+    reps = reps[first]
+    return ShiftPhases(basis=basis, shifts=s, points=reps, table=_phase_table(reps, s), reach=reach,
+                       keys=keys)
+
+
+def _phase_table(reps: np.ndarray, s: np.ndarray) -> np.ndarray:
+    """``[cos 2πhᵀs_q | sin 2πhᵀs_q]`` (Q, 2H) for representatives ``reps`` and reduced shifts ``s``."""
+    H = reps.shape[0]
+    E = _linear_exponentials(reps, s)              # real shifts: |factors| = 1, never None
+    table = np.empty((s.shape[0], 2 * H))
+    table[:, :H] = E.real
+    table[:, H:] = E.imag
+    return table
+
+
 @dataclass(frozen=True)
 class ThetaShiftTable:
     r"""The terms of θ(u_p + s | τ) for fixed arguments ``u_p`` and any real shift ``s``.
@@ -701,10 +853,11 @@ class ThetaShiftTable:
         θ̂(u_p + s) = Σ_n C_pn e^{2πi mᵀs},   C_pn = exp(πi mᵀτm + 2πi mᵀu_p - π yᵀY⁻¹y),
 
     so that for shifts ``s_q`` the whole (q, p) table is one matrix product
-    ``e^{2πi n s_q} · C_pᵀ`` times ``e^{-2πi k_pᵀ s_q}``.  All of this is in the reduced
-    basis of the lattice (``u_p``, ``s`` enter as ``Uᵀu_p``, ``Uᵀs``; ``τ`` as ``UᵀτU``),
-    which changes no value (module docstring, "Basis reduction").  The terms and the
-    truncation bound are those of :func:`riemann_theta_scaled` (same lattice,
+    ``e^{2πi n s_q} · C_pᵀ`` times ``e^{-2πi k_pᵀ s_q}``; the product is taken in real
+    arithmetic over half the points (:class:`ShiftPhases`: ``n`` and ``-n`` paired).  All of
+    this is in the reduced basis of the lattice (``u_p``, ``s`` enter as ``Uᵀu_p``, ``Uᵀs``;
+    ``τ`` as ``UᵀτU``), which changes no value (module docstring, "Basis reduction").  The
+    terms and the truncation bound are those of :func:`riemann_theta_scaled` (same lattice,
     same radius), so the two agree to rounding.
 
     Attributes
@@ -721,26 +874,69 @@ class ThetaShiftTable:
     terms: np.ndarray
     exponent: np.ndarray
     truncation_bound: float
+    # the folded terms [A; iB] as real pairs, per ShiftPhases point set (see _folded)
+    _folded_cache: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
-    def oscillatory(self, shifts: ArrayLike) -> np.ndarray:
-        """θ̂(u_p + s_q) for real shifts ``s`` (Q, g); shape (Q, P).  θ = θ̂ · exp(exponent[p])."""
+    def _folded(self, phases: ShiftPhases) -> np.ndarray | None:
+        """``[A; iB]`` of :class:`ShiftPhases` for these terms, a real (2H, 2P) array; None if a point is missing."""
+        hit = self._folded_cache.get(id(phases.points))
+        if hit is not None and hit[0] is phases.points:
+            return hit[1]
+        index, sign = phases.locate(self.lattice.points)
+        if np.any(index < 0):
+            return None
+        H, P = phases.points.shape[0], self.terms.shape[0]
+        folded = np.zeros((2 * H, P), dtype=complex)
+        terms = np.ascontiguousarray(self.terms.T)              # (N, P)
+        plus, minus = sign > 0, sign < 0                        # distinct points of one sign: distinct h
+        folded[index[plus]] = terms[plus]                       # A = C_h + C_{-h}
+        folded[index[minus]] += terms[minus]
+        folded[H + index[plus]] = 1j * terms[plus]              # iB = i(C_h - C_{-h})
+        folded[H + index[minus]] -= 1j * terms[minus]
+        folded = folded.view(float)                             # (2H, 2P): real and imaginary parts
+        if len(self._folded_cache) > 8:
+            self._folded_cache.clear()
+        self._folded_cache[id(phases.points)] = (phases.points, folded)
+        return folded
+
+    def oscillatory(self, shifts: "ArrayLike | ShiftPhases") -> np.ndarray:
+        """θ̂(u_p + s_q) for real shifts ``s`` (Q, g); shape (Q, P).  θ = θ̂ · exp(exponent[p]).
+
+        ``shifts`` may be a :class:`ShiftPhases` (of the same τ, e.g. built once for several
+        tables by :func:`shift_phases`); its shifts are then used.
+        """
         g = self.offsets.shape[1]
+        if isinstance(shifts, ShiftPhases):
+            phases = shifts
+            basis = self.lattice.basis if self.lattice.basis is not None else np.eye(g, dtype=np.int64)
+            if phases.shifts.shape[1] != g or not np.array_equal(phases.basis, basis):
+                raise InputError("these ShiftPhases belong to another period matrix")
+            folded = self._folded(phases)
+            if folded is None:                                  # a point of this lattice is not covered
+                phases = _phases_of(phases.shifts, self.lattice.points, basis)
+                folded = self._folded(phases)
+            return self._product(phases, folded, 0, phases.shifts.shape[0])
         s = np.asarray(shifts, dtype=float)
         if g == 1 and (s.ndim == 0 or s.shape[-1] != 1):
             s = s[..., None]
         if s.ndim != 2 or s.shape[1] != g or not np.all(np.isfinite(s)):
             raise InputError(f"shifts must be a finite real array of shape (Q, {g}); got shape {np.shape(shifts)}")
-        s = self.lattice.to_reduced(s)
-        pts = self.lattice.points
-        offsets = self.offsets.astype(np.int64)
         P, N = self.terms.shape
         out = np.empty((s.shape[0], P), dtype=complex)
         step = max(1, _CHUNK_ENTRIES // max(N + P, 1))
+        basis = self.lattice.basis if self.lattice.basis is not None else np.eye(g, dtype=np.int64)
         for a in range(0, s.shape[0], step):
-            sl = slice(a, a + step)
-            E = _linear_exponentials(pts, s[sl])                              # (q, N): e^{2πi nᵀs}
-            out[sl] = (E @ self.terms.T) * _linear_exponentials(-offsets, s[sl])  # e^{-2πi k_pᵀs}
+            phases = _phases_of(s[a:a + step] @ basis, self.lattice.points, basis)
+            out[a:a + step] = self._product(phases, self._folded(phases), 0, phases.shifts.shape[0])
         return out
+
+    def _product(self, phases: ShiftPhases, folded: np.ndarray, start: int, stop: int) -> np.ndarray:
+        """(Σ_n C_pn e^{2πi nᵀs_q}) e^{-2πi k_pᵀs_q} for the shifts ``start:stop`` of ``phases``."""
+        sums = np.ascontiguousarray(phases.table[start:stop] @ folded).view(complex)   # (q, P)
+        # e^{-2πi k_pᵀs}: the offsets are few distinct integer vectors
+        offsets, which = np.unique(self.offsets.astype(np.int64), axis=0, return_inverse=True)
+        sums *= _linear_exponentials(-offsets, phases.shifts[start:stop])[:, which.reshape(-1)]
+        return sums
 
     def paired(self, shifts: ArrayLike) -> np.ndarray:
         """θ̂(u_p + s_p) for one real shift per argument (``shifts`` (P, g)); shape (P,)."""

@@ -242,6 +242,63 @@ def test_shift_table_matches_mpmath_and_brute_force():
         np.full((1, 3), 0.5))
 
 
+def _box_sum_longdouble(u: np.ndarray, tau: np.ndarray, box: int) -> np.ndarray:
+    """θ(u_p|τ) by the plain DLMF 21.2.1 series over |m_j| ≤ box, one exponential per term, in
+    80-bit long double (x86; rounding ~1e-19, far below the 1e-14 checked)."""
+    g = tau.shape[0]
+    m = np.array(list(itertools.product(range(-box, box + 1), repeat=g)), dtype=np.longdouble)
+    t = tau.astype(np.clongdouble)
+    quad = np.einsum("ni,ij,nj->n", m, t, m)
+    pi = np.longdouble(np.pi)
+    return np.exp(1j * pi * quad[None, :] + 2j * pi * (u.astype(np.clongdouble) @ m.T)).sum(axis=1)
+
+
+@pytest.mark.parametrize("g", [1, 2, 3])
+def test_folded_shift_sums_equal_the_direct_lattice_sum(g):
+    """ThetaShiftTable.oscillatory folds n and -n into a real matrix product over one table of
+    phases shared by tables of different lattices (theta.ShiftPhases); the line sums of
+    riemann_theta_scaled keep their lattice data between calls.  Both against a plain lattice
+    sum: mpmath.jtheta in genus 1 (θ(u|τ) = ϑ_3(πu, e^{πiτ}), DLMF 20.2.3 with 21.2.1) and the
+    DLMF 21.2.1 series over a large box, term by term in long double, in genus 2 and 3 (period
+    matrices of hyperelliptic curves, as in the predictions).  To 1e-14 on the scale e^{π yᵀY⁻¹y}
+    of the oscillatory part (|θ̂| ≤ Σ|terms| = O(1))."""
+    from gfunction.theta import shift_phases, theta_lattice, theta_shift_table
+
+    rng = np.random.default_rng(60 + g)
+    tau = np.array([[0.3 + 0.8j]]) if g == 1 else _curve_tau(g)
+    # two tables with different imaginary parts, hence different (non-symmetric) lattices
+    uA = rng.uniform(-1, 1, (5, g)) + 0.3j * rng.normal(size=(5, g))
+    uB = rng.uniform(-1, 1, (4, g)) + 1j * (0.6 + 0.2 * rng.normal(size=(4, g)))
+    s = rng.uniform(-2, 2, (7, g))
+    tabA, tabB = theta_shift_table(uA, tau), theta_shift_table(uB, tau)
+    shared = shift_phases(np.zeros((0, g)), [tabA.lattice, tabB.lattice]).at(s)
+    only_A = shift_phases(s, [tabA.lattice])        # tabB falls back to phases of its own points
+    if g > 1:   # that fallback is exercised: a point of tabB's lattice is not among A's (nor its mirror)
+        assert np.min(only_A.locate(tabB.lattice.points)[0]) < 0
+
+    def reference(u):
+        if g == 1:
+            mpmath.mp.dps = 30
+            q = mpmath.exp(1j * mpmath.pi * complex(tau[0, 0]))
+            return np.array([complex(mpmath.jtheta(3, mpmath.pi * mpmath.mpc(complex(x)), q)) for x in u[:, 0]])
+        return _box_sum_longdouble(u, tau, box=9 if g == 2 else 7).astype(complex)
+
+    for tab, u in ((tabA, uA), (tabB, uB)):
+        scale = np.exp(tab.exponent)
+        ref = np.array([reference(u + sh) for sh in s])                      # (Q, P)
+        for phases in (s, shared, only_A):
+            got = tab.oscillatory(phases) * scale[None, :]
+            assert np.max(np.abs(got - ref) / scale[None, :]) < 1e-14
+        rows = [4, 0, 2]
+        got = tab.oscillatory(shared.rows(rows)) * scale[None, :]
+        assert np.max(np.abs(got - ref[rows]) / scale[None, :]) < 1e-14
+        # the line sums at u + s with one lattice for all shifts, called twice (its data kept)
+        lat = theta_lattice(tau, arguments=u, margin=1.01)
+        for _ in range(2):
+            osc, expo = riemann_theta_scaled((u[None, :, :] + s[:, None, :]).reshape(-1, g), tau, lattice=lat)
+            assert np.max(np.abs(osc.reshape(ref.shape) - ref / np.exp(expo.reshape(ref.shape)))) < 1e-14
+
+
 # --- rounding, which the truncation bound does not contain ----------------------------------
 
 def _scaled_theta_mpmath(u: np.ndarray, tau: np.ndarray, exponent: float, box: int) -> complex:
