@@ -7,7 +7,8 @@ five-band field (genus 4) of our own, ``Predictor.predict`` (a, b, gap zeros, ba
 1000 consecutive degrees (200 in genus 4): the best of three calls after a warm-up ("repeated":
 the predictor keeps its degree-independent tables between calls), and the first call on a
 freshly built predictor ("first call": those tables built inside it), in a fresh process per
-round.  With ``--against DIR`` the same timing runs with ``PYTHONPATH=DIR`` in ``DIR`` (another
+round, in CPU seconds of that process (``time.process_time``, BLAS on one thread: the machine is
+shared, and CPU time is what the code costs, not how many other processes held the cores).  With ``--against DIR`` the same timing runs with ``PYTHONPATH=DIR`` in ``DIR`` (another
 checkout, e.g. the main branch; each child checks that it imports its own checkout: run from a
 checkout's root, ``python -c`` would otherwise import that checkout whatever ``PYTHONPATH`` says)
 in the same rounds, alternating, so that each round gives a ratio on the same machine load; the
@@ -50,11 +51,11 @@ for name, f in fields.items():
     pred = predictor(measure)
     N = np.arange(1000, 1000 + (degrees if pred.genus < 4 else degrees // 5))
     pred.predict(N[:50])
-    best = min((lambda t0: (pred.predict(N), time.perf_counter() - t0)[1])(time.perf_counter()) for _ in range(3))
+    best = min((lambda t0: (pred.predict(N), time.process_time() - t0)[1])(time.process_time()) for _ in range(3))
     fresh = predictor(measure)
-    t0 = time.perf_counter()
+    t0 = time.process_time()
     fresh.predict(N)
-    out[name] = {"genus": pred.genus, "degrees": len(N), "seconds": best, "first": time.perf_counter() - t0}
+    out[name] = {"genus": pred.genus, "degrees": len(N), "seconds": best, "first": time.process_time() - t0}
 print(json.dumps(out))
 """
 
@@ -85,7 +86,8 @@ def _run(checkout: Path, code: str, *args: str) -> subprocess.CompletedProcess:
     check = (f"import gfunction, pathlib, sys; assert pathlib.Path(gfunction.__file__).resolve().parents[1] == "
              f"pathlib.Path({str(checkout.resolve())!r}), gfunction.__file__\n")
     return subprocess.run([sys.executable, "-c", check + code, *args], capture_output=True, text=True,
-                          env=dict(os.environ, PYTHONPATH=str(checkout)), cwd=checkout)
+                          env=dict(os.environ, PYTHONPATH=str(checkout), OPENBLAS_NUM_THREADS="1",
+                                   OMP_NUM_THREADS="1", MKL_NUM_THREADS="1"), cwd=checkout)
 
 
 def timing(checkout: Path, degrees: int) -> dict:
@@ -104,7 +106,8 @@ def main() -> None:
     args = parser.parse_args()
     if args.against is not None:
         args.against = args.against.resolve()
-    print(f"Predictor.predict, best of 3 per round, {args.rounds} rounds; load average {os.getloadavg()[0]:.2f}")
+    print(f"Predictor.predict, CPU seconds, best of 3 per round, {args.rounds} rounds; "
+          f"load average {os.getloadavg()[0]:.2f}")
     rows: dict[str, list] = {}
     for _ in range(args.rounds):
         here = timing(ROOT, args.degrees)

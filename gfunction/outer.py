@@ -78,6 +78,8 @@ import numpy as np
 from equilibrium.errors import InputError, NumericalFailure
 from equilibrium.verification import failure_message, failure_policy, float_checks, settle
 
+from .theta import shift_phases
+
 __all__ = ["ModelProblem", "model_problem", "gamma_factor", "LatticePoint", "lattice_decomposition", "jump_residuals",
            "GapAbelMap", "gap_abel_map"]
 
@@ -152,6 +154,8 @@ class ModelProblem:
     checks: dict = field(default_factory=dict)
     verified: bool = True
     message: str = ""
+    # the θ-tables of expansion() (degree-independent), built at first use; not part of the value
+    _cache: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     # -- theta helpers -----------------------------------------------------
     def _theta(self, v):
@@ -164,6 +168,17 @@ class ModelProblem:
         on, en = self._theta(num)
         od, ed = self._theta(den)
         return on / od * np.exp(en - ed)
+
+    def _expansion_tables(self):
+        """θ-tables of :meth:`expansion`: values at -u∞+d, u∞+d, u∞-d, -u∞-d; values and
+        gradients at -u∞+d, -u∞-d (gradient lattice, as ``riemann_theta(gradient=True)``)."""
+        if "expansion" not in self._cache:
+            from .theta import theta_shift_table
+            d, ui = self.d, self.u_infinity
+            self._cache["expansion"] = (
+                theta_shift_table(np.array([-ui + d, ui + d, ui - d, -ui - d]), self.tau),
+                theta_shift_table(np.array([-ui + d, -ui - d]), self.tau, gradient=True))
+        return self._cache["expansion"]
 
     def _logdiff(self, v):
         from .theta import riemann_theta
@@ -248,20 +263,28 @@ class ModelProblem:
             M2_12 = -1j * l2 * one
         else:
             W = self.W(np.zeros(self.genus) if phases is None else phases)
-            d, ui, v1 = self.d, self.u_infinity, self.v1
+            v1 = self.v1
             shape = W.shape[:-1]
-            bc = np.broadcast_to
-            Q12 = self._ratio(bc(-ui + d, W.shape) + W, bc(-ui + d, W.shape)) * self._ratio(
-                bc(ui + d, W.shape), bc(ui + d, W.shape) + W)
-            Q21 = self._ratio(bc(ui - d, W.shape) + W, bc(ui - d, W.shape)) * self._ratio(
-                bc(ui + d, W.shape), bc(ui + d, W.shape) - W)
-            L12 = self._logdiff(bc(-ui + d, W.shape) + W) - self._logdiff(-ui + d)
-            L22 = self._logdiff(bc(-ui - d, W.shape) + W) - self._logdiff(-ui - d)
-            M1_12 = -1j * l1 * Q12
-            M1_21 = 1j * l1 * Q21
-            M1_22 = -(L22 @ v1)
-            M2_12 = -1j * Q12 * (l2 - l1 * (L12 @ v1))
-            del shape
+            flat = W.reshape(-1, self.genus)
+            # every θ here is at a fixed point shifted by the real ±W: same imaginary part, hence the
+            # same exponent, as the unshifted one, so the scaled parts divide (theta.ThetaShiftTable;
+            # one table of phases for +W, one for -W)
+            values, slopes = self._expansion_tables()
+            plus = shift_phases(flat, [values.lattice, slopes.lattice])
+            minus = plus.at(-flat)
+            at_W = values.oscillatory(plus)                                   # (Q, 4): -ui+d, ui+d, ui-d, -ui-d
+            at_0 = values.unshifted()
+            Q12 = (at_W[:, 0] / at_0[0]) * (at_0[1] / at_W[:, 1])
+            Q21 = (at_W[:, 2] / at_0[2]) * (at_0[1] / values.oscillatory(minus)[:, 1])
+            # ∇θ/θ at -ui+d and -ui-d, with and without the shift, on the gradient lattice
+            g_W = slopes.oscillatory_gradient(plus) / slopes.oscillatory(plus)[:, :, None]
+            g_0 = slopes.unshifted_gradient() / slopes.unshifted()[:, None]
+            L12 = g_W[:, 0] - g_0[0]
+            L22 = g_W[:, 1] - g_0[1]
+            M1_12 = (-1j * l1 * Q12).reshape(shape)
+            M1_21 = (1j * l1 * Q21).reshape(shape)
+            M1_22 = -(L22 @ v1).reshape(shape)
+            M2_12 = (-1j * Q12 * (l2 - l1 * (L12 @ v1))).reshape(shape)
         a2 = M1_12 * M1_21
         b = M2_12 / M1_12 - M1_22
         return {"M1_12": M1_12, "M1_21": M1_21, "M1_22": M1_22, "M2_12": M2_12, "a2": a2, "b": b}

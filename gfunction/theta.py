@@ -874,6 +874,8 @@ class ThetaShiftTable:
     terms: np.ndarray
     exponent: np.ndarray
     truncation_bound: float
+    # the table of the gradient terms 2πi(n - k_p) C_pn, rows (p, j) (theta_shift_table(gradient=True))
+    slopes: Optional["ThetaShiftTable"] = field(default=None, repr=False, compare=False)
     # the folded terms [A; iB] as real pairs, per ShiftPhases point set (see _folded)
     _folded_cache: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
@@ -938,6 +940,28 @@ class ThetaShiftTable:
         sums *= _linear_exponentials(-offsets, phases.shifts[start:stop])[:, which.reshape(-1)]
         return sums
 
+    def oscillatory_gradient(self, shifts: "ArrayLike | ShiftPhases") -> np.ndarray:
+        """∇θ̂(u_p + s_q) (original basis, ``∇θ = ∇θ̂ · exp(exponent[p])``) for real shifts; shape (Q, P, g).
+
+        Only for a table built with ``theta_shift_table(..., gradient=True)``; its lattice has the
+        radius of :func:`riemann_theta` with ``gradient=True``, so the two agree to rounding.
+        """
+        if self.slopes is None:
+            raise InputError("this table has no gradient terms; build it with theta_shift_table(..., gradient=True)")
+        P, g = self.offsets.shape
+        grad = self.slopes.oscillatory(shifts).reshape(-1, P, g)
+        if self.lattice.basis is not None:
+            grad = grad @ self.lattice.basis.T.astype(float)     # ∇_u θ = U ∇_{u'} θ (rows)
+        return grad
+
+    def unshifted_gradient(self) -> np.ndarray:
+        """∇θ̂(u_p) (shift 0, original basis); shape (P, g)."""
+        if self.slopes is None:
+            raise InputError("this table has no gradient terms; build it with theta_shift_table(..., gradient=True)")
+        P, g = self.offsets.shape
+        grad = self.slopes.unshifted().reshape(P, g)
+        return grad if self.lattice.basis is None else grad @ self.lattice.basis.T.astype(float)
+
     def paired(self, shifts: ArrayLike) -> np.ndarray:
         """θ̂(u_p + s_p) for one real shift per argument (``shifts`` (P, g)); shape (P,)."""
         s = np.asarray(shifts, dtype=float).reshape(self.offsets.shape)
@@ -955,12 +979,15 @@ class ThetaShiftTable:
 
 
 def theta_shift_table(u: ArrayLike, tau: ArrayLike, *, tol: float = 1e-14,
-                      max_points: int = 2_000_000, lattice: ThetaLattice | None = None) -> ThetaShiftTable:
+                      max_points: int = 2_000_000, lattice: ThetaLattice | None = None,
+                      gradient: bool = False) -> ThetaShiftTable:
     """Tabulate the theta terms of the arguments ``u`` (P, g) for later real shifts.
 
     See :class:`ThetaShiftTable`; errors as :func:`riemann_theta`.  ``lattice``
     is reused when it belongs to τ and covers the shifts of ``u`` (as in
-    :func:`riemann_theta_scaled`).
+    :func:`riemann_theta_scaled`).  ``gradient``: the lattice is the one of
+    :func:`riemann_theta` with ``gradient=True`` (radius also for the gradient tail) and
+    :meth:`ThetaShiftTable.oscillatory_gradient` is available.
     """
     given = _period_matrix(tau)
     g = given.shape[0]
@@ -970,11 +997,11 @@ def theta_shift_table(u: ArrayLike, tau: ArrayLike, *, tol: float = 1e-14,
     z = z @ U
     c = z.imag @ np.linalg.inv(t.imag)
     k = np.rint(c)
-    if (lattice is not None and lattice.tau.shape == given.shape and np.array_equal(lattice.tau, given)
-            and lattice.covers(c - k)):
+    if (lattice is not None and (lattice.gradient or not gradient) and lattice.tau.shape == given.shape
+            and np.array_equal(lattice.tau, given) and lattice.covers(c - k)):
         lat = lattice
     else:
-        lat = theta_lattice(given, tol=tol, max_points=max_points, shifts=c - k)
+        lat = theta_lattice(given, tol=tol, gradient=gradient, max_points=max_points, shifts=c - k)
     c = z.imag @ lat.Yinv                                  # exactly as in _scaled_sum
     k = np.rint(c)
     exponent = np.pi * np.einsum("pi,pi->p", z.imag, c)
@@ -1004,5 +1031,12 @@ def theta_shift_table(u: ArrayLike, tau: ArrayLike, *, tol: float = 1e-14,
         quad = a_n[None, :] - 2.0 * (tk[sl] @ pts.T) + kk[sl, None]
         lin = z[sl] @ pts.T - ku[sl, None]
         terms[sl] = np.exp(1j * np.pi * quad + 2j * np.pi * lin - exponent[sl, None])
+    slopes = None
+    if gradient:
+        # ∇θ̂ = 2πi Σ_n (n - k_p) C_pn e^{2πi mᵀs}: g more "arguments" per argument (reduced basis)
+        m = pts[None, :, :] - k[:, None, :]                                  # (P, N, g)
+        slopes = ThetaShiftTable(lattice=lat, offsets=np.repeat(k, g, axis=0),
+                                 terms=(2j * np.pi * m.transpose(0, 2, 1) * terms[:, None, :]).reshape(P * g, N),
+                                 exponent=np.repeat(exponent, g), truncation_bound=lat.value_bound)
     return ThetaShiftTable(lattice=lat, offsets=k, terms=terms, exponent=exponent,
-                           truncation_bound=lat.value_bound)
+                           truncation_bound=lat.value_bound, slopes=slopes)
