@@ -84,6 +84,7 @@ __all__ = ["ModelProblem", "model_problem", "gamma_factor", "LatticePoint", "lat
            "GapAbelMap", "gap_abel_map"]
 
 _LIFT = 1e-300  # imaginary lift selecting the + boundary value on a cut
+EXPANSION_CHUNK = 2000   # phases per block of ModelProblem.expansion (its memory is that of one block)
 
 
 def gamma_factor(z, support) -> np.ndarray:
@@ -171,13 +172,15 @@ class ModelProblem:
 
     def _expansion_tables(self):
         """θ-tables of :meth:`expansion`: values at -u∞+d, u∞+d, u∞-d, -u∞-d; values and
-        gradients at -u∞+d, -u∞-d (gradient lattice, as ``riemann_theta(gradient=True)``)."""
+        gradients at -u∞+d, -u∞-d (gradient lattice, as ``riemann_theta(gradient=True)``); the
+        point set of their phases (``theta.ShiftPhases``, to be taken ``.at`` the phases)."""
         if "expansion" not in self._cache:
             from .theta import theta_shift_table
             d, ui = self.d, self.u_infinity
-            self._cache["expansion"] = (
-                theta_shift_table(np.array([-ui + d, ui + d, ui - d, -ui - d]), self.tau),
-                theta_shift_table(np.array([-ui + d, -ui - d]), self.tau, gradient=True))
+            values = theta_shift_table(np.array([-ui + d, ui + d, ui - d, -ui - d]), self.tau)
+            slopes = theta_shift_table(np.array([-ui + d, -ui - d]), self.tau, gradient=True)
+            layout = shift_phases(np.zeros((0, self.genus)), [values.lattice, slopes.lattice])
+            self._cache["expansion"] = (values, slopes, layout)
         return self._cache["expansion"]
 
     def _logdiff(self, v):
@@ -269,18 +272,24 @@ class ModelProblem:
             # every θ here is at a fixed point shifted by the real ±W: same imaginary part, hence the
             # same exponent, as the unshifted one, so the scaled parts divide (theta.ThetaShiftTable;
             # one table of phases for +W, one for -W)
-            values, slopes = self._expansion_tables()
-            plus = shift_phases(flat, [values.lattice, slopes.lattice])
-            minus = plus.at(-flat)
-            at_W = values.oscillatory(plus)                                   # (Q, 4): -ui+d, ui+d, ui-d, -ui-d
+            values, slopes, layout = self._expansion_tables()
             at_0 = values.unshifted()
-            Q12 = (at_W[:, 0] / at_0[0]) * (at_0[1] / at_W[:, 1])
-            Q21 = (at_W[:, 2] / at_0[2]) * (at_0[1] / values.oscillatory(minus)[:, 1])
-            # ∇θ/θ at -ui+d and -ui-d, with and without the shift, on the gradient lattice
-            g_W = slopes.oscillatory_gradient(plus) / slopes.oscillatory(plus)[:, :, None]
             g_0 = slopes.unshifted_gradient() / slopes.unshifted()[:, None]
-            L12 = g_W[:, 0] - g_0[0]
-            L22 = g_W[:, 1] - g_0[1]
+            Q12 = np.empty(flat.shape[0], dtype=complex)
+            Q21 = np.empty(flat.shape[0], dtype=complex)
+            L12 = np.empty(flat.shape, dtype=complex)
+            L22 = np.empty(flat.shape, dtype=complex)
+            # the phases EXPANSION_CHUNK rows at a time: memory independent of the number of phases
+            for start in range(0, flat.shape[0], EXPANSION_CHUNK):
+                rows = slice(start, start + EXPANSION_CHUNK)
+                plus = layout.at(flat[rows])
+                at_W = values.oscillatory(plus)                                # (q, 4): -ui+d, ui+d, ui-d, -ui-d
+                Q12[rows] = (at_W[:, 0] / at_0[0]) * (at_0[1] / at_W[:, 1])
+                Q21[rows] = (at_W[:, 2] / at_0[2]) * (at_0[1] / values.oscillatory(layout.at(-flat[rows]))[:, 1])
+                # ∇θ/θ at -ui+d and -ui-d, with and without the shift, on the gradient lattice
+                g_W = slopes.oscillatory_gradient(plus) / slopes.oscillatory(plus)[:, :, None]
+                L12[rows] = g_W[:, 0] - g_0[0]
+                L22[rows] = g_W[:, 1] - g_0[1]
             M1_12 = (-1j * l1 * Q12).reshape(shape)
             M1_21 = (1j * l1 * Q21).reshape(shape)
             M1_22 = -(L22 @ v1).reshape(shape)

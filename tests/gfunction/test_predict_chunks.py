@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+import gfunction.outer as outer_module
 import gfunction.predict as predict_module
 from equilibrium import Field, solve
 from gfunction import predictor
@@ -14,6 +15,7 @@ def test_chunks_do_not_change_the_predictions(monkeypatch):
     degrees = np.arange(200, 237)
     whole = pred.predict(degrees)
     monkeypatch.setattr(predict_module, "PREDICT_CHUNK", 10)   # four chunks, the last one short
+    monkeypatch.setattr(outer_module, "EXPANSION_CHUNK", 10)   # a, b in blocks of phases too
     chunked = pred.predict(degrees)
     assert whole.verified and chunked.verified
     np.testing.assert_allclose(chunked.a, whole.a, rtol=1e-14, atol=0)
