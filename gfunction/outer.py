@@ -285,7 +285,7 @@ class ModelProblem:
                 plus = layout.at(flat[rows])
                 at_W = values.oscillatory(plus)                                # (q, 4): -ui+d, ui+d, ui-d, -ui-d
                 Q12[rows] = (at_W[:, 0] / at_0[0]) * (at_0[1] / at_W[:, 1])
-                Q21[rows] = (at_W[:, 2] / at_0[2]) * (at_0[1] / values.oscillatory(layout.at(-flat[rows]))[:, 1])
+                Q21[rows] = (at_W[:, 2] / at_0[2]) * (at_0[1] / values.oscillatory(plus.negated())[:, 1])
                 # ∇θ/θ at -ui+d and -ui-d, with and without the shift, on the gradient lattice
                 g_W = slopes.oscillatory_gradient(plus) / slopes.oscillatory(plus)[:, :, None]
                 L12[rows] = g_W[:, 0] - g_0[0]

@@ -515,18 +515,22 @@ def _scaled_sum(z: np.ndarray, lat: ThetaLattice, gradient: bool):
         for s in range(0, P, step):
             sl = slice(s, s + step)
             W = np.exp(b_p[sl, 0:1] * n1[None, :])                      # (p, width)
-            F = np.repeat(np.exp(c_p[sl, None]), L, axis=1)               # (p, L)
+            inner = W @ M                                                 # (p, L)
+            # the line factors exp(n'ᵀb'_p) (p, L); exp(c_p) multiplies the sums at the end
+            F = None
             for j in range(g - 1):
-                F *= np.exp(b_p[sl, j + 1:j + 2] * ranges[j][None, :])[:, cols[j]]
-            inner = W @ M
-            FI = F * inner
-            osc[sl] = FI.sum(axis=1)
+                f = np.exp(b_p[sl, j + 1:j + 2] * ranges[j][None, :])[:, cols[j]]
+                F = f if F is None else F * f
+            FI = inner if F is None else F * inner
+            scale = np.exp(c_p[sl])
+            osc[sl] = FI.sum(axis=1) * scale
             if gradient:
                 gsum = np.empty((FI.shape[0], g), dtype=complex)
-                gsum[:, 0] = (F * (W @ M1)).sum(axis=1)
+                first = W @ M1
+                gsum[:, 0] = (first if F is None else F * first).sum(axis=1)
                 if g > 1:
                     gsum[:, 1:] = FI @ trail_f
-                grad[sl] = 2j * np.pi * (gsum - k[sl] * osc[sl, None])
+                grad[sl] = 2j * np.pi * (gsum * scale[:, None] - k[sl] * osc[sl, None])
     else:
         pts = lat.points.astype(float)
         a_n = 1j * np.pi * np.einsum("ni,ij,nj->n", pts, t, pts)
@@ -791,6 +795,13 @@ class ShiftPhases:
             raise InputError(f"shifts must be a finite real array of shape (Q, {g}); got shape {np.shape(shifts)}")
         s = s @ self.basis
         return replace(self, shifts=s, table=_phase_table(self.points, s))
+
+    def negated(self) -> "ShiftPhases":
+        """The phases of the shifts ``-s_q``: ``cos`` kept, ``sin`` negated (no exponentials)."""
+        H = self.points.shape[0]
+        table = self.table.copy()
+        table[:, H:] *= -1.0
+        return replace(self, shifts=-self.shifts, table=table)
 
     def rows(self, selection) -> "ShiftPhases":
         """The phases of the shifts ``selection`` (an index or mask of the shifts)."""
