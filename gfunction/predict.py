@@ -49,7 +49,7 @@ from equilibrium.verification import failure_message, failure_policy, settle
 from .gfunction import GFunction, g_function
 from .outer import ModelProblem, gamma_factor, gap_abel_map, model_problem
 from .phase import reduced_phase
-from .theta import ShiftPhases, riemann_theta_scaled, shift_phases, theta_lattice, theta_shift_table
+from .theta import ShiftPhases, shift_phases, theta_lattice, theta_shift_table
 
 __all__ = ["Predictor", "Prediction", "RecurrencePrediction", "GapZeros", "BandCounts", "EdgeZeros",
            "TOLERANCES", "harmonic_phases", "predictor"]
@@ -491,14 +491,15 @@ class Predictor:
     def _m11_pointwise(self, xs, us, W, c1, lattice):
         """M_11 at point i with phases W[i] (pointwise pairing), real xs on a gap.
 
-        θ̂(u + d + W) and θ̂(u + d) by the line sums of ``theta.riemann_theta_scaled`` (one
-        matrix product per call instead of a table of terms); same exponent, so they divide.
+        θ̂(u + d + W) and θ̂(u + d) by the line sums of ``theta.riemann_theta_scaled`` on the gap's
+        lattice (``ThetaLattice.scaled``: one matrix product per call instead of a table of terms);
+        same exponent, so they divide.
         """
         mp = self.model
         gam = gamma_factor(xs + 1e-300j, mp.support)
         A = (gam + 1 / gam) / 2
         v = us + mp.d
-        osc, _ = riemann_theta_scaled(np.concatenate([v + W, v]), mp.tau, lattice=lattice)
+        osc, _ = lattice.scaled(np.concatenate([v + W, v]))
         return A * osc[:len(xs)] / osc[len(xs):] * c1
 
     def gap_zeros(self, degrees, scalings=None, *, on_failure: str = "raise") -> GapZeros:

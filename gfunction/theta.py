@@ -357,6 +357,22 @@ class ThetaLattice:
             return True
         return bool(np.max(np.linalg.norm(r @ (np.sqrt(np.pi) * self.T).T, axis=1)) <= self.shift_radius)
 
+    def scaled(self, u: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
+        """``riemann_theta_scaled(u, tau, lattice=self)`` for arguments u (P, g) without checking τ
+        again (it was checked when this lattice was built): ``(oscillatory, exponent)``, shape (P,).
+
+        For many small calls on one lattice (root finding).  Arguments whose shifts this
+        lattice does not cover, or non-finite ones, go through :func:`riemann_theta_scaled`.
+        """
+        g = self.T.shape[0]
+        z = np.asarray(u, dtype=complex).reshape(-1, g)
+        zr = self.to_reduced(z)
+        c = zr.imag @ self.Yinv
+        if not (np.all(np.isfinite(z)) and self.covers(c - np.rint(c))):
+            return riemann_theta_scaled(z, self.tau, lattice=self)
+        osc, exponent, _, _ = _scaled_sum(zr, self, False)
+        return osc, exponent
+
     def to_reduced(self, u: np.ndarray) -> np.ndarray:
         """Arguments (P, g) in the reduced basis: rows ``Uᵀu``."""
         return u if self.basis is None else u @ self.basis

@@ -318,6 +318,14 @@ def test_folded_shift_sums_equal_the_direct_lattice_sum(g):
         for _ in range(2):
             osc, expo = riemann_theta_scaled((u[None, :, :] + s[:, None, :]).reshape(-1, g), tau, lattice=lat)
             assert np.max(np.abs(osc.reshape(ref.shape) - ref / np.exp(expo.reshape(ref.shape)))) < 1e-14
+        # ThetaLattice.scaled: the same sums without the checks of τ (bit for bit), and an argument
+        # the lattice does not cover goes through riemann_theta_scaled (a lattice of its own)
+        args = (u[None, :, :] + s[:, None, :]).reshape(-1, g)
+        assert all(np.array_equal(x, y) for x, y in zip(lat.scaled(args), riemann_theta_scaled(args, tau, lattice=lat)))
+        narrow = theta_lattice(tau, shifts=np.zeros((1, g)))       # covers the shift r = 0 only
+        assert not narrow.covers(narrow.shifts_of(u))
+        osc, expo = narrow.scaled(u)
+        assert np.max(np.abs(osc * np.exp(expo) - reference(u)) / np.exp(expo)) < 1e-14
 
 
 # --- rounding, which the truncation bound does not contain ----------------------------------
