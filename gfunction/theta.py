@@ -903,7 +903,7 @@ class ThetaShiftTable:
     truncation_bound: float
     # the table of the gradient terms 2πi(n - k_p) C_pn, rows (p, j) (theta_shift_table(gradient=True))
     slopes: Optional["ThetaShiftTable"] = field(default=None, repr=False, compare=False)
-    # the folded terms [A; iB] as real pairs, per ShiftPhases point set (see _folded)
+    # the folded terms [A; iB] as real pairs, per ShiftPhases point set (see _folded); the distinct offsets
     _folded_cache: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def _folded(self, phases: ShiftPhases) -> np.ndarray | None:
@@ -924,7 +924,10 @@ class ThetaShiftTable:
         folded[H + index[minus]] -= 1j * terms[minus]
         folded = folded.view(float)                             # (2H, 2P): real and imaginary parts
         if len(self._folded_cache) > 8:
+            offsets = self._folded_cache.get("offsets")
             self._folded_cache.clear()
+            if offsets is not None:
+                self._folded_cache["offsets"] = offsets
         self._folded_cache[id(phases.points)] = (phases.points, folded)
         return folded
 
@@ -962,9 +965,12 @@ class ThetaShiftTable:
     def _product(self, phases: ShiftPhases, folded: np.ndarray, start: int, stop: int) -> np.ndarray:
         """(Σ_n C_pn e^{2πi nᵀs_q}) e^{-2πi k_pᵀs_q} for the shifts ``start:stop`` of ``phases``."""
         sums = np.ascontiguousarray(phases.table[start:stop] @ folded).view(complex)   # (q, P)
-        # e^{-2πi k_pᵀs}: the offsets are few distinct integer vectors
-        offsets, which = np.unique(self.offsets.astype(np.int64), axis=0, return_inverse=True)
-        sums *= _linear_exponentials(-offsets, phases.shifts[start:stop])[:, which.reshape(-1)]
+        # e^{-2πi k_pᵀs}: the offsets are few distinct integer vectors (found once per table)
+        if "offsets" not in self._folded_cache:
+            offsets, which = np.unique(self.offsets.astype(np.int64), axis=0, return_inverse=True)
+            self._folded_cache["offsets"] = (offsets, which.reshape(-1))
+        offsets, which = self._folded_cache["offsets"]
+        sums *= _linear_exponentials(-offsets, phases.shifts[start:stop])[:, which]
         return sums
 
     def oscillatory_gradient(self, shifts: "ArrayLike | ShiftPhases") -> np.ndarray:
