@@ -73,6 +73,7 @@ def corrected_prediction(predictor, degrees, *, order: int = 0, method: str = "s
 
     ``residual`` -- a prepared :class:`gfunction.residual_problem.ResidualSolver` to reuse.
     """
+    from .polynomial_form import corrections as polynomial_corrections
     from .polynomial_form import gap_zeros as corrected_gap_zeros
     from .residual_problem import residual_solver
     from .series import corrected_recurrence
@@ -92,12 +93,14 @@ def corrected_prediction(predictor, degrees, *, order: int = 0, method: str = "s
         parts.append(("", base))
         corrections = None
     else:
-        rec = corrected_recurrence(predictor, degrees, order, on_failure="mark")
+        # one set of residual expansions serves a_n, b_n and the gap zeros
+        cor = polynomial_corrections(predictor, degrees, order) if predictor.genus else None
+        rec = corrected_recurrence(predictor, degrees, order, on_failure="mark", corrections=cor)
         a, b = rec.a.at_order(order), rec.b.at_order(order)
         corrections = {"a": rec.a.corrections.copy(), "b": rec.b.corrections.copy()}
         parts.append(("recurrence_", rec))
         if predictor.genus:
-            gaps = corrected_gap_zeros(predictor, degrees, order, on_failure="mark")
+            gaps = corrected_gap_zeros(predictor, degrees, order, corrections=cor, on_failure="mark")
             gz = np.asarray(gaps.zeros, dtype=float)
             parts.append(("gaps_", gaps))
             cnt = predictor.band_counts(degrees, None, gaps, on_failure="mark")

@@ -115,6 +115,14 @@ def _series_matrices(kind: str, order: int, alpha: float) -> np.ndarray:
     return out
 
 
+def horner(terms: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """``Σ_{k≥1} terms[k-1] x^k`` for matrices ``terms`` (K, 2, 2) at points ``x`` (P,); (P, 2, 2)."""
+    acc = np.zeros(x.shape + (2, 2), dtype=complex)
+    for k in range(terms.shape[0], 0, -1):
+        acc = (acc + terms[k - 1]) * x[..., None, None]
+    return acc
+
+
 def pole_order(kind: str, k: int) -> int:
     """Order of the pole of ``Δ_k`` at the edge (module docstring).
 

@@ -48,16 +48,24 @@ __all__ = ["Corrections", "corrections", "outer_form", "band_form", "value_form"
 _LIFT = 1e-300j
 
 
+#: degrees per batched residual expansion (as ``gfunction.series.corrected_recurrence``)
+CHUNK = 256
+#: degrees per block of :func:`gap_zeros` (bounds its memory: ~30 MB of tables per block)
+_GAP_BLOCK = 512
+
+
 @dataclass(frozen=True)
 class Corrections:
     """The residual expansions of a batch of degrees at one order (``gfunction.residual``).
 
-    ``expansions[i]`` is the ``ResidualExpansion`` of ``degrees[i]`` alone (its circles are
-    those of ``gfunction.local.edge_parametrix``).  :meth:`row` gives the first row of
-    ``R J`` (module docstring) and :meth:`matrix` ``R`` itself, at points paired with degrees.
-    ``verified``, ``checks`` and ``message`` are those of the residual expansion of the first
-    degree (trapezoid against residues, symmetry, ``det R = 1`` order by order, the series
-    against the exact jump; ``gfunction.residual``); the predictions built on it carry them.
+    ``expansions[i]`` is the batched ``ResidualExpansion`` of ``degrees[CHUNK i : CHUNK (i+1)]``
+    (one set of circles and one jump expansion for all; the degree with position ``p`` in
+    ``degrees`` is row ``p % CHUNK`` of expansion ``p // CHUNK``).  :meth:`row` gives the first row
+    of ``R J`` (module docstring) and :meth:`matrix` ``R`` itself, at points paired with degrees;
+    :meth:`grid_row` the row for every degree at every point of a grid.  ``verified``, ``checks``
+    and ``message`` are those of the first expansion (its checks: trapezoid against residues,
+    symmetry, ``det R = 1`` order by order, the series against the exact jump of its first
+    degree; ``gfunction.residual``); the predictions built on it carry them.
     """
 
     predictor: Any
@@ -75,6 +83,11 @@ class Corrections:
         parts = [m for m in (message, self.message) if m]
         return out, not parts, "; ".join(parts)
 
+    @property
+    def jump(self):
+        """The ``JumpExpansion`` shared by the expansions (circles, local parametrices)."""
+        return self.expansions[0].jump
+
     def _index(self, degrees, shape) -> np.ndarray:
         d = np.broadcast_to(np.asarray(degrees, dtype=np.int64), shape)
         pos = np.searchsorted(self.degrees, d)
@@ -84,46 +97,99 @@ class Corrections:
             raise InputError(f"no residual expansion for degrees {missing[:5]}")
         return pos
 
+    def at_infinity(self, degrees) -> tuple[np.ndarray, np.ndarray]:
+        """``(R^{(k)}_1, R^{(k)}_2)`` (k = 1 … K) of each degree: two arrays (K, len(degrees), 2, 2)."""
+        pos = self._index(degrees, np.shape(degrees))
+        inf = np.stack([self.expansions[p // CHUNK].infinity[:, p % CHUNK] for p in np.ravel(pos)], axis=1)
+        return inf[:, :, 0], inf[:, :, 1]
+
     def matrix(self, z, degrees) -> np.ndarray:
-        """``R = I + Σ_{k≤K} R^{(k)}/n^k`` at ``z`` (inner R inside the discs), one degree per point."""
+        """``R = I + Σ_{k≤K} R^{(k)}/n^k`` at ``z`` (inner R inside the discs), one degree per point.
+
+        ``ResidualExpansion.paired_value`` of each batch: the modes of every point's degree are
+        gathered, the powers of ``(z - e)/r`` computed once per point.
+        """
         z = np.asarray(z, dtype=complex)
         pos = self._index(degrees, z.shape)
         out = np.empty(z.shape + (2, 2), dtype=complex)
-        for i in np.unique(pos):
-            sel = pos == i
-            out[sel] = self.expansions[i].value(z[sel], self.order)[0]
+        batch = pos // CHUNK
+        for i in np.unique(batch):
+            sel = batch == i
+            out[sel] = self.expansions[i].paired_value(z[sel], pos[sel] - CHUNK * i, self.order)
         return out
 
-    def row(self, x, degrees) -> np.ndarray:
-        """First row of ``R J`` at real ``x`` (upper side), ``J = P N^{-1}`` in the discs; ``x.shape + (2,)``."""
+    def row(self, x, degrees, *, outer=None) -> np.ndarray:
+        """First row of ``R J`` at real ``x`` (upper side), ``J = P N^{-1}`` in the discs; ``x.shape + (2,)``.
+
+        ``outer`` -- ``M(x + i0; w_n)`` at the same points (``x.shape + (2, 2)``), reused by the
+        local parametrices inside the discs when the caller has it.
+        """
         x = np.asarray(x, dtype=float)
         z = x + _LIFT
         n = np.broadcast_to(np.asarray(degrees, dtype=np.int64), x.shape)
-        row = self.matrix(z, n)[..., 0, :].copy()
-        for ep in self.expansions[0].jump.parametrices:
+        # R is analytic across the real line (outside the discs and, inner R, inside them): it is
+        # evaluated at x itself; the lift selects boundary values of M and P only (its products
+        # with the modes would be subnormal numbers, ~50 times slower arithmetic)
+        row = self.matrix(x.astype(complex), n)[..., 0, :].copy()
+        for ep in self.jump.parametrices:
             inside = np.abs(z - ep.edge) < ep.radius
             if np.any(inside):
-                J = np.eye(2) + ep.mismatch(z[inside], n[inside])
+                J = np.eye(2) + ep.mismatch(z[inside], n[inside], outer=None if outer is None else outer[inside])
                 row[inside] = np.einsum("pi,pij->pj", row[inside], J)
+        return row
+
+    def grid_row(self, x, degrees, *, outer=None) -> np.ndarray:
+        """:meth:`row` at every point of the 1-d grid ``x`` for every degree of ``degrees``; (N, P, 2).
+
+        ``outer`` -- ``M`` on the grid, shape (N, P, 2, 2).  The powers of ``(z - e)/r`` and the
+        local variables of the discs are computed once per point (they do not depend on n).
+        """
+        x = np.asarray(x, dtype=float).ravel()
+        z = x + _LIFT
+        n = np.atleast_1d(np.asarray(degrees, dtype=np.int64))
+        pos = self._index(n, n.shape)
+        row = np.empty((n.size, x.size, 2), dtype=complex)
+        batch = pos // CHUNK
+        for i in np.unique(batch):
+            sel = batch == i
+            row[sel] = self.expansions[i].grid_value(x.astype(complex), pos[sel] - CHUNK * i, self.order)[..., 0, :]
+        for ep in self.jump.parametrices:
+            inside = np.abs(z - ep.edge) < ep.radius
+            if np.any(inside):
+                J = np.eye(2) + ep.mismatch(z[inside], n[:, None],
+                                            outer=None if outer is None else outer[:, inside])
+                row[:, inside] = np.einsum("npi,npij->npj", row[:, inside], J)
         return row
 
 
 def corrections(predictor, degrees, order: int, *, jump=None) -> Corrections | None:
-    """:class:`Corrections` of ``degrees`` (degree = scaling) at ``order`` (None at order 0: R = J = I)."""
+    """:class:`Corrections` of ``degrees`` (degree = scaling) at ``order`` (None at order 0: R = J = I).
+
+    The expansions are batched ``CHUNK`` degrees at a time (as in
+    ``gfunction.series.corrected_recurrence``, which can reuse them); the first batch carries the
+    checks.
+    """
     order = int(order)
     if order < 0:
         raise InputError(f"the order must be a non-negative integer; got {order}")
     if order == 0:
         return None
-    from .residual import jump_expansion, residual_expansion
+    from .residual import jump_expansion
     degrees = np.unique(np.atleast_1d(np.asarray(degrees)).astype(np.int64))
     if jump is None or jump.order < order:
         jump = jump_expansion(predictor, order)
-    # the first degree carries the checks (they cost a second set of circles); the rest reuse the
-    # same circles and jump expansion
-    first = residual_expansion(predictor, [int(degrees[0])], order, jump=jump, verify=True, on_failure="mark")
-    exps = (first,) + tuple(residual_expansion(predictor, [int(n)], order, jump=jump, verify=False)
-                            for n in degrees[1:])
+    return _build(predictor, degrees, order, jump)
+
+
+def _build(predictor, degrees, order, jump, verify: bool = True) -> Corrections:
+    """:class:`Corrections` of the sorted unique ``degrees`` on ``jump`` (checks of the first batch if
+    ``verify``; otherwise the result is not verified)."""
+    from .residual import residual_expansion
+
+    exps = tuple(residual_expansion(predictor, degrees[s:s + CHUNK], order, jump=jump, verify=verify and s == 0,
+                                    on_failure="mark")
+                 for s in range(0, degrees.size, CHUNK))
+    first = exps[0]
     return Corrections(predictor, degrees, order, exps, bool(first.verified), dict(first.checks), first.message)
 
 
@@ -147,9 +213,56 @@ def outer_form(predictor, x, degrees, order: int = 0, *, corrections: Correction
     cor = _corrections_for(predictor, n, order, corrections)
     if cor is None:
         return M[..., 0, 0]
-    row = cor.row(x, n)
+    return _combine(predictor, cor.row(x, n, outer=M), M)
+
+
+def _combine(predictor, row, M) -> np.ndarray:
+    """``m̃ = r_1 M_11 + r_2 D_∞^{-2} M_21``."""
     lim2 = 1.0 if predictor.szego is None else predictor.szego.limit ** 2
     return row[..., 0] * M[..., 0, 0] + row[..., 1] * M[..., 1, 0] / lim2
+
+
+def _outer_grid(predictor, x, degrees, table=None) -> np.ndarray:
+    """``M(x + i0; w_n)`` at every point of the 1-d grid ``x`` for every degree; shape (N, P, 2, 2).
+
+    ``gfunction.residual.OuterTable`` of the points (one theta table for all phases; ``table``: a
+    prepared one), except within 1 % of the gap width of a gap point ``z_j``, where ``M_12`` and
+    ``M_21`` are 0/0 and ``ModelProblem.evaluate`` (its interpolation there) gives them.
+    """
+    from .residual import outer_table
+
+    model = predictor.model
+    x = np.asarray(x, dtype=float).ravel()
+    n = np.atleast_1d(np.asarray(degrees, dtype=np.int64))
+    z = x + _LIFT
+    if table is None:
+        table = outer_table(model, z)
+    g = predictor.genus
+    w = predictor.phases(n)
+    M = table.evaluate(model.W(w) if g else np.zeros((n.size, 0)))
+    close = np.zeros(x.shape, dtype=bool)
+    for j, zj in enumerate(model.gap_points):
+        close |= np.abs(z - zj) < 1e-2 * (model.support[j + 1][0] - model.support[j][1])
+    if np.any(close):
+        shape = (n.size, int(close.sum()))
+        M[:, close] = model.evaluate(np.broadcast_to(z[close], shape), np.broadcast_to(w[:, None, :], shape + (g,)),
+                                     abel=np.broadcast_to(model.abel(z[close]), shape + (g,)))
+    return M
+
+
+def _outer_form_grid(predictor, x, degrees, cor, table=None) -> np.ndarray:
+    """:func:`outer_form` at every point of the 1-d grid ``x`` for every degree; shape (N, P).
+
+    The theta tables of ``M``, the powers of the circle variables and the local variables are
+    computed once per point and shared by the degrees (the numbers of :func:`outer_form` on the
+    grid, to rounding).
+    """
+    x = np.asarray(x, dtype=float).ravel()
+    n = np.atleast_1d(np.asarray(degrees, dtype=np.int64))
+    M = _outer_grid(predictor, x, n, table)
+    if cor is None:
+        return M[..., 0, 0]
+    return _combine(predictor, cor.grid_row(x, n, outer=M), M)
 
 
 def band_form(predictor, x, degree: int, order: int = 0, *, corrections: Corrections | None = None) -> np.ndarray:
@@ -199,37 +312,54 @@ def gap_zeros(predictor, degrees, order: int = 1, *, corrections: Corrections | 
     from equilibrium.verification import failure_policy, settle
 
     from .predict import GapZeros, _refine_sign_changes
+    from .residual import outer_table
 
     failure_policy(on_failure)
 
     degrees = np.atleast_1d(np.asarray(degrees)).astype(np.int64)
-    cor = _corrections_for(predictor, degrees, order, corrections)
     g = predictor.genus
     out = np.full((degrees.size, g), np.nan)
     worst_imag, most = 0.0, 0
     t = np.linspace(0.0, np.pi, points)[1:-1]
     w = predictor.phases(degrees)
+    grids = []
     for j in range(g):
         lo, hi = predictor.g.support[j][1], predictor.g.support[j + 1][0]
-        phase = np.exp(1j * np.pi * w[:, j])
         xs = lo + (hi - lo) * (1 - np.cos(t)) / 2
-        grid = np.broadcast_to(xs, (degrees.size, xs.size))
-        v = outer_form(predictor, grid, degrees[:, None], order, corrections=cor) * phase[:, None]
-        worst_imag = max(worst_imag, float(np.max(np.abs(v.imag) / (1 + np.abs(v)))))
-        r = v.real
-        change = np.sign(r[:, :-1]) * np.sign(r[:, 1:]) < 0
-        count = change.sum(axis=1)
-        most = max(most, int(count.max(initial=0)))
-        rows = np.nonzero(count == 1)[0]
-        if rows.size == 0:
-            continue
-        idx = np.argmax(change[rows], axis=1)
+        grids.append((xs, outer_table(predictor.model, xs + _LIFT)))
+    # blocks of degrees bound the memory (the grid values and the local parametrices of a block);
+    # without given corrections each block gets its own, the first one carrying the checks
+    jump = None
+    if corrections is None and int(order) > 0:
+        from .residual import jump_expansion
+        jump = jump_expansion(predictor, int(order))
+    cor = None
+    for start in range(0, degrees.size, _GAP_BLOCK):
+        sl = slice(start, start + _GAP_BLOCK)
+        block = degrees[sl]
+        if jump is not None:
+            cb = _build(predictor, np.unique(block), int(order), jump, verify=start == 0)
+        else:
+            cb = _corrections_for(predictor, block, order, corrections)
+        cor = cb if cor is None else cor
+        for j, (xs, table) in enumerate(grids):
+            phase = np.exp(1j * np.pi * w[sl, j])
+            v = _outer_form_grid(predictor, xs, block, cb, table) * phase[:, None]
+            worst_imag = max(worst_imag, float(np.max(np.abs(v.imag) / (1 + np.abs(v)))))
+            r = v.real
+            change = np.sign(r[:, :-1]) * np.sign(r[:, 1:]) < 0
+            count = change.sum(axis=1)
+            most = max(most, int(count.max(initial=0)))
+            rows = np.nonzero(count == 1)[0]
+            if rows.size == 0:
+                continue
+            idx = np.argmax(change[rows], axis=1)
 
-        def f(x, active, rows=rows):
-            sel = rows[active]
-            return (outer_form(predictor, x, degrees[sel], order, corrections=cor) * phase[sel]).real
+            def f(x, active, rows=rows, block=block, phase=phase, cb=cb):
+                sel = rows[active]
+                return (outer_form(predictor, x, block[sel], order, corrections=cb) * phase[sel]).real
 
-        out[rows, j] = _refine_sign_changes(f, xs[idx], xs[idx + 1], r[rows, idx], r[rows, idx + 1])
+            out[start + rows, j] = _refine_sign_changes(f, xs[idx], xs[idx + 1], r[rows, idx], r[rows, idx + 1])
     checks = {"gap_realness": worst_imag, "gap_sign_changes": float(most)}
     verified, message = predictor._verdict(checks, f"gap zeros at order {order}")
     if cor is not None:

@@ -134,8 +134,6 @@ TOLERANCES = {"meromorphic": 1e-9, "fourier_tail": 1e-8, "symmetry": 1e-11, "det
 _S3 = np.diag([1.0, -1.0]).astype(complex)
 _DEFAULT_SAMPLES = 64
 _MODE_MARGIN = 2    # negative modes kept beyond the pole order (they must be rounding)
-_AIRY_SERIES_FROM = 20.0   # |ξ| from which the Airy jump is taken from its series (exact_jump)
-_AIRY_SERIES_TERMS = 20
 
 
 # ---------------------------------------------------------------- circle helpers
@@ -298,7 +296,7 @@ class JumpExpansion:
         Same formula as :meth:`exact_minus_identity` (``local``), evaluated from the stored
         local variables and the outer table (the fast path of the residual problem).
         """
-        from .local import _airy_Q, _bessel_Q
+        from .local import _bessel_Q, airy_Q
 
         n = float(degree)
         if NU is None:
@@ -307,35 +305,13 @@ class JumpExpansion:
         eye = np.eye(2)
         for c, ep in enumerate(self.parametrices):
             if ep.kind == "soft":
-                # scipy's scaled Airy functions lose ~ eps·|ξ| (3.7e-14 at |ζ| = 100, 3.7e-11 at 1e4,
-                # against mpmath); where |ξ| ≥ 20 the 20-term series is exact to 2e-16 (its first
-                # omitted term u_21 ξ^{-21}) and replaces them
-                xi = n * self.large_variable[c]
-                big = np.abs(xi) >= _AIRY_SERIES_FROM
-                Q = np.empty(xi.shape + (2, 2), dtype=complex)
-                if np.any(big):
-                    terms = series_matrices("soft", _AIRY_SERIES_TERMS)
-                    # only the terms above 1e-18 at the smallest |ξ| (few at large n)
-                    size = np.max(np.abs(terms), axis=(1, 2)) * float(np.min(np.abs(xi[big]))) ** -np.arange(
-                        1.0, _AIRY_SERIES_TERMS + 1)
-                    used = int(np.nonzero(size > 1e-18)[0].max(initial=0)) + 1
-                    Q[big] = eye + _horner(terms[:used], 1.0 / xi[big])
-                if not np.all(big):
-                    Q[~big] = _airy_Q(n ** (2.0 / 3.0) * self.local_variable[c][~big])
+                Q = airy_Q(n ** (2.0 / 3.0) * self.local_variable[c], n * self.large_variable[c])
             else:
                 Q = _bessel_Q(n * self.local_variable[c], ep.alpha)
             if ep.side < 0:
                 Q = _S3 @ Q @ _S3
             out[c] = _mul(_mul(NU[c], Q - eye), _inverse(NU[c]))
         return out
-
-
-def _horner(terms: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """``Σ_{k≥1} terms[k-1] x^k`` for matrices ``terms`` (K, 2, 2) at points ``x`` (P,); (P, 2, 2)."""
-    acc = np.zeros(x.shape + (2, 2), dtype=complex)
-    for k in range(terms.shape[0], 0, -1):
-        acc = (acc + terms[k - 1]) * x[..., None, None]
-    return acc
 
 
 def _mul(X: np.ndarray, Y: np.ndarray) -> np.ndarray:
@@ -482,12 +458,98 @@ class ResidualExpansion:
             out = out + self.term(k, z) / n ** k
         return out
 
+    def _circle_basis(self, flat: np.ndarray):
+        r"""Per circle ``c``: ``(inside, t^{-m} (m = 1 … keep), t^m (m = 0 … L/2-1) at the inside points)``.
+
+        ``t = (z - e_c)/r_c`` depends on ``z`` only, so these powers serve every degree.
+        """
+        L = self.modes.shape[3]
+        keep = _principal_modes(self.jump)
+        neg = np.arange(1, keep + 1)
+        pos = np.arange(L // 2)
+        out = []
+        for e, r in zip(self.jump.centres, self.jump.radii):
+            tt = (flat - e) / r
+            inside = np.abs(tt) < 1.0
+            out.append((inside, tt[:, None] ** -neg[None, :], tt[inside][:, None] ** pos[None, :]))
+        return out
+
+    def paired_value(self, z, rows, order: int | None = None) -> np.ndarray:
+        r"""``I + Σ_{k ≤ order} R^{(k)}(z_p)/n^k`` with the degree ``degrees[rows[p]]`` at point ``p``.
+
+        The same ``R`` as :meth:`value` for all points and degrees at once: outside circle ``c``
+        its transform is the principal part ``Σ_{m=1}^{keep} c_{-m} t^{-m}`` (the modes below
+        ``-keep`` are rounding, ``checks['meromorphic']``; the coefficients at ∞ and the inner
+        values of :func:`residual_expansion` use the same principal part), inside it
+        ``-Σ_{m=0}^{L/2-1} c_m t^m``; the modes are gathered per point.  Shape ``z.shape + (2, 2)``.
+        """
+        order = self.order if order is None else int(order)
+        z = np.asarray(z, dtype=complex)
+        flat = z.ravel()
+        rows = np.broadcast_to(np.asarray(rows, dtype=np.int64), z.shape).ravel()
+        L = self.modes.shape[3]
+        keep = _principal_modes(self.jump)
+        neg_idx = L - np.arange(1, keep + 1)
+        basis = self._circle_basis(flat)
+        n = self.degrees.astype(float)[rows][:, None, None]
+        out = np.broadcast_to(np.eye(2, dtype=complex), flat.shape + (2, 2)).copy()
+        for k in range(1, order + 1):
+            cm = self.modes[k - 1]                                   # (N, C, L, 2, 2)
+            term = np.zeros(flat.shape + (2, 2), dtype=complex)
+            for c, (inside, negp, posp) in enumerate(basis):
+                outside = ~inside
+                if np.any(outside):
+                    g = cm[rows[outside], c][:, neg_idx]             # (P_out, keep, 2, 2)
+                    term[outside] += np.einsum("pm,pmij->pij", negp[outside], g)
+                if np.any(inside):
+                    g = cm[rows[inside], c, : L // 2]                # (P_in, L/2, 2, 2)
+                    term[inside] -= np.einsum("pm,pmij->pij", posp, g)
+            out = out + term / n ** k
+        return out.reshape(z.shape + (2, 2))
+
+    def grid_value(self, z, rows, order: int | None = None) -> np.ndarray:
+        r"""``I + Σ_{k ≤ order} R^{(k)}(z_q)/n^k`` at every point ``z_q`` for every degree ``degrees[rows[i]]``.
+
+        :meth:`paired_value` on the grid ``rows × z``: one matrix product per circle and order
+        (the powers of ``t`` are shared by the degrees).  Shape ``(len(rows),) + z.shape + (2, 2)``.
+        """
+        order = self.order if order is None else int(order)
+        z = np.asarray(z, dtype=complex)
+        flat = z.ravel()
+        rows = np.atleast_1d(np.asarray(rows, dtype=np.int64))
+        N, P = rows.size, flat.size
+        L = self.modes.shape[3]
+        keep = _principal_modes(self.jump)
+        neg_idx = L - np.arange(1, keep + 1)
+        basis = self._circle_basis(flat)
+        n = self.degrees.astype(float)[rows][:, None, None, None]
+        out = np.broadcast_to(np.eye(2, dtype=complex), (N, P, 2, 2)).copy()
+        for k in range(1, order + 1):
+            cm = self.modes[k - 1][rows]                             # (N, C, L, 2, 2)
+            term = np.zeros((P, N * 4), dtype=complex)
+            for c, (inside, negp, posp) in enumerate(basis):
+                outside = ~inside
+                if np.any(outside):
+                    g = cm[:, c, neg_idx].transpose(1, 0, 2, 3).reshape(keep, N * 4)
+                    term[outside] += negp[outside] @ g
+                if np.any(inside):
+                    g = cm[:, c, : L // 2].transpose(1, 0, 2, 3).reshape(L // 2, N * 4)
+                    term[inside] -= posp @ g
+            out = out + term.reshape(P, N, 2, 2).transpose(1, 0, 2, 3) / n ** k
+        return out.reshape((N,) + z.shape + (2, 2))
+
     def at_infinity(self, order: int | None = None) -> np.ndarray:
         """``Σ_{k ≤ order} R^{(k)}_p / n^k``: the coefficients of ``R - I`` at ∞; (N, P, 2, 2)."""
         order = self.order if order is None else int(order)
         n = self.degrees.astype(float)[:, None, None, None]
         return sum((self.infinity[k] / n ** (k + 1) for k in range(order)),
                    np.zeros(self.infinity.shape[1:], dtype=complex))
+
+
+def _principal_modes(jump: JumpExpansion) -> int:
+    """How many negative modes ``-1 … -keep`` make the principal parts: the pole order and a margin."""
+    L = jump.samples
+    return int(min(L // 2 - 1, int(np.max(jump.poles)) + _MODE_MARGIN))
 
 
 def _negative_part(modes: np.ndarray, count: int) -> np.ndarray:
@@ -553,7 +615,7 @@ def residual_expansion(predictor, degrees, order: int = 2, *, samples: int = _DE
     NU = jump.outer_times_u(degrees)
     delta = jump.terms(degrees, NU)[:order]                   # (K, N, C, L, 2, 2)
     C, L = jump.points.shape
-    keep = int(min(L // 2 - 1, int(np.max(jump.poles)) + _MODE_MARGIN))
+    keep = _principal_modes(jump)
     X = _principal_part_matrix(jump, keep)
     idx = L - np.arange(1, keep + 1)                          # FFT positions of the modes -1 … -keep
     N = degrees.size

@@ -219,14 +219,18 @@ class CorrectedRecurrence:
 
 
 def corrected_recurrence(predictor, degrees, order: int = 2, *, samples: int = 64, chunk: int = 256,
-                         on_failure: str = "raise") -> CorrectedRecurrence:
+                         on_failure: str = "raise", corrections=None) -> CorrectedRecurrence:
     """``a_n = Σ_{k≤K} c_k/n^k`` and the same for ``b_n`` (degree = scaling n).
 
     Order 0 is the outer parametrix alone (``Predictor.recurrence``); order K ≥ 1
     adds the residual expansion of :mod:`gfunction.residual`.  The checks are the
     imaginary parts of ``c_k`` (must be rounding: the weight is real), the residual
-    expansion's own checks (first degree), and ``outer_infinity``, the difference
+    expansion's own checks (first batch), and ``outer_infinity``, the difference
     of the closed-form ``N_1, N_2`` from the trapezoidal rule on a large circle.
+
+    ``corrections`` -- a ``gfunction.polynomial_form.Corrections`` of this order covering the
+    degrees (the gap zeros' expansions): its coefficients at ∞ and checks are reused instead of
+    computing the expansions again (``samples`` and ``chunk`` are then those it was built with).
     """
     from .residual import TOLERANCES as RESIDUAL_TOLERANCES
     from .residual import _check_order, jump_expansion, residual_expansion
@@ -243,7 +247,12 @@ def corrected_recurrence(predictor, degrees, order: int = 2, *, samples: int = 6
     R1 = np.zeros((K1, degrees.size, 2, 2), dtype=complex)
     R2 = np.zeros((K1, degrees.size, 2, 2), dtype=complex)
     checks: dict = {}
-    if order:
+    if order and corrections is not None:
+        if corrections.order != order:
+            raise InputError(f"the corrections are of order {corrections.order}, not {order}")
+        R1[1:], R2[1:] = corrections.at_infinity(degrees)
+        checks.update(corrections.checks)
+    elif order:
         jump = jump_expansion(predictor, order, samples=samples)
         for start in range(0, degrees.size, chunk):
             sl = slice(start, start + chunk)

@@ -76,7 +76,7 @@ def test_airy_series_beats_scipy_at_moderate_arguments():
     import mpmath
     from gfunction.local import _airy_Q
     from gfunction.model_series import series_matrices
-    from gfunction.residual import _horner
+    from gfunction.model_series import horner as _horner
 
     mpmath.mp.dps = 30
     w = mpmath.exp(2j * mpmath.pi / 3)
