@@ -59,6 +59,21 @@ class CorrectedPrediction:
     message: str = ""
 
 
+#: degrees per block of the predictions beyond leading order in genus >= 1 (bounds the memory)
+_BLOCK = 2048
+
+
+def _joined(parts) -> SimpleNamespace:
+    """The verdict of several blocks of one prediction: all verified, each check its worst (largest)
+    value, the distinct messages."""
+    checks: dict = {}
+    for p in parts:
+        for k, v in p.checks.items():
+            checks[k] = max(float(v), checks.get(k, float(v)))
+    messages = list(dict.fromkeys(p.message for p in parts if p.message))
+    return SimpleNamespace(verified=all(bool(p.verified) for p in parts), checks=checks, message="; ".join(messages))
+
+
 def _check(order, method) -> tuple[int, str]:
     if isinstance(order, bool) or not isinstance(order, (int, np.integer)) or int(order) not in ORDERS:
         raise InputError(f"order must be one of {', '.join(map(str, ORDERS))}; got {order!r}")
@@ -93,18 +108,32 @@ def corrected_prediction(predictor, degrees, *, order: int = 0, method: str = "s
         parts.append(("", base))
         corrections = None
     else:
-        # one set of residual expansions serves a_n, b_n and the gap zeros
-        cor = polynomial_corrections(predictor, degrees, order) if predictor.genus else None
-        rec = corrected_recurrence(predictor, degrees, order, on_failure="mark", corrections=cor)
-        a, b = rec.a.at_order(order), rec.b.at_order(order)
-        corrections = {"a": rec.a.corrections.copy(), "b": rec.b.corrections.copy()}
-        parts.append(("recurrence_", rec))
         if predictor.genus:
-            gaps = corrected_gap_zeros(predictor, degrees, order, corrections=cor, on_failure="mark")
-            gz = np.asarray(gaps.zeros, dtype=float)
-            parts.append(("gaps_", gaps))
-            cnt = predictor.band_counts(degrees, None, gaps, on_failure="mark")
+            # one set of residual expansions serves a_n, b_n and the gap zeros; blocks of degrees
+            # bound the memory (the expansions of a block: ~50 kB per degree at order 2)
+            from .residual import jump_expansion
+            jump = jump_expansion(predictor, order)
+            got = {"rec": [], "gaps": [], "cnt": []}
+            for start in range(0, degrees.size, _BLOCK):
+                block = degrees[start:start + _BLOCK]
+                cor = polynomial_corrections(predictor, block, order, jump=jump)
+                got["rec"].append(corrected_recurrence(predictor, block, order, on_failure="mark", corrections=cor))
+                got["gaps"].append(corrected_gap_zeros(predictor, block, order, corrections=cor, on_failure="mark"))
+                got["cnt"].append(predictor.band_counts(block, None, got["gaps"][-1], on_failure="mark"))
+            a = np.concatenate([r.a.at_order(order) for r in got["rec"]])
+            b = np.concatenate([r.b.at_order(order) for r in got["rec"]])
+            corrections = {q: np.concatenate([getattr(r, q).corrections for r in got["rec"]], axis=1)
+                           for q in ("a", "b")}
+            gz = np.concatenate([np.asarray(g.zeros, dtype=float) for g in got["gaps"]])
+            parts.append(("recurrence_", _joined(got["rec"])))
+            parts.append(("gaps_", _joined(got["gaps"])))
+            cnt = SimpleNamespace(counts=np.concatenate([np.asarray(c.counts) for c in got["cnt"]]),
+                                  **vars(_joined(got["cnt"])))
         else:
+            rec = corrected_recurrence(predictor, degrees, order, on_failure="mark")
+            a, b = rec.a.at_order(order), rec.b.at_order(order)
+            corrections = {"a": rec.a.corrections.copy(), "b": rec.b.corrections.copy()}
+            parts.append(("recurrence_", rec))
             gz = np.zeros((degrees.size, 0))
             cnt = predictor.band_counts(degrees, on_failure="mark")
         counts = np.asarray(cnt.counts)

@@ -172,7 +172,7 @@ BAD = [
     ("predict_order_three", PRE + ["--potential", "x^2", "--order", "3"], "--order must be one of 0, 1, 2"),
     ("predict_order_text", PRE + ["--potential", "x^2", "--order", "two"], "--order must be one of"),
     ("predict_method", PRE + ["--potential", "x^2", "--method", "exact"], "--method must be one of series"),
-    ("predict_long_corrected", ["predict", "--degrees", "100:9100", "--potential", "x**4/4 - 3*x**2/2",
+    ("predict_long_corrected", ["predict", "--degrees", "100:90100", "--potential", "x**4/4 - 3*x**2/2",
                                 "--order", "2"], "would take about"),
     ("predict_edge_zeros_text", PRE + ["--potential", "x^2", "--edge-zeros", "five"], "--edge-zeros must be an integer"),
     ("predict_edge_zeros_many", PRE + ["--potential", "x^2", "--edge-zeros", "51"], "from 0 to 50"),
