@@ -141,12 +141,15 @@ class Corrections:
     def grid_row(self, x, degrees, *, outer=None) -> np.ndarray:
         """:meth:`row` at every point of the 1-d grid ``x`` for every degree of ``degrees``; (N, P, 2).
 
-        ``outer`` -- ``M`` on the grid, shape (N, P, 2, 2).  The powers of ``(z - e)/r`` and the
-        local variables of the discs are computed once per point (they do not depend on n).
+        ``outer`` -- ``M`` on the grid, shape (N, P, 2, 2) (computed here when not given).  The
+        powers of ``(z - e)/r`` and the local variables of the discs are computed once per point
+        (they do not depend on n).
         """
         x = np.asarray(x, dtype=float).ravel()
         z = x + _LIFT
         n = np.atleast_1d(np.asarray(degrees, dtype=np.int64))
+        if outer is None:
+            outer = _outer_grid(self.predictor, x, n)
         pos = self._index(n, n.shape)
         row = np.empty((n.size, x.size, 2), dtype=complex)
         batch = pos // CHUNK
@@ -156,8 +159,7 @@ class Corrections:
         for ep in self.jump.parametrices:
             inside = np.abs(z - ep.edge) < ep.radius
             if np.any(inside):
-                J = np.eye(2) + ep.mismatch(z[inside], n[:, None],
-                                            outer=None if outer is None else outer[:, inside])
+                J = np.eye(2) + ep.mismatch(z[inside], n[:, None], outer=outer[:, inside])
                 row[:, inside] = np.einsum("npi,npij->npj", row[:, inside], J)
         return row
 
