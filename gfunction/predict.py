@@ -560,9 +560,11 @@ class Predictor:
 
             tl, tr, fl, fr = _tightened(m11_on_gap, th, r[rows], idx[rows], tl, tr, fl, fr)
             def in_x(a, b, lo=gap_abel.lo, hi=gap_abel.hi):
-                # x(b) - x(a) = (hi - lo)(cos a - cos b)/2 = (hi - lo) sin((a+b)/2) sin((b-a)/2)
+                # x(b) - x(a) = (hi - lo)(cos a - cos b)/2 = (hi - lo) sin((a+b)/2) sin((b-a)/2); the
+                # size is that of the gap's ends: x = lo + (hi - lo)(1 - cos t)/2 is rounded to ulps of
+                # them (a zero near x = 0 is not resolved more finely than that)
                 spread = np.abs((hi - lo) * np.sin(0.5 * (a + b)) * np.sin(0.5 * (b - a)))
-                return spread, np.maximum(np.abs(gap_abel.x(a)), np.abs(gap_abel.x(b)))
+                return spread, max(abs(lo), abs(hi))
 
             tr = _refine_sign_changes(m11_on_gap, tl, tr, fl, fr, coordinate=in_x)
             out[rows, j] = gap_abel.x(tr)
@@ -776,11 +778,13 @@ def _refine_sign_changes(function, left, right, f_left, f_right, iterations: int
 
     A bracket is done when it is 4 ulps wide, in the variable itself or, when
     ``coordinate`` is given, in the coordinate the root is reported in:
-    ``coordinate(a, b)`` returns ``(|X(b) - X(a)|, max(|X(a)|, |X(b)|))`` for a
-    monotone map ``X`` (e.g. the angle of a gap to its x), the difference computed
-    without cancellation.  A bracket narrower than 4 ulps of ``X`` cannot change
-    the reported root beyond them; shrinking it further in the variable only
-    halves a bracket inside the function's rounding noise.
+    ``coordinate(a, b)`` returns ``(|X(b) - X(a)|, size)`` for a monotone map
+    ``X`` (e.g. the angle of a gap to its x), the difference computed without
+    cancellation, ``size`` the magnitude to whose ulps ``X`` is rounded (e.g.
+    ``max(|X(a)|, |X(b)|)``, or that of the ends of the gap when ``X`` is formed
+    from them).  A bracket narrower than 4 such ulps cannot change the reported
+    root beyond them; shrinking it further in the variable only halves a bracket
+    inside the function's rounding noise.
     """
     left, right = np.array(left, dtype=float), np.array(right, dtype=float)
     f_left, f_right = np.array(f_left, dtype=float), np.array(f_right, dtype=float)
