@@ -8,7 +8,8 @@ fractions ``Ω_j`` built from them carry an error of a few units of 1e-16 (the m
 outer parametrix, so that error is multiplied by n: about 1e-12 at n = 3000, 1e-9 at n = 10⁶, which
 is above the accuracy of the corrected predictions and of the residual problem.  This module
 re-solves the endpoint equations with mpmath (Newton's method started from the double solution) and
-returns ``Ω_j`` correctly rounded, so that the phases are right to ``n · 2^-53 · Ω_j``.
+returns ``Ω_j`` as a pair of doubles ``omega + omega_low`` (~1e-30), from which :mod:`gfunction.phase`
+forms the phases exactly at any n.
 
 Equations
 ---------
@@ -31,8 +32,10 @@ matrices: a Riemann-Hilbert approach*, 1999, §6.6-6.7, for soft edges; the hard
 The expansion at infinity uses ``R^{1/2}/Q = z^{(s-t)/2} S(1/z)`` with
 ``S(w) = Π_i (1 - e_i w)^{σ_i}``, ``σ = +1/2`` (soft) and ``-1/2`` (hard), whose coefficients follow
 from ``S'/S = -Σ_{m≥0} P_{m+1} w^m``, ``P_m = Σ_i σ_i e_i^m``:
-``(m + 1) s_{m+1} = -Σ_{j=0}^{m} P_{j+1} s_{m-j}``.  The integrals are tanh-sinh quadratures (mpmath
-``quad``), which resolve the square-root singularities at the ends.  The Jacobian of Newton's method
+``(m + 1) s_{m+1} = -Σ_{j=0}^{m} P_{j+1} s_{m-j}``.  The integrals over a gap or band
+``[e_i, e_{i+1}]`` are taken in the angle of ``x = e_i + L sin²(θ/2)``, which turns the square roots
+(soft) and inverse square roots (hard) at its ends into smooth functions of θ, by tanh-sinh
+quadrature (mpmath ``quad``).  The Jacobian of Newton's method
 is a forward difference at the working precision (step ``10^{-(digits+10)/2}``); started within ~1e-15 of
 the root, two steps reach the working precision.
 
@@ -48,7 +51,8 @@ import numpy as np
 
 from .errors import InputError, NumericalFailure
 
-__all__ = ["FrequencyRefinement", "REFINEMENT_CHECKS", "refine_frequencies", "with_refined_frequencies"]
+__all__ = ["FrequencyRefinement", "REFINEMENT_CHECKS", "refine_frequencies", "refinement_figures",
+           "with_refined_frequencies"]
 
 #: the checks :func:`with_refined_frequencies` adds to a measure
 REFINEMENT_CHECKS = ("omega_shift", "ends_shift", "endpoint_residual", "refined_mass_defect", "omega_error")
@@ -146,8 +150,11 @@ def refine_frequencies(measure, digits: int = 32, max_steps: int = 8) -> Frequen
     s, t = int(soft_index.size), int(hard.sum())
     half = (s - t) // 2                                   # R^{1/2}/Q ~ z^half
 
+    omega_double = np.asarray(measure.omega, dtype=float).reshape(k - 1)
+
     with mpmath.workdps(digits + 10):
         mpf = mpmath.mpf
+        sigma = [mpf(-1) / 2 if hard[i] else mpf(1) / 2 for i in range(2 * k)]   # exponents of S
         V = [mpf(float(c)) for c in measure.field.polynomial]
         dV = [i * V[i] for i in range(1, len(V))]
         while dV and dV[-1] == 0:
@@ -192,7 +199,6 @@ def refine_frequencies(measure, digits: int = 32, max_steps: int = 8) -> Frequen
 
         def equations(u):
             e, h = split(u)
-            sigma = [mpf(-1) / 2 if hard[i] else mpf(1) / 2 for i in range(2 * k)]
             terms = top + 2                               # w^0 … w^(top+1) of S
             P = [sum(sg * ei ** m for sg, ei in zip(sigma, e)) for m in range(terms + 1)]
             S = [mpf(1)]
@@ -238,20 +244,19 @@ def refine_frequencies(measure, digits: int = 32, max_steps: int = 8) -> Frequen
         defect = abs(mpmath.fsum(masses) - 1)
         omega = [mpmath.fsum(masses[j + 1:]) for j in range(k - 1)]
         ends = np.array([float(x) for x in e])
+        rounded = np.array([float(x) for x in omega])
         result = FrequencyRefinement(
-            omega=np.array([float(x) for x in omega]),
+            omega=rounded,
             omega_low=np.array([float(x - mpf(float(x))) for x in omega]),
             ends=ends,
             masses=np.array([float(x) for x in masses]),
-            omega_shift=0.0,
+            omega_shift=float(np.max(np.abs(rounded - omega_double), initial=0.0)),
             ends_shift=float(np.max(np.abs(ends - ends0))),
             residual=float(mpmath.norm(F, mpmath.inf)),
             mass_defect=float(defect),
             digits=digits,
             newton_steps=steps,
         )
-    omega_double = np.asarray(measure.omega, dtype=float).reshape(k - 1)
-    result = replace(result, omega_shift=float(np.max(np.abs(result.omega - omega_double), initial=0.0)))
     if result.ends_shift > 1e-8 or result.mass_defect > 10.0 ** (-digits + 2):
         raise NumericalFailure(
             f"Ω in extended precision: the refined ends moved by {result.ends_shift:.2g} and the masses sum to 1 "
@@ -284,3 +289,11 @@ def with_refined_frequencies(measure, digits: int = 32):
     bound = 10.0 ** (2 - refined.digits) + 2.0 ** -106 * float(np.max(np.abs(refined.omega)))
     checks = {**measure.checks, **refined.checks, "omega_error": bound}
     return replace(measure, omega=refined.omega, omega_low=refined.omega_low, checks=checks)
+
+
+def refinement_figures(measure) -> dict[str, float] | None:
+    """The checks :func:`with_refined_frequencies` added to ``measure`` (:data:`REFINEMENT_CHECKS`),
+    or None when its Ω is that of the double solve."""
+    if "omega_error" not in measure.checks:
+        return None
+    return {key: float(measure.checks[key]) for key in REFINEMENT_CHECKS}

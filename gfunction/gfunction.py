@@ -153,8 +153,7 @@ class GFunction:
         ``Ω_lo`` with ``low=True``; 0 at the outer edges, where Ω(e) is 1 or 0 exactly)."""
         k = len(self.support)
         band, right = divmod(i, 2)
-        omega = self.omega if not low else (self.omega_low if self.omega_low is not None
-                                            else np.zeros_like(self.omega))
+        omega = self.omega_low if low else self.omega
         if right:
             return float(omega[band]) if band < k - 1 else 0.0
         return float(omega[band - 1]) if band > 0 else (0.0 if low else 1.0)

@@ -56,8 +56,8 @@ def measure_for_orders(mu, order: int, method: str) -> tuple[object, str]:
     from workbench.limits import refinement_over_budget
 
     kept = f"the double Omega is kept (its error {mu.checks.get('mass_error', 0.0):.1g} grows like n in the phases)"
-    if mu.field.polynomial is not None:
-        over = refinement_over_budget(len(mu.support), len(mu.field.polynomial) - 1)
+    if mu.field.degree is not None:
+        over = refinement_over_budget(len(mu.support), mu.field.degree)
         if over:
             return mu, f"{over}; {kept}"
     try:

@@ -48,7 +48,7 @@ from typing import Any, Callable, Mapping, Sequence
 import numpy as np
 
 from equilibrium.errors import InputError, NumericalFailure
-from equilibrium.refinement import REFINEMENT_CHECKS
+from equilibrium.refinement import refinement_figures
 from workbench import compare
 from workbench.case import Case
 from workbench.hdf5 import check_output_directory, check_output_file, make_output_directory
@@ -797,8 +797,9 @@ def model_predictions(case: Case, mu, ns: Sequence[int],
     # beyond leading order every prediction of the stage takes Ω to rounding (workbench.orders)
     mu, omega_note = measure_for_orders(mu, case.model.order, case.model.method)
     node.attrs["omega"] = np.asarray(mu.omega, dtype=float)
-    if "omega_error" in mu.checks:
-        node.attrs["omega_refinement"] = {k: float(mu.checks[k]) for k in REFINEMENT_CHECKS}
+    figures = refinement_figures(mu)
+    if figures is not None:
+        node.attrs["omega_refinement"] = figures
     elif omega_note:
         node.attrs["omega_refinement_skipped"] = omega_note
     pred = predictor(mu, factor=factors, on_failure="mark")

@@ -31,7 +31,7 @@ import sys
 import numpy as np
 
 from equilibrium.errors import InputError
-from equilibrium.refinement import REFINEMENT_CHECKS
+from equilibrium.refinement import refinement_figures
 from workbench.jsontext import json_text
 from workbench.orders import measure_for_orders
 
@@ -238,8 +238,7 @@ def run(args) -> int:
         "support": [list(ab) for ab in mu.support],
         "omega": [float(x) for x in mu.omega],
         # Ω re-solved in extended precision (orders >= 1, residual method, several bands): its figures
-        "omega_refinement": ({k: float(mu.checks[k]) for k in REFINEMENT_CHECKS} if "omega_error" in mu.checks
-                             else ({"note": omega_note} if omega_note else None)),
+        "omega_refinement": refinement_figures(mu) or ({"note": omega_note} if omega_note else None),
         "verified": verified,
         "checks": {k: float(v) for k, v in pred.checks.items()},
         "message": message,
